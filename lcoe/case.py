@@ -1,0 +1,250 @@
+"""Read and validate a case file (TOML) into a :class:`Case`.
+
+Every problem is raised as one :class:`~lcoe.errors.InputError` line naming the file, the key,
+the value and what is allowed. Unknown keys are errors that suggest the closest valid key.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+from .errors import InputError, field_error, unknown_key_error
+from .schema import FIELD_BY_PATH, FIELDS, REPLACEMENT_FIELDS, REQUIRED, SECTIONS, Field
+
+#: Top-level tables that are not scalar sections of the schema, with their readers elsewhere.
+LIST_TABLES = ("uncertain", "correlation")
+
+
+@dataclass(frozen=True)
+class Replacement:
+    """A scheduled replacement (e.g. inverters every 12 years).
+
+    Parameters
+    ----------
+    item : str
+        What is replaced.
+    every_years : int
+        Interval [years]; replacements happen at every multiple strictly inside the life.
+    cost_per_kw : float
+        Cost of each replacement in year-0 money [currency/kW DC].
+    """
+
+    item: str
+    every_years: int
+    cost_per_kw: float
+
+
+@dataclass(frozen=True)
+class Case:
+    """A validated case: flat dotted values with defaults filled in, plus list tables.
+
+    Attributes
+    ----------
+    source : str
+        Path of the case file as given (used in messages).
+    base_dir : pathlib.Path
+        Folder that relative paths in the case are resolved against.
+    sha256 : str
+        SHA-256 of the case file's bytes.
+    values : Mapping[str, object]
+        Every scalar key of :data:`lcoe.schema.FIELDS` by dotted path.
+    replacements : tuple of Replacement
+    uncertain : Mapping
+        The raw ``[uncertain]`` table (parsed by :mod:`lcoe.uncertainty.spec`).
+    correlation : tuple
+        The raw ``[[correlation]]`` entries.
+    """
+
+    source: str
+    base_dir: Path
+    sha256: str
+    values: Mapping[str, Any]
+    replacements: tuple[Replacement, ...] = ()
+    uncertain: Mapping[str, Any] = field(default_factory=dict)
+    correlation: tuple[Mapping[str, Any], ...] = ()
+
+    def __getitem__(self, path: str) -> Any:
+        return self.values[path]
+
+    @property
+    def name(self) -> str:
+        return str(self.values["case.name"])
+
+    @property
+    def weather_path(self) -> Path | None:
+        """Absolute path of the weather file, or None for the bundled default."""
+        w = self.values.get("site.weather")
+        return None if w is None else (self.base_dir / str(w)).resolve()
+
+    def with_values(self, overrides: Mapping[str, Any]) -> Case:
+        """A copy with some scalar values replaced (validated like the file)."""
+        vals = dict(self.values)
+        for path, v in overrides.items():
+            if path not in FIELD_BY_PATH:
+                raise unknown_key_error(self.source, path, FIELD_BY_PATH)
+            vals[path] = _coerce(FIELD_BY_PATH[path], v, self.source)
+        _check_cross_fields(vals, self.replacements, self.source)
+        return replace(self, values=MappingProxyType(vals))
+
+
+def load_case(path: str | Path) -> Case:
+    """Read and validate the case file at ``path``.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        TOML case file.
+
+    Returns
+    -------
+    Case
+
+    Raises
+    ------
+    InputError
+        One line naming the file, key, value and what is allowed.
+    """
+    p = Path(path)
+    src = str(path)
+    try:
+        raw_bytes = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{src}: case file not found") from None
+    except OSError as exc:
+        raise InputError(f"{src}: cannot read case file ({exc.strerror})") from None
+    try:
+        data = tomllib.loads(raw_bytes.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputError(f"{src}: not a UTF-8 text file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    return case_from_dict(data, source=src, base_dir=p.resolve().parent,
+                          sha256=hashlib.sha256(raw_bytes).hexdigest())
+
+
+def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
+                   sha256: str = "") -> Case:
+    """Validate a nested mapping (as read from TOML) into a :class:`Case`.
+
+    Parameters
+    ----------
+    data : Mapping
+        Nested tables as produced by :func:`tomllib.loads`.
+    source : str
+        Name of the origin for messages.
+    base_dir : pathlib.Path
+        Folder for relative paths.
+    sha256 : str
+        Hash of the origin's bytes.
+    """
+    values: dict[str, Any] = {}
+    top_allowed = set(SECTIONS) | set(LIST_TABLES)
+    for key in data:
+        if key not in top_allowed:
+            raise unknown_key_error(source, key, sorted(top_allowed))
+    for section in SECTIONS:
+        table = data.get(section, {})
+        if not isinstance(table, Mapping):
+            raise field_error(source, section, table, f"a table [{section}]")
+        extra = {"replacement"} if section == "costs" else set()
+        known = {f.key for f in FIELDS if f.section == section}
+        for key in table:
+            if key not in known and key not in extra:
+                raise unknown_key_error(source, f"{section}.{key}",
+                                        [f"{section}.{k}" for k in sorted(known | extra)])
+    for f in FIELDS:
+        table = data.get(f.section, {})
+        if f.key in table:
+            values[f.path] = _coerce(f, table[f.key], source)
+        elif f.default is REQUIRED and not f.optional:
+            raise InputError(f"{source}: missing required key '{f.path}' ({f.doc}; "
+                             f"{f.allowed()}, unit {f.unit})")
+        else:
+            values[f.path] = None if f.default is REQUIRED else f.default
+    replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
+    _check_cross_fields(values, replacements, source)
+    uncertain = data.get("uncertain", {})
+    if not isinstance(uncertain, Mapping):
+        raise field_error(source, "uncertain", uncertain, "a table [uncertain]")
+    correlation = data.get("correlation", [])
+    if not isinstance(correlation, list):
+        raise field_error(source, "correlation", correlation, "a list of [[correlation]] tables")
+    return Case(source=source, base_dir=base_dir, sha256=sha256,
+                values=MappingProxyType(values), replacements=tuple(replacements),
+                uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation))
+
+
+def _coerce(f: Field, value: Any, source: str) -> Any:
+    """Check the type and range of one value and return it in its canonical type."""
+    if f.kind == "bool":
+        if not isinstance(value, bool):
+            raise field_error(source, f.path, value, f.allowed())
+        return value
+    if f.kind in ("str", "path"):
+        if not isinstance(value, str):
+            raise field_error(source, f.path, value, f.allowed())
+        return value
+    if f.kind == "choice":
+        if value not in f.choices:
+            raise field_error(source, f.path, value, f.allowed())
+        return value
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise field_error(source, f.path, value, f.allowed())
+    if f.kind == "int":
+        if isinstance(value, float) and not value.is_integer():
+            raise field_error(source, f.path, value, f.allowed())
+        value = int(value)
+    else:
+        value = float(value)
+    if not f.in_range(value):
+        raise field_error(source, f.path, value, f.allowed())
+    return value
+
+
+def _read_replacements(entries: Any, source: str) -> list[Replacement]:
+    if not isinstance(entries, list):
+        raise field_error(source, "costs.replacement", entries,
+                          "a list of [[costs.replacement]] tables")
+    out = []
+    known = {f.key: f for f in REPLACEMENT_FIELDS}
+    for i, entry in enumerate(entries):
+        where = f"costs.replacement[{i}]"
+        if not isinstance(entry, Mapping):
+            raise field_error(source, where, entry, "a table with item, every_years, cost_per_kw")
+        for key in entry:
+            if key not in known:
+                raise unknown_key_error(source, f"{where}.{key}",
+                                        [f"{where}.{k}" for k in known])
+        vals = {}
+        for key, f in known.items():
+            if key not in entry:
+                raise InputError(f"{source}: missing key '{where}.{key}' ({f.doc}; "
+                                 f"{f.allowed()})")
+            vals[key] = _coerce(replace(f, path=f"{where}.{key}"), entry[key], source)
+        out.append(Replacement(**vals))
+    return out
+
+
+def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) -> None:
+    """Checks that involve several keys at once."""
+    life = values["case.lifetime_years"]
+    for i, r in enumerate(replacements):
+        if r.every_years >= life:
+            raise field_error(source, f"costs.replacement[{i}].every_years", r.every_years,
+                              f"a whole number of years shorter than case.lifetime_years "
+                              f"({life}); a replacement at or after the end of life never "
+                              f"happens")
+    r, infl = values["finance.discount_rate"], values["finance.inflation"]
+    if (1 + r) / (1 + infl) - 1 <= -1 + 1e-9 or not math.isfinite(r):
+        raise field_error(source, "finance.discount_rate", r,
+                          "a rate whose real value (1+r)/(1+inflation)-1 is above -100 %")
+    if values["plant.mount"] == "single_axis" and values["plant.tilt_deg"] > 45:
+        raise field_error(source, "plant.tilt_deg", values["plant.tilt_deg"],
+                          "an axis tilt in [0, 45] for a single-axis tracker")

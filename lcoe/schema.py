@@ -1,0 +1,197 @@
+"""The case-file vocabulary: every key, its type, unit, allowed range, default and meaning.
+
+One table drives validation (:mod:`lcoe.case`), the commented template written by ``lcoe new``,
+the Inputs sheet of the workbook and the list of numeric inputs that may be made uncertain.
+Units: fractions (never percent), kW of DC nameplate, kWh, degrees, the case's currency.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+REQUIRED = object()  # sentinel: the key has no default and must be given
+
+
+@dataclass(frozen=True)
+class Field:
+    """One scalar key of the case file.
+
+    Parameters
+    ----------
+    path : str
+        Dotted path ``section.key`` (sections may be nested, e.g. ``site.monthly``).
+    kind : str
+        ``"float"``, ``"int"``, ``"bool"``, ``"str"``, ``"choice"`` or ``"path"``.
+    unit : str
+        Unit shown in the template and the workbook (``"-"`` for dimensionless).
+    doc : str
+        One-line meaning.
+    default : object
+        Default value, or :data:`REQUIRED`.
+    low, high : float
+        Allowed range (inclusive unless ``low_open``/``high_open``).
+    choices : tuple of str
+        Allowed values for ``kind == "choice"``.
+    typical : str
+        Typical range shown in the template.
+    """
+
+    path: str
+    kind: str
+    unit: str
+    doc: str
+    default: object = REQUIRED
+    low: float = -math.inf
+    high: float = math.inf
+    low_open: bool = False
+    high_open: bool = False
+    choices: tuple[str, ...] = ()
+    typical: str = ""
+    optional: bool = False  # may be absent with no default (None)
+
+    @property
+    def section(self) -> str:
+        return self.path.rsplit(".", 1)[0]
+
+    @property
+    def key(self) -> str:
+        return self.path.rsplit(".", 1)[1]
+
+    @property
+    def numeric(self) -> bool:
+        return self.kind in ("float", "int")
+
+    def allowed(self) -> str:
+        """Plain description of the allowed values, for error messages."""
+        if self.kind == "choice":
+            return "one of " + ", ".join(f'"{c}"' for c in self.choices)
+        if self.kind == "bool":
+            return "true or false"
+        if self.kind in ("str", "path"):
+            return "a text string"
+        what = "a whole number" if self.kind == "int" else "a number"
+        lo = "" if self.low == -math.inf else f"{'>' if self.low_open else '>='} {self.low:g}"
+        hi = "" if self.high == math.inf else f"{'<' if self.high_open else '<='} {self.high:g}"
+        rng = " and ".join(s for s in (lo, hi) if s)
+        return f"{what} {rng}".strip()
+
+    def in_range(self, value: float) -> bool:
+        lo_ok = value > self.low if self.low_open else value >= self.low
+        hi_ok = value < self.high if self.high_open else value <= self.high
+        return bool(lo_ok and hi_ok and math.isfinite(value))
+
+
+F = Field
+FIELDS: tuple[Field, ...] = (
+    # --- case -------------------------------------------------------------------------------
+    F("case.name", "str", "-", "Name of the case, shown in every output"),
+    F("case.currency", "str", "-", "Currency code of every money amount", default="USD"),
+    F("case.lifetime_years", "int", "years", "Operating life after financial close",
+      low=1, high=60, typical="25-35"),
+    F("case.description", "str", "-", "Free text describing the case", default=""),
+    # --- site -------------------------------------------------------------------------------
+    F("site.latitude_deg", "float", "deg", "Latitude, north positive", low=-90, high=90),
+    F("site.longitude_deg", "float", "deg", "Longitude, east positive", low=-180, high=180),
+    F("site.altitude_m", "float", "m", "Altitude above sea level", low=-500, high=9000,
+      typical="0-3000"),
+    F("site.timezone", "str", "-",
+      "IANA time zone or fixed offset (e.g. 'Etc/GMT+5' = UTC-5) used for local-time tables; "
+      "must agree with the weather file's offset", optional=True),
+    F("site.weather", "path", "-",
+      "Weather file (TMY3 .csv, EPW .epw or plain CSV) relative to this case file; "
+      "absent = the TMY3 file bundled with pvlib (Greensboro, NC, USA)", optional=True),
+    F("site.weather_time_label", "choice", "-",
+      "For plain CSV weather: whether each timestamp marks the start, the end or the centre of "
+      "its hour (TMY3 and EPW are always hour-ending)", choices=("start", "end", "center"),
+      optional=True),
+    F("site.albedo", "float", "-", "Ground reflectance", default=0.2, low=0, high=1,
+      typical="0.15-0.30 (grass, soil); 0.6-0.8 fresh snow"),
+    # --- plant ------------------------------------------------------------------------------
+    F("plant.mount", "choice", "-", "Mounting structure", choices=("fixed", "single_axis"),
+      default="fixed"),
+    F("plant.tilt_deg", "float", "deg", "Fixed mount: tilt from horizontal; single-axis: "
+      "axis tilt", default=20.0, low=0, high=90, typical="10-35 fixed; 0 trackers"),
+    F("plant.azimuth_deg", "float", "deg", "Fixed mount: azimuth the modules face (180 = south); "
+      "single-axis: azimuth of the axis (180 = north-south axis)", default=180.0,
+      low=0, high=360, high_open=True),
+    F("plant.gcr", "float", "-", "Ground coverage ratio: module area / ground area (trackers: "
+      "backtracking; all mounts: land use)", default=0.4, low=0, high=1, low_open=True,
+      typical="0.3-0.5"),
+    F("plant.max_rotation_deg", "float", "deg", "Single-axis: largest rotation from horizontal",
+      default=60.0, low=0, high=90, low_open=True, typical="45-60"),
+    F("plant.backtrack", "bool", "-", "Single-axis: backtrack to avoid row-to-row shading",
+      default=True),
+    F("plant.dc_capacity_kw", "float", "kW", "DC nameplate capacity at STC", low=0,
+      low_open=True),
+    F("plant.dc_ac_ratio", "float", "-", "DC nameplate / inverter AC rating", default=1.25,
+      low=0, high=5, low_open=True, typical="1.1-1.4"),
+    F("plant.module_efficiency", "float", "-", "Module efficiency at STC (sets cell area)",
+      default=0.21, low=0, high=1, low_open=True, typical="0.19-0.23 crystalline silicon"),
+    F("plant.temp_coeff_per_c", "float", "1/C", "Power temperature coefficient (gamma)",
+      default=-0.0035, low=-0.02, high=0.0, typical="-0.0030 to -0.0045 (common practice)"),
+    F("plant.thermal_u0", "float", "W/m2/K", "Faiman constant heat-loss factor", default=25.0,
+      low=0, low_open=True, typical="25 (Faiman 2008)"),
+    F("plant.thermal_u1", "float", "W s/m3/K", "Faiman wind heat-loss factor", default=6.84,
+      low=0, typical="6.84 (Faiman 2008)"),
+    F("plant.dc_loss_fraction", "float", "-", "DC losses: soiling, mismatch, wiring, nameplate",
+      default=0.07, low=0, high=1, high_open=True, typical="0.05-0.12"),
+    F("plant.inverter_efficiency", "float", "-", "Inverter nominal efficiency (part-load curve "
+      "of Dobos 2014)", default=0.98, low=0, high=1, low_open=True, typical="0.96-0.99"),
+    F("plant.ac_loss_fraction", "float", "-", "AC losses after the inverter: transformer, AC "
+      "wiring", default=0.015, low=0, high=1, high_open=True, typical="0.01-0.03"),
+    F("plant.availability", "float", "-", "Fraction of energy not lost to outages",
+      default=0.99, low=0, high=1, low_open=True, typical="0.97-0.995"),
+    F("plant.degradation_per_year", "float", "1/year", "Linear loss of output per year",
+      default=0.005, low=0, high=0.1, typical="0.005 median (Jordan & Kurtz 2013)"),
+    F("plant.transposition", "choice", "-", "Sky-diffuse transposition model",
+      choices=("perez", "haydavies", "isotropic"), default="perez"),
+    F("plant.aoi_model", "choice", "-", "Angle-of-incidence loss model for beam light",
+      choices=("physical", "ashrae"), default="physical"),
+    # --- costs ------------------------------------------------------------------------------
+    F("costs.capex_per_kw", "float", "currency/kW", "Installed cost at financial close",
+      low=0, typical="700-1300 utility scale"),
+    F("costs.fixed_om_per_kw_year", "float", "currency/kW/year",
+      "Fixed O&M in year-0 money, escalated with inflation", default=0.0, low=0,
+      typical="10-25"),
+    F("costs.variable_om_per_kwh", "float", "currency/kWh",
+      "Variable O&M in year-0 money, escalated with inflation", default=0.0, low=0),
+    F("costs.decommissioning_per_kw", "float", "currency/kW",
+      "Decommissioning in year-0 money, paid in the last year", default=0.0, low=0),
+    F("costs.salvage_per_kw", "float", "currency/kW",
+      "Salvage value in year-0 money, received in the last year", default=0.0, low=0),
+    # --- finance ----------------------------------------------------------------------------
+    F("finance.discount_rate", "float", "1/year", "Nominal discount rate (after-tax WACC or "
+      "the investor's hurdle rate)", low=-1, low_open=True, high=1, typical="0.05-0.10"),
+    F("finance.inflation", "float", "1/year", "General inflation; also escalates O&M",
+      default=0.02, low=-0.5, high=1, typical="0.02-0.03"),
+)
+
+#: Keys of each ``[[costs.replacement]]`` entry.
+REPLACEMENT_FIELDS: tuple[Field, ...] = (
+    F("costs.replacement.item", "str", "-", "What is replaced"),
+    F("costs.replacement.every_years", "int", "years", "Interval between replacements",
+      low=1),
+    F("costs.replacement.cost_per_kw", "float", "currency/kW",
+      "Cost of each replacement in year-0 money, escalated with inflation", low=0),
+)
+
+FIELD_BY_PATH: dict[str, Field] = {f.path: f for f in FIELDS}
+SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(f.section for f in FIELDS))
+#: Sections that hold lists or tables handled outside the scalar schema.
+EXTRA_KEYS: dict[str, tuple[str, ...]] = {
+    "costs": ("replacement",),
+    "": ("uncertain", "correlation"),
+}
+
+
+def numeric_paths() -> list[str]:
+    """Dotted paths of every numeric input (candidates for ``[uncertain]``)."""
+    return [f.path for f in FIELDS if f.numeric]
+
+
+#: Inputs that change the plane-of-array irradiance (the geometry); every other energy input
+#: acts downstream of it and is evaluated vectorised over samples.
+GEOMETRY_PATHS: tuple[str, ...] = (
+    "plant.tilt_deg", "plant.azimuth_deg", "plant.gcr", "plant.max_rotation_deg",
+)

@@ -1,0 +1,302 @@
+"""Read and check hourly weather: TMY3, EPW and plain CSV.
+
+Every reader returns a :class:`Weather` whose index marks the **start** of each hour-long
+interval in the file's own fixed UTC offset; solar geometry is then evaluated at the interval
+centre (start + 30 min), the usual treatment of hourly averages. TMY3 and EPW label each hour by
+its end; a plain CSV must say how it labels its hours (``site.weather_time_label``).
+
+Checks on import (each a one-line :class:`~lcoe.errors.InputError` naming the file and row):
+missing columns, gaps or NaN, irradiance below -10 W/m2 (small negatives are night-time sensor
+offsets and are set to 0), GHI above 1500 W/m2, steps that are not one hour, timestamps without
+a UTC offset (ambiguous time zone), duplicate timestamps, and coverage that is neither one year
+of consecutive hours (8760 or 8784) nor whole calendar years.
+"""
+
+from __future__ import annotations
+
+import io
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+
+COLUMNS = ("ghi", "dni", "dhi", "temp_air", "wind_speed")
+UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_speed": "m/s"}
+GHI_MAX_W_M2 = 1500.0
+NEGATIVE_TOLERANCE_W_M2 = -10.0
+
+
+def bundled_weather_path() -> Path:
+    """The TMY3 file that the pvlib package ships (Greensboro, NC, USA; station 723170)."""
+    import pvlib
+
+    return Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
+
+
+@dataclass(frozen=True)
+class Weather:
+    """Hourly weather with its provenance.
+
+    Attributes
+    ----------
+    data : pandas.DataFrame
+        Columns ``ghi, dni, dhi`` [W/m2], ``temp_air`` [C], ``wind_speed`` [m/s]; index: start of
+        each hour, tz-aware with a fixed offset.
+    source : str
+        File the data came from.
+    fmt : str
+        ``"tmy3"``, ``"epw"``, ``"csv"`` or ``"synthetic"``.
+    latitude_deg, longitude_deg, altitude_m : float or None
+        Station coordinates from the file's header, when it has them.
+    utc_offset_h : float
+        The index's offset from UTC [h].
+    name : str
+        Station name, when known.
+    typical_year : bool
+        True for a typical-year file (months from different years), False for measured years.
+    notes : list of str
+        Corrections made on import (e.g. small negative values set to zero).
+    """
+
+    data: pd.DataFrame
+    source: str
+    fmt: str
+    latitude_deg: float | None = None
+    longitude_deg: float | None = None
+    altitude_m: float | None = None
+    utc_offset_h: float = 0.0
+    name: str = ""
+    typical_year: bool = True
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def n_hours(self) -> int:
+        return len(self.data)
+
+    @property
+    def years(self) -> np.ndarray:
+        """Calendar year of each hour (by interval start, local standard time)."""
+        return self.data.index.year.to_numpy()
+
+    @property
+    def n_years(self) -> float:
+        """Number of years the file covers (1 for a typical year)."""
+        return 1.0 if self.typical_year else float(len(np.unique(self.years)))
+
+    @property
+    def mid_times(self) -> pd.DatetimeIndex:
+        """Interval centres, where solar position is evaluated."""
+        return self.data.index + pd.Timedelta(minutes=30)
+
+
+def read_weather(path: str | Path, time_label: str | None = None) -> Weather:
+    """Read a weather file, choosing the reader from its content and extension.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        TMY3 (``.csv`` whose first line is the station header), EPW (``.epw``) or plain CSV
+        with a header ``timestamp,ghi,dni,dhi,temp_air,wind_speed`` [W/m2, C, m/s] and
+        timestamps carrying a UTC offset (ISO 8601, e.g. ``2021-06-01T12:00:00+02:00``).
+    time_label : {"start", "end", "center"} or None
+        How a plain CSV labels its hours. Required for plain CSV; TMY3/EPW are hour-ending.
+
+    Returns
+    -------
+    Weather
+    """
+    p = Path(path)
+    src = str(path)
+    if not p.is_file():
+        raise InputError(f"{src}: weather file not found")
+    if p.suffix.lower() == ".epw":
+        return _read_epw(p, src)
+    with open(p, encoding="utf-8", errors="replace") as fh:
+        first = fh.readline()
+    if _looks_like_tmy3_header(first):
+        return _read_tmy3(p, src)
+    return _read_csv(p, src, time_label)
+
+
+def _looks_like_tmy3_header(line: str) -> bool:
+    parts = line.strip().split(",")
+    if len(parts) < 7:
+        return False
+    try:
+        float(parts[3]), float(parts[4]), float(parts[5]), float(parts[6])
+    except ValueError:
+        return False
+    return True
+
+
+def _read_tmy3(p: Path, src: str) -> Weather:
+    import pvlib
+
+    try:
+        raw, meta = pvlib.iotools.read_tmy3(p, coerce_year=1990, map_variables=True)
+    except Exception as exc:  # pvlib raises many types on malformed files
+        raise InputError(f"{src}: not a readable TMY3 file ({type(exc).__name__}: {exc})") \
+            from None
+    df = _hour_ending_to_start(raw)
+    return _finish(df, src, "tmy3", meta.get("latitude"), meta.get("longitude"),
+                   meta.get("altitude"), float(meta["TZ"]),
+                   str(meta.get("Name", "")).strip('"'), typical=True)
+
+
+def _read_epw(p: Path, src: str) -> Weather:
+    import pvlib
+
+    try:
+        raw, meta = pvlib.iotools.read_epw(p, coerce_year=1990)
+    except Exception as exc:
+        raise InputError(f"{src}: not a readable EPW file ({type(exc).__name__}: {exc})") \
+            from None
+    df = _hour_ending_to_start(raw)
+    return _finish(df, src, "epw", meta.get("latitude"), meta.get("longitude"),
+                   meta.get("altitude"), float(meta["TZ"]), str(meta.get("city", "")),
+                   typical=True)
+
+
+def _hour_ending_to_start(raw: pd.DataFrame) -> pd.DataFrame:
+    df = raw.copy()
+    df.index = df.index - pd.Timedelta(hours=1)
+    return df
+
+
+def _read_csv(p: Path, src: str, time_label: str | None) -> Weather:
+    if time_label is None:
+        raise InputError(f"{src}: plain CSV weather needs site.weather_time_label = \"start\", "
+                         f"\"end\" or \"center\" in the case file (how each timestamp labels "
+                         f"its hour)")
+    text = p.read_text(encoding="utf-8", errors="replace")
+    try:
+        df = pd.read_csv(io.StringIO(text), dtype={0: str})
+    except Exception as exc:
+        raise InputError(f"{src}: not a readable CSV file ({exc})") from None
+    df.columns = [c.strip() for c in df.columns]
+    if "timestamp" not in df.columns:
+        raise InputError(f"{src}: missing column 'timestamp' (found: {', '.join(df.columns)})")
+    stamps = df.pop("timestamp").astype(str).str.strip()
+    index = _parse_stamps(stamps, src)
+    df.index = index
+    if time_label == "end":
+        df.index = df.index - pd.Timedelta(hours=1)
+    elif time_label == "center":
+        df.index = df.index - pd.Timedelta(minutes=30)
+    offsets = {ts.utcoffset() for ts in df.index[:: max(1, len(df) // 50)]}
+    offset_h = next(iter(offsets)).total_seconds() / 3600.0
+    return _finish(df, src, "csv", None, None, None, offset_h, p.stem, typical=False)
+
+
+def _parse_stamps(stamps: pd.Series, src: str) -> pd.DatetimeIndex:
+    """Parse ISO timestamps with offsets; '24:00' means midnight at the end of the day."""
+    fixed = stamps.copy()
+    is24 = fixed.str.contains(r"[T ]24:00", regex=True)
+    fixed[is24] = fixed[is24].str.replace(r"([T ])24:00", r"\g<1>00:00", regex=True)
+    parsed = []
+    for i, s in enumerate(fixed):
+        try:
+            ts = pd.Timestamp(s)
+        except (ValueError, TypeError):
+            raise InputError(f"{src}: row {i + 2}: timestamp {stamps.iloc[i]!r} is not an "
+                             f"ISO 8601 date-time") from None
+        if ts.tzinfo is None:
+            raise InputError(f"{src}: row {i + 2}: timestamp {stamps.iloc[i]!r} has no UTC "
+                             f"offset; the time zone is ambiguous (write e.g. "
+                             f"2021-06-01T12:00:00+02:00)")
+        if is24.iloc[i]:
+            ts = ts + pd.Timedelta(days=1)
+        parsed.append(ts)
+    offsets = {ts.utcoffset() for ts in parsed}
+    if len(offsets) > 1:
+        raise InputError(f"{src}: timestamps mix several UTC offsets ({len(offsets)}), e.g. "
+                         f"daylight saving time; write every hour in one fixed offset")
+    return pd.DatetimeIndex(parsed)
+
+
+def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float, name: str,
+            typical: bool) -> Weather:
+    missing = [c for c in COLUMNS if c not in df.columns]
+    if missing:
+        raise InputError(f"{src}: missing column(s) {', '.join(missing)} "
+                         f"(need {', '.join(COLUMNS)} in W/m2, C, m/s)")
+    data = df[list(COLUMNS)].apply(pd.to_numeric, errors="coerce").astype(float)
+    row0 = 2 if fmt == "csv" else 3 if fmt == "tmy3" else 9  # first data line in the file
+    notes: list[str] = []
+    values = data.to_numpy()
+    bad = ~np.isfinite(values)
+    if bad.any():
+        r, c = np.argwhere(bad)[0]
+        raise InputError(f"{src}: row {r + row0}: {COLUMNS[c]} is missing or not a number "
+                         f"({int(bad.any(axis=1).sum())} rows affected); fill gaps before use")
+    idx = data.index
+    if idx.has_duplicates:
+        r = int(np.argmax(idx.duplicated()))
+        raise InputError(f"{src}: row {r + row0}: duplicate timestamp {idx[r]}")
+    off_step = (idx[1:] - idx[:-1]) != pd.Timedelta(hours=1)
+    if off_step.any():
+        r = int(np.argmax(off_step)) + 1
+        raise InputError(f"{src}: row {r + row0}: step from {idx[r - 1]} to {idx[r]} is not one "
+                         f"hour; hourly data without gaps is required")
+    for c in ("ghi", "dni", "dhi"):
+        col = data[c].to_numpy()
+        if (col < NEGATIVE_TOLERANCE_W_M2).any():
+            r = int(np.argmax(col < NEGATIVE_TOLERANCE_W_M2))
+            raise InputError(f"{src}: row {r + row0}: {c} = {col[r]:g} W/m2 is negative; "
+                             f"allowed: >= 0 (values down to {NEGATIVE_TOLERANCE_W_M2:g} are "
+                             f"treated as sensor offsets)")
+        n_neg = int((col < 0).sum())
+        if n_neg:
+            data[c] = np.maximum(col, 0.0)
+            notes.append(f"{n_neg} small negative {c} values set to 0")
+    ghi = data["ghi"].to_numpy()
+    if (ghi > GHI_MAX_W_M2).any():
+        r = int(np.argmax(ghi > GHI_MAX_W_M2))
+        raise InputError(f"{src}: row {r + row0}: ghi = {ghi[r]:g} W/m2 is above "
+                         f"{GHI_MAX_W_M2:g} W/m2, physically implausible at ground level")
+    n = len(data)
+    years = idx.year
+    whole_years = all(
+        (years == y).sum() == (8784 if pd.Timestamp(year=y, month=1, day=1).is_leap_year
+                               else 8760) for y in np.unique(years))
+    if not (n in (8760, 8784) or whole_years):
+        raise InputError(f"{src}: {n} hourly rows cover neither one year (8760 or 8784 "
+                         f"consecutive hours) nor whole calendar years")
+    if lat is not None and not -90 <= float(lat) <= 90:
+        raise InputError(f"{src}: header latitude = {lat!r}: expected a number in [-90, 90]")
+    return Weather(data=data, source=src, fmt=fmt,
+                   latitude_deg=None if lat is None else float(lat),
+                   longitude_deg=None if lon is None else float(lon),
+                   altitude_m=None if alt is None else float(alt),
+                   utc_offset_h=float(offset_h), name=name,
+                   typical_year=bool(typical or len(np.unique(years)) == 1 or not whole_years),
+                   notes=tuple(notes))
+
+
+def check_timezone(weather: Weather, timezone: str | None, source: str) -> None:
+    """Refuse a case time zone whose standard-time offset differs from the weather file's.
+
+    Parameters
+    ----------
+    weather : Weather
+    timezone : str or None
+        IANA name or fixed offset from the case; None accepts the file's offset.
+    source : str
+        Case file, for the message.
+    """
+    if timezone is None:
+        return
+    try:
+        jan = pd.Timestamp("2021-01-15 12:00").tz_localize(timezone)
+        jul = pd.Timestamp("2021-07-15 12:00").tz_localize(timezone)
+    except Exception:
+        raise InputError(f"{source}: site.timezone = {timezone!r}: expected an IANA time zone "
+                         f"name such as 'Europe/Madrid' or 'Etc/GMT+5'") from None
+    std = min(jan.utcoffset(), jul.utcoffset()).total_seconds() / 3600.0
+    if abs(std - weather.utc_offset_h) > 1e-9:
+        raise InputError(f"{source}: site.timezone = {timezone!r} (UTC{std:+g} h standard time) "
+                         f"disagrees with the weather file {weather.source} (UTC"
+                         f"{weather.utc_offset_h:+g} h); the time zone is ambiguous")
