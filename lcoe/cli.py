@@ -1,0 +1,151 @@
+"""Command line: ``lcoe run | check | new | demo``. Thin: parses, calls the runner, prints.
+
+Bad input of any kind ends with one line on stderr and exit status 2, without a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from .errors import InputError
+
+#: Folder of the bundled case files (the repository's ``inputs/``).
+INPUTS_DIR = Path(__file__).resolve().parent.parent / "inputs"
+DEMO_CASE = INPUTS_DIR / "demo_fixed_tilt.toml"
+
+
+def _fmt_money(x: float) -> str:
+    return f"{x:,.4f}"
+
+
+def format_table(result) -> str:
+    """The compact result table printed by ``lcoe run``."""
+    case = result.case
+    cur = case["case.currency"]
+    e, c = result.base.energy, result.base.cashflow
+    rows = [
+        ("Case", case.name),
+        ("Weather", f"{result.site.weather.name or result.site.weather.source} "
+                    f"({result.site.weather.fmt}, {result.site.weather.n_hours} h)"),
+        ("Plant", f"{case['plant.dc_capacity_kw']:,.0f} kW DC, {case['plant.mount']}, "
+                  f"DC/AC {case['plant.dc_ac_ratio']:.2f}"),
+        ("First-year energy", f"{e.annual_kwh[0]:,.0f} kWh"),
+        ("Specific yield", f"{e.specific_yield_kwh_per_kw[0]:,.1f} kWh/kW"),
+        ("Performance ratio", f"{e.performance_ratio[0]:.3f} (IEC 61724-1)"),
+        ("Clipping loss", f"{100 * e.clipping_loss_fraction[0]:.2f} % of inverter output"),
+        ("NPV of costs", f"{c.pv_costs[0]:,.0f} {cur}"),
+        ("LCOE real", f"{_fmt_money(c.lcoe_real[0])} {cur}/kWh "
+                      f"(real rate {100 * c.real_rate[0]:.2f} %)"),
+        ("LCOE nominal", f"{_fmt_money(c.lcoe_nominal[0])} {cur}/kWh "
+                         f"(nominal rate {100 * c.nominal_rate[0]:.2f} %)"),
+    ]
+    width = max(len(k) for k, _ in rows)
+    lines = [f"  {k:<{width}}  {v}" for k, v in rows]
+    for block in result.extras.values():
+        if hasattr(block, "table_lines"):
+            lines += [""] + block.table_lines()
+    for n in result.notes:
+        lines.append(f"  note: {n}")
+    return "\n".join(lines)
+
+
+def _cmd_run(args) -> int:
+    from .runner import run_case, write_outputs
+
+    result = run_case(args.case)
+    out = Path(args.out) if args.out else Path("outputs") / Path(args.case).stem
+    write_outputs(result, out, force=args.force, replace_own=args.replace_own)
+    if not args.quiet:
+        print(format_table(result))
+        print(f"  wrote {out}/")
+    return 0
+
+
+def _cmd_check(args) -> int:
+    from .case import load_case
+    from .model import load_weather_for
+
+    case = load_case(args.case)
+    weather = load_weather_for(case)
+    print(f"{args.case}: valid")
+    print(f"  case     {case.name} ({case['case.lifetime_years']} years, "
+          f"{case['case.currency']})")
+    print(f"  site     {case['site.latitude_deg']:.4f}, {case['site.longitude_deg']:.4f}, "
+          f"{case['site.altitude_m']:.0f} m")
+    print(f"  weather  {weather.source} ({weather.fmt}, {weather.n_hours} hours, "
+          f"UTC{weather.utc_offset_h:+g} h)")
+    print(f"  plant    {case['plant.dc_capacity_kw']:,.0f} kW DC, {case['plant.mount']}, "
+          f"{case['plant.transposition']} transposition")
+    print(f"  would run: hourly energy, {case['case.lifetime_years']}-year cash flow, LCOE")
+    return 0
+
+
+def _cmd_new(args) -> int:
+    from .template import template_text
+
+    path = Path(args.path)
+    if path.exists() and not args.force:
+        raise InputError(f"{path}: file exists; add --force to replace it")
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text(template_text(), encoding="utf-8")
+    tmp.replace(path)
+    print(f"wrote {path} (edit it, then: lcoe check {path})")
+    return 0
+
+
+def _cmd_demo(args) -> int:
+    if not DEMO_CASE.is_file():
+        raise InputError(f"{DEMO_CASE}: bundled demo case not found (install from a clone of "
+                         f"the repository with pip install -e .)")
+    args.case = str(DEMO_CASE)
+    args.replace_own = args.out is None
+    args.out = args.out or str(Path("outputs") / "demo")
+    return _cmd_run(args)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="lcoe", description="Cost of solar electricity under uncertainty.")
+    sub = p.add_subparsers(dest="command", required=True)
+
+    def out_opts(sp, default_help):
+        sp.add_argument("--out", help=f"output folder ({default_help})")
+        sp.add_argument("--force", action="store_true",
+                        help="write into a non-empty output folder, replacing files")
+        sp.add_argument("--quiet", action="store_true", help="print nothing but errors")
+
+    r = sub.add_parser("run", help="run a case file and write results")
+    r.add_argument("case", help="case file (.toml)")
+    out_opts(r, "default outputs/<case name>")
+    r.set_defaults(func=_cmd_run, replace_own=False)
+    c = sub.add_parser("check", help="validate a case file and say what would run")
+    c.add_argument("case")
+    c.set_defaults(func=_cmd_check)
+    n = sub.add_parser("new", help="write a commented case-file template")
+    n.add_argument("path")
+    n.add_argument("--force", action="store_true", help="replace an existing file")
+    n.set_defaults(func=_cmd_new)
+    d = sub.add_parser("demo", help="run the bundled demo case")
+    out_opts(d, "default outputs/demo")
+    d.set_defaults(func=_cmd_demo)
+    return p
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except InputError as exc:
+        print(f"lcoe: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("lcoe: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Exporters: read result dataclasses and write files; they compute nothing of their own."""

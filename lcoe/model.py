@@ -1,0 +1,194 @@
+"""The one vectorised model: case values per sample -> energy -> cash flow -> LCOE.
+
+:func:`prepare` does the work that depends only on the site and the weather (reading the file,
+solar position); :func:`evaluate` runs any number of parameter sets through the hourly physics
+and the cash flow. The plane-of-array irradiance is computed once per distinct geometry and
+shared; everything downstream is numpy over the samples axis. A deterministic run is one sample.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .case import Case
+from .cashflow import CashFlow, build_cashflow, energy_by_year
+from .energy import ENERGY_PARAMS, EnergyResult, simulate
+from .errors import InputError
+from .irradiance import (Geometry, PlaneOfArray, SolarPosition, orientation, plane_of_array,
+                         solar_position)
+from .schema import GEOMETRY_PATHS
+from .weather import Weather, bundled_weather_path, check_timezone, read_weather
+
+
+@dataclass
+class Site:
+    """Weather and sun for a case, plus a cache of plane-of-array irradiance by geometry.
+
+    Attributes
+    ----------
+    weather : Weather
+    sun : SolarPosition
+    notes : list of str
+        Remarks for the report (e.g. coordinates far from the weather station).
+    """
+
+    weather: Weather
+    sun: SolarPosition
+    notes: list = field(default_factory=list)
+    _poa_cache: dict = field(default_factory=dict, repr=False)
+
+    def poa(self, geometry: Geometry, transposition: str) -> PlaneOfArray:
+        """Plane-of-array irradiance for ``geometry`` (computed once, then cached)."""
+        key = (geometry, transposition)
+        if key not in self._poa_cache:
+            tilt, az = orientation(geometry, self.sun)
+            self._poa_cache[key] = plane_of_array(self.weather, self.sun, tilt, az,
+                                                  transposition)
+        return self._poa_cache[key]
+
+
+@dataclass(frozen=True)
+class ModelOutput:
+    """Energy and cash flow for every sample.
+
+    Attributes
+    ----------
+    energy : EnergyResult
+        Totals of the weather file's average year, (n_s,) arrays.
+    cashflow : CashFlow
+        (n_s, N + 1) arrays and LCOE (n_s,).
+    """
+
+    energy: EnergyResult
+    cashflow: CashFlow
+
+
+def load_weather_for(case: Case) -> Weather:
+    """Read the case's weather file (or the bundled one) and check its time zone."""
+    path = case.weather_path or bundled_weather_path()
+    weather = read_weather(path, case["site.weather_time_label"])
+    check_timezone(weather, case["site.timezone"], case.source)
+    return weather
+
+
+def prepare(case: Case, weather: Weather | None = None) -> Site:
+    """Read the weather and compute solar position for a case.
+
+    Parameters
+    ----------
+    case : Case
+    weather : Weather, optional
+        Already-read weather (e.g. synthetic); read from the case when omitted.
+    """
+    weather = weather or load_weather_for(case)
+    lat, lon = case["site.latitude_deg"], case["site.longitude_deg"]
+    notes = list(weather.notes)
+    if weather.latitude_deg is not None and (abs(weather.latitude_deg - lat) > 1.0 or
+                                             abs(weather.longitude_deg - lon) > 1.0):
+        notes.append(f"site coordinates ({lat:.3f}, {lon:.3f}) are more than 1 deg from the "
+                     f"weather station ({weather.latitude_deg:.3f}, "
+                     f"{weather.longitude_deg:.3f})")
+    sun = solar_position(weather, lat, lon, case["site.altitude_m"])
+    return Site(weather=weather, sun=sun, notes=notes)
+
+
+def base_params(case: Case, n_samples: int = 1) -> dict:
+    """Every numeric case value (and replacement costs) as arrays of shape (n_samples,)."""
+    out = {}
+    for path, value in case.values.items():
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            out[path] = np.full(n_samples, float(value))
+    for i, r in enumerate(case.replacements):
+        out[f"costs.replacement[{i}].cost_per_kw"] = np.full(n_samples, r.cost_per_kw)
+        out[f"costs.replacement[{i}].every_years"] = np.full(n_samples, float(r.every_years))
+    return out
+
+
+def _geometry(case: Case, params: Mapping, i: int) -> Geometry:
+    return Geometry(mount=case["plant.mount"], tilt_deg=float(params["plant.tilt_deg"][i]),
+                    azimuth_deg=float(params["plant.azimuth_deg"][i]),
+                    gcr=float(params["plant.gcr"][i]),
+                    max_rotation_deg=float(params["plant.max_rotation_deg"][i]),
+                    backtrack=bool(case["plant.backtrack"]))
+
+
+def evaluate(case: Case, site: Site, params: Mapping | None = None,
+             weather_factors: np.ndarray | None = None, chunk_size: int = 128,
+             keep_hourly: bool = False) -> ModelOutput:
+    """Run parameter sets through the hourly physics and the cash flow.
+
+    Parameters
+    ----------
+    case : Case
+        Supplies the non-numeric choices (mount, models) and the base values.
+    site : Site
+        From :func:`prepare`.
+    params : mapping of str to numpy.ndarray, optional
+        Dotted path -> values of shape (n_s,); paths not given take the case's value. Omitted:
+        one sample at the case's values.
+    weather_factors : numpy.ndarray, optional
+        Energy multiplier per operating year, (n_s, N) (year-to-year weather and persistent
+        energy uncertainty).
+    chunk_size : int
+        Samples per chunk in the hourly model (memory bound).
+    keep_hourly : bool
+        Keep hourly delivered power (for checks; memory grows with n_s).
+
+    Returns
+    -------
+    ModelOutput
+    """
+    params = dict(params or {})
+    n_s = max([np.asarray(v).size for v in params.values()] or [1])
+    full = base_params(case, n_s)
+    for k, v in params.items():
+        full[k] = np.broadcast_to(np.asarray(v, dtype=float), (n_s,))
+    life = int(case["case.lifetime_years"])
+    for path in GEOMETRY_PATHS:
+        if path not in full:
+            full[path] = np.full(n_s, float(case[path]))
+    geo_keys = np.stack([full[p] for p in GEOMETRY_PATHS], axis=1)
+    uniq, inverse = np.unique(geo_keys, axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    transposition = case["plant.transposition"]
+    parts = []
+    for g in range(uniq.shape[0]):
+        idx = np.nonzero(inverse == g)[0]
+        poa = site.poa(_geometry(case, full, int(idx[0])), transposition)
+        sub = {k: full[k][idx] for k in ENERGY_PARAMS}
+        parts.append((idx, simulate(poa, site.weather, sub, case["plant.aoi_model"],
+                                    chunk_size=chunk_size, keep_hourly=keep_hourly)))
+    energy = parts[0][1] if len(parts) == 1 else _merge(parts, n_s)
+    e_by_year = energy_by_year(energy.annual_kwh, full["plant.degradation_per_year"], life,
+                               weather_factors)
+    cash = build_cashflow(full, case.replacements, life, e_by_year)
+    if not np.all(np.isfinite(cash.lcoe_real)):
+        bad = int(np.argmax(~np.isfinite(cash.lcoe_real)))
+        raise InputError(f"{case.source}: the model gave a non-finite LCOE for sample {bad} "
+                         f"(discounted energy {cash.pv_energy_real_kwh[bad]:g} kWh); "
+                         f"check that the plant delivers energy")
+    return ModelOutput(energy=energy, cashflow=cash)
+
+
+def _merge(parts, n_s: int) -> EnergyResult:
+    """Reassemble per-geometry energy results into sample order."""
+    first = parts[0][1]
+
+    def gather(get):
+        shape = (n_s,) + get(first).shape[1:]
+        out = np.empty(shape)
+        for idx, res in parts:
+            out[idx] = get(res)
+        return out
+
+    hourly = None if first.hourly_ac_kw is None else gather(lambda r: r.hourly_ac_kw)
+    return EnergyResult(
+        annual_kwh=gather(lambda r: r.annual_kwh), monthly_kwh=gather(lambda r: r.monthly_kwh),
+        yearly_kwh=gather(lambda r: r.yearly_kwh),
+        loss_chain_kwh={k: gather(lambda r, k=k: r.loss_chain_kwh[k])
+                        for k in first.loss_chain_kwh},
+        poa_kwh_m2=gather(lambda r: r.poa_kwh_m2),
+        dc_capacity_kw=gather(lambda r: r.dc_capacity_kw), hourly_ac_kw=hourly)

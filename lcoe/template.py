@@ -1,0 +1,76 @@
+"""``lcoe new``: a commented case file with every key, its unit, allowed range and typical values.
+
+The text is generated from :data:`lcoe.schema.FIELDS`, so it can never drift from what the
+validator accepts. The example values for required keys give a runnable case at the site of the
+bundled weather file.
+"""
+
+from __future__ import annotations
+
+from .schema import FIELDS, REPLACEMENT_FIELDS, REQUIRED, Field
+
+#: Example values for keys that have no default (a runnable case at the bundled site).
+EXAMPLES = {
+    "case.name": "New fixed-tilt plant",
+    "case.lifetime_years": 30,
+    "site.latitude_deg": 36.1,
+    "site.longitude_deg": -79.95,
+    "site.altitude_m": 273.0,
+    "plant.dc_capacity_kw": 5000.0,
+    "costs.capex_per_kw": 950.0,
+    "finance.discount_rate": 0.07,
+}
+
+
+def _toml_value(v) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, str):
+        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    return repr(v)
+
+
+def _line(f: Field, value, commented: bool = False) -> list[str]:
+    info = f"{f.doc} [{f.unit}]; allowed: {f.allowed()}"
+    if f.typical:
+        info += f"; typical: {f.typical}"
+    out = [f"# {info}"]
+    out.append(f"{'# ' if commented else ''}{f.key} = {_toml_value(value)}")
+    return out
+
+
+def template_text() -> str:
+    """The commented template as TOML text."""
+    lines = [
+        "# lcoe case file. Units: fractions (0.07 = 7 %), kW of DC nameplate, kWh, degrees,",
+        "# money in the case currency (year-0 money unless stated). Paths are relative to this",
+        "# file. Keys shown commented out are optional; their defaults are shown.",
+        "",
+    ]
+    section = None
+    for f in FIELDS:
+        if f.section != section:
+            section = f.section
+            lines += ["", f"[{section}]"]
+        if f.default is REQUIRED and not f.optional:
+            lines += _line(f, EXAMPLES[f.path])
+        elif f.default is REQUIRED:
+            example = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
+                       "site.weather_time_label": "start"}[f.path]
+            lines += _line(f, example, commented=True)
+        else:
+            lines += _line(f, f.default)
+        if f.path == "costs.salvage_per_kw":
+            lines += ["", "# Scheduled replacements, one table each (add as many as needed):",
+                      "[[costs.replacement]]"]
+            for rf, v in zip(REPLACEMENT_FIELDS, ("inverters", 12, 60.0)):
+                lines += _line(rf, v)
+    lines += [
+        "",
+        "# Uncertain inputs (optional): any numeric key above by its dotted path, e.g.",
+        '# [uncertain]',
+        '# "costs.capex_per_kw" = { dist = "triangular", low = 850, mode = 950, high = 1150,'
+        ' group = "costs" }',
+        "",
+    ]
+    return "\n".join(lines) + "\n"
