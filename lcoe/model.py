@@ -17,8 +17,14 @@ from .case import Case
 from .cashflow import CashFlow, build_cashflow, energy_by_year
 from .energy import ENERGY_PARAMS, EnergyResult, simulate
 from .errors import InputError
-from .irradiance import (Geometry, PlaneOfArray, SolarPosition, orientation, plane_of_array,
-                         solar_position)
+from .irradiance import (
+    Geometry,
+    PlaneOfArray,
+    SolarPosition,
+    orientation,
+    plane_of_array,
+    solar_position,
+)
 from .schema import GEOMETRY_PATHS
 from .weather import Weather, bundled_weather_path, check_timezone, read_weather
 

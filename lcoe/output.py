@@ -15,7 +15,6 @@ from pathlib import Path
 
 from .errors import InputError
 
-
 #: File left in every output folder, so that ``lcoe demo`` may refresh its own folder.
 MARKER = ".lcoe-output"
 

@@ -32,7 +32,7 @@ def versions() -> dict:
 def provenance(seed=None) -> dict:
     """Versions, seed, command line and UTC date of a run."""
     return {"versions": versions(), "seed": seed, "command": " ".join(sys.argv),
-            "date_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
+            "date_utc": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")}
 
 
 def run_case(case: Case | str | Path) -> RunResult:

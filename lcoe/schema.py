@@ -8,7 +8,7 @@ Units: fractions (never percent), kW of DC nameplate, kWh, degrees, the case's c
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 REQUIRED = object()  # sentinel: the key has no default and must be given
 

@@ -1,0 +1,88 @@
+"""Case-file validation: one clear line per class of error."""
+
+from __future__ import annotations
+
+import tomllib
+
+import pytest
+from conftest import MINIMAL_CASE, write_case
+
+from lcoe.case import load_case
+from lcoe.errors import InputError
+from lcoe.template import template_text
+
+
+def _bad(tmp_path, text):
+    with pytest.raises(InputError) as exc:
+        load_case(write_case(tmp_path, text))
+    msg = str(exc.value)
+    assert "\n" not in msg and "case.toml" in msg
+    return msg
+
+
+def test_minimal_case_gets_defaults(tmp_path):
+    case = load_case(write_case(tmp_path, MINIMAL_CASE))
+    assert case["plant.mount"] == "fixed" and case["site.albedo"] == 0.2
+    assert len(case.sha256) == 64
+
+
+def test_unknown_key_suggests_closest(tmp_path):
+    msg = _bad(tmp_path, MINIMAL_CASE.replace("capex_per_kw", "capex_per_kW"))
+    assert "capex_per_kW" in msg and "did you mean 'costs.capex_per_kw'" in msg
+
+
+def test_unknown_section(tmp_path):
+    msg = _bad(tmp_path, MINIMAL_CASE + "\n[plnat]\nx = 1\n")
+    assert "plnat" in msg and "plant" in msg
+
+
+@pytest.mark.parametrize("old,new,key", [
+    ("capex_per_kw = 1000.0", "capex_per_kw = -5.0", "costs.capex_per_kw"),
+    ("discount_rate = 0.07", "discount_rate = -1.0", "finance.discount_rate"),
+    ("lifetime_years = 25", "lifetime_years = 0", "case.lifetime_years"),
+    ("lifetime_years = 25", "lifetime_years = 12.5", "case.lifetime_years"),
+    ("dc_capacity_kw = 1000.0", "dc_capacity_kw = \"big\"", "plant.dc_capacity_kw"),
+    ("[plant]", "[plant]\ntilt_deg = 95.0", "plant.tilt_deg"),
+    ("[plant]", "[plant]\ndc_ac_ratio = 0.0", "plant.dc_ac_ratio"),
+    ("[plant]", "[plant]\ninverter_efficiency = 1.2", "plant.inverter_efficiency"),
+    ("[plant]", "[plant]\nmodule_efficiency = 0.0", "plant.module_efficiency"),
+    ("[plant]", "[plant]\nmount = \"floating\"", "plant.mount"),
+    ("[plant]", "[plant]\nbacktrack = 1", "plant.backtrack"),
+])
+def test_out_of_range_and_wrong_type(tmp_path, old, new, key):
+    msg = _bad(tmp_path, MINIMAL_CASE.replace(old, new))
+    assert key in msg and "expected" in msg
+
+
+def test_missing_required_key(tmp_path):
+    msg = _bad(tmp_path, MINIMAL_CASE.replace("capex_per_kw = 1000.0", ""))
+    assert "costs.capex_per_kw" in msg and "missing" in msg
+
+
+def test_replacement_longer_than_life(tmp_path):
+    text = MINIMAL_CASE + "\n[[costs.replacement]]\nitem = \"inv\"\nevery_years = 30\n" \
+                          "cost_per_kw = 50.0\n"
+    msg = _bad(tmp_path, text)
+    assert "every_years" in msg and "lifetime" in msg
+
+
+def test_invalid_toml(tmp_path):
+    msg = _bad(tmp_path, "[case\nname=")
+    assert "TOML" in msg
+
+
+def test_template_is_valid_and_complete(tmp_path):
+    from lcoe.schema import FIELDS
+
+    text = template_text()
+    case = load_case(write_case(tmp_path, text))
+    assert case.replacements[0].every_years == 12
+    data = tomllib.loads(text)
+    for f in FIELDS:  # every key appears in the template, active or commented out
+        assert f"{f.key} = " in text, f.path
+    assert "costs" in data
+
+
+def test_with_values_validates(demo_case):
+    with pytest.raises(InputError):
+        demo_case.with_values({"plant.tilt_deg": 120.0})
