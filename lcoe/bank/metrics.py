@@ -1,0 +1,506 @@
+"""Project-finance cash flow: tax, debt, cover ratios and returns, per sample.
+
+:func:`project_finance` turns yearly revenue and operating cost into the lender's and the
+equity investor's view: EBITDA, depreciation, interest, tax with loss carry-forward and an
+investment tax credit, CFADS, debt service (sized on DSCR constraints or given), DSCR, LLCR,
+project and equity IRR, NPV and payback. :func:`breakeven_tariff` finds the flat real tariff
+that gives a target equity IRR.
+
+Shapes: yearly arrays ``(n_samples, n_years + 1)``, column 0 = year 0 = financial close;
+per-sample values scalars or ``(n_samples,)``; a 1-D yearly input is one sample. Amounts in
+currency (nominal or real, as the inputs are), rates as fractions per year.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from lcoe.bank.debt import DebtSchedule, DebtSizing, debt_schedule, dscr, llcr, size_debt
+from lcoe.bank.tax import (
+    apply_tax_credits,
+    basis_after_itc,
+    depreciation_schedule,
+    investment_tax_credit,
+    tax_with_loss_carryforward,
+)
+from lcoe.errors import InputError, field_error, unknown_key_error
+from lcoe.finance import as_flows, check_rate, irr_many, npv, per_sample
+
+__all__ = ["BASE_CASE", "FinanceResult", "breakeven_tariff", "project_finance"]
+
+#: Name under which the ``revenue`` passed to :func:`project_finance` is known to sizing
+#: constraints.
+BASE_CASE = "base"
+
+
+@dataclass(frozen=True)
+class FinanceResult:
+    """Everything :func:`project_finance` computes.
+
+    Yearly arrays have shape (n_samples, n_years + 1) [currency/year unless noted]; summary
+    values have shape (n_samples,).
+
+    Attributes
+    ----------
+    revenue, opex, ebitda : yearly
+        Inputs and EBITDA = revenue - opex.
+    depreciation, interest, taxable_income : yearly
+        Tax depreciation, loan interest, taxable income = EBITDA - depreciation - interest
+        (before loss relief).
+    tax, loss_balance, credit_balance : yearly
+        Tax paid after loss carry-forward and credits; unused tax losses and unused credit at
+        the end of each year [currency].
+    cfads : yearly
+        Cash flow available for debt service = revenue - opex - tax.
+    debt_service, principal, debt_balance : yearly
+        Interest + principal, principal, closing loan balance [currency].
+    equity_flow : yearly
+        Cash flow to equity = CFADS - debt service; year 0 also carries
+        -(capex - debt + upfront fee).
+    project_flow_pre_tax, project_flow_post_tax : yearly
+        -capex at year 0 plus EBITDA (pre-tax) or EBITDA - unlevered tax (post-tax), where the
+        unlevered tax is computed without interest.
+    dscr : yearly [-]
+        CFADS / debt service, NaN where no service is due.
+    debt, upfront_fee : (n_samples,) [currency]
+    min_dscr, avg_dscr, llcr : (n_samples,) [-]
+        Minimum and mean DSCR over the years with debt service; LLCR at financial close.
+        NaN without debt.
+    project_irr_pre_tax, project_irr_post_tax, equity_irr : (n_samples,) [1/year]
+        Unique IRR or NaN (see :func:`lcoe.finance.irr`).
+    npv_equity, npv_project_post_tax : (n_samples,) [currency]
+        NPV of the equity flow and of the post-tax project flow at ``discount_rate``.
+    payback_year : (n_samples,) [year]
+        First year in which the cumulative equity flow is >= 0; NaN if never.
+    iterations : int
+        Fixed-point iterations used to make debt, interest and tax consistent.
+    sizing : DebtSizing or None
+        Debt sizing on the final CFADS (None when ``debt_amount`` was given).
+    schedule : DebtSchedule
+        The loan schedule.
+    """
+
+    revenue: np.ndarray
+    opex: np.ndarray
+    ebitda: np.ndarray
+    depreciation: np.ndarray
+    interest: np.ndarray
+    taxable_income: np.ndarray
+    tax: np.ndarray
+    loss_balance: np.ndarray
+    credit_balance: np.ndarray
+    cfads: np.ndarray
+    debt_service: np.ndarray
+    principal: np.ndarray
+    debt_balance: np.ndarray
+    equity_flow: np.ndarray
+    project_flow_pre_tax: np.ndarray
+    project_flow_post_tax: np.ndarray
+    dscr: np.ndarray
+    debt: np.ndarray
+    upfront_fee: np.ndarray
+    min_dscr: np.ndarray
+    avg_dscr: np.ndarray
+    llcr: np.ndarray
+    project_irr_pre_tax: np.ndarray
+    project_irr_post_tax: np.ndarray
+    equity_irr: np.ndarray
+    npv_equity: np.ndarray
+    npv_project_post_tax: np.ndarray
+    payback_year: np.ndarray
+    iterations: int
+    sizing: DebtSizing | None
+    schedule: DebtSchedule
+
+
+@dataclass(frozen=True)
+class _Operating:
+    """Tax and CFADS of one revenue case for a given interest line."""
+
+    ebitda: np.ndarray
+    taxable_income: np.ndarray
+    tax: np.ndarray
+    loss_balance: np.ndarray
+    credit_balance: np.ndarray
+    cfads: np.ndarray
+
+
+def _operating(revenue, opex, depreciation, interest, tax_rate, credits) -> _Operating:
+    ebitda = revenue - opex
+    taxable = ebitda - depreciation - interest
+    tax_before, loss = tax_with_loss_carryforward(taxable, tax_rate)
+    tax, credit = apply_tax_credits(tax_before, credits)
+    return _Operating(ebitda, taxable, tax, loss, credit, ebitda - tax)
+
+
+def _first_payback_year(equity_flow: np.ndarray) -> np.ndarray:
+    reached = np.cumsum(equity_flow, axis=1) >= 0
+    first = np.argmax(reached, axis=1).astype(float)
+    return np.where(reached.any(axis=1), first, np.nan)
+
+
+def _dscr_summary(ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Minimum and mean over the non-NaN entries of each row (NaN for an all-NaN row)."""
+    has = ~np.isnan(ratios)
+    count = has.sum(axis=1)
+    low = np.where(has, ratios, np.inf).min(axis=1)
+    total = np.where(has, ratios, 0.0).sum(axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = total / count
+    return np.where(count > 0, low, np.nan), np.where(count > 0, mean, np.nan)
+
+
+def project_finance(
+    *,
+    revenue,
+    opex,
+    capex,
+    tax_rate,
+    depreciation_method: str,
+    depreciation_years: int | None = None,
+    depreciation_rate: float | None = None,
+    itc_fraction=0.0,
+    itc_eligible_fraction=1.0,
+    itc_basis_reduction_fraction: float = 0.5,
+    interest_rate,
+    tenor_years: int,
+    repayment: str = "sculpted",
+    upfront_fee_fraction: float = 0.0,
+    debt_amount=None,
+    dscr_constraints: Sequence[tuple[str, float]] | None = None,
+    sizing_revenue: Mapping[str, np.ndarray] | None = None,
+    max_gearing: float = 1.0,
+    discount_rate,
+    max_iterations: int = 100,
+    tolerance: float = 1e-9,
+) -> FinanceResult:
+    """Project-finance cash flow of a project company, vectorised over samples.
+
+    Parameters
+    ----------
+    revenue : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        Revenue [currency/year], column 0 = year 0 (normally 0).
+    opex : array_like, same shape as ``revenue``
+        All operating costs [currency/year]: O&M, insurance, land lease, and mid-life
+        replacements, which are treated as opex (expensed for tax in the year paid, not
+        capitalised). Decommissioning cost (positive) or salvage (negative) may sit in the
+        last year.
+    capex : float or array_like, shape (n_samples,)
+        Capital cost paid at financial close (year 0) [currency], >= 0.
+    tax_rate : float or array_like, shape (n_samples,)
+        Income tax rate [-] in [0, 1).
+    depreciation_method : {"straight_line", "declining_balance", "accelerated_5yr"}
+        See :func:`lcoe.bank.tax.depreciation_schedule`; depreciation starts in year 1.
+    depreciation_years : int, optional
+        Recovery period [year] for straight_line and declining_balance.
+    depreciation_rate : float, optional
+        Declining-balance rate [1/year] for declining_balance.
+    itc_fraction : float or array_like, shape (n_samples,)
+        Investment tax credit as a fraction of eligible capex [-] in [0, 1]; credited in
+        year 1, unused credit carried forward, never paid out.
+    itc_eligible_fraction : float or array_like, shape (n_samples,)
+        Share of capex eligible for the credit [-] in [0, 1].
+    itc_basis_reduction_fraction : float
+        Share of the credit taken off the depreciable basis [-] (0.5: US rule, from memory).
+    interest_rate : float or array_like, shape (n_samples,)
+        Loan interest rate [1/year], >= 0.
+    tenor_years : int
+        Loan tenor [year] in [1, n_years].
+    repayment : {"sculpted", "annuity"}
+        Repayment profile of the loan.
+    upfront_fee_fraction : float
+        Arrangement fee [-] of the debt, paid by equity at year 0 and not deducted for tax.
+    debt_amount : float or array_like, shape (n_samples,), optional
+        A given debt [currency] (0 for an all-equity project). With ``sculpted`` repayment the
+        service follows the base-case CFADS. Give either this or ``dscr_constraints``.
+    dscr_constraints : sequence of (case_name, min_dscr), optional
+        Size the debt as the largest that meets every constraint and the gearing cap
+        (:func:`lcoe.bank.debt.size_debt`). ``"base"`` names the ``revenue`` case.
+    sizing_revenue : mapping of str to array_like, optional
+        Revenue of further cases used only for sizing, e.g. ``{"P99_1yr": ...}``
+        [currency/year]; they share opex, depreciation, tax rules and the loan.
+    max_gearing : float
+        Largest debt / capex [-] in [0, 1]; a given ``debt_amount`` must respect it too.
+    discount_rate : float or array_like, shape (n_samples,)
+        Rate [1/year] for ``npv_equity`` and ``npv_project_post_tax``.
+    max_iterations : int
+        Largest number of fixed-point iterations.
+    tolerance : float
+        Convergence threshold on the relative change of debt and debt service.
+
+    Returns
+    -------
+    FinanceResult
+
+    Raises
+    ------
+    lcoe.errors.InputError
+        For invalid inputs.
+    RuntimeError
+        When the fixed point does not converge in ``max_iterations``.
+
+    Notes
+    -----
+    Yearly lines, t = 1..n (t = 0 only for close)::
+
+        EBITDA_t        = revenue_t - opex_t
+        taxable_t       = EBITDA_t - depreciation_t - interest_t
+        tax_t           = tax after loss carry-forward, then credits (no refunds)
+        CFADS_t         = revenue_t - opex_t - tax_t
+        equity_t        = CFADS_t - service_t
+        equity_0        = CFADS_0 - (capex - debt + upfront fee)
+
+    Interest is deductible, so tax depends on the loan and, with sizing or sculpting, the loan
+    depends on CFADS. The two are made consistent by fixed-point iteration: interest = 0 ->
+    tax -> CFADS -> size (or shape) the loan -> schedule -> interest -> ... until the debt and
+    the debt service change by less than ``tolerance`` relative to max(debt, 1). After
+    convergence tax and CFADS are recomputed once with the final interest. The post-tax
+    project IRR uses unlevered tax (no interest deduction), so it does not depend on the
+    financing.
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). NREL/TP-462-5173 (cash-flow
+       conventions, after-tax analysis).
+    .. [2] Cover ratios (DSCR, LLCR), debt sculpting and multi-constraint sizing: common
+       practice of project-finance lending.
+    """
+    src = "project_finance"
+    rev = as_flows(revenue, "revenue")
+    n_years = rev.shape[1] - 1
+    cost = as_flows(opex, "opex", n_years=n_years)
+    n_s = max(rev.shape[0], cost.shape[0], np.size(capex))
+    rev = np.broadcast_to(rev, (n_s, n_years + 1))
+    cost = np.broadcast_to(cost, (n_s, n_years + 1))
+    capex_arr = per_sample(capex, n_s, "capex")
+    if np.any(~(capex_arr >= 0)):
+        raise field_error(src, "capex", float(capex_arr.min()), "a number >= 0")
+    check_rate(discount_rate, "discount_rate", src)
+    if (debt_amount is None) == (dscr_constraints is None):
+        raise InputError(f"{src}: give exactly one of debt_amount and dscr_constraints")
+    if not 0.0 <= float(max_gearing) <= 1.0:
+        raise field_error(src, "max_gearing", max_gearing, "a number in [0, 1]")
+    if not (isinstance(max_iterations, int) and max_iterations >= 2):
+        raise field_error(src, "max_iterations", max_iterations, "an integer >= 2")
+
+    cases = {BASE_CASE: rev}
+    for name, values in (sizing_revenue or {}).items():
+        if name == BASE_CASE:
+            raise field_error(src, "sizing_revenue", name, f"case names other than '{BASE_CASE}'")
+        cases[name] = np.broadcast_to(
+            as_flows(values, f"sizing_revenue[{name!r}]", n_years=n_years), (n_s, n_years + 1)
+        )
+    fixed_debt = None
+    if debt_amount is not None:
+        fixed_debt = per_sample(debt_amount, n_s, "debt_amount")
+        if np.any(~(fixed_debt >= 0)):
+            raise field_error(src, "debt_amount", float(fixed_debt.min()), "a number >= 0")
+        if np.any(fixed_debt > float(max_gearing) * capex_arr * (1 + 1e-12)):
+            raise field_error(
+                src,
+                "debt_amount",
+                float(fixed_debt.max()),
+                f"at most max_gearing * capex ({float(max_gearing):g} * capex)",
+            )
+        sizing_cases = [BASE_CASE]
+    else:
+        sizing_cases = list(dict.fromkeys(name for name, _ in dscr_constraints))
+        for name in sizing_cases:
+            if name not in cases:
+                raise unknown_key_error(src, f"dscr_constraints.{name}", list(cases))
+
+    itc_frac = per_sample(itc_fraction, n_s, "itc_fraction")
+    eligible = per_sample(itc_eligible_fraction, n_s, "itc_eligible_fraction")
+    credits = investment_tax_credit(capex_arr * eligible, itc_frac, n_years)
+    basis = basis_after_itc(capex_arr, itc_frac, eligible, itc_basis_reduction_fraction)
+    depreciation = depreciation_schedule(
+        depreciation_method, basis, n_years, years=depreciation_years, rate=depreciation_rate
+    )
+    rate = per_sample(interest_rate, n_s, "interest_rate")
+
+    interest = np.zeros((n_s, n_years + 1))
+    prev_debt = prev_service = None
+    sizing = None
+    change = np.inf
+    iterations = 0
+    # sequential by nature: each pass needs the interest of the previous one
+    while change > tolerance:
+        if iterations == max_iterations:
+            raise RuntimeError(
+                f"{src}: debt and tax did not converge in {max_iterations} iterations "
+                f"(last relative change {change:.3g}, tolerance {tolerance:g})"
+            )
+        iterations += 1
+        cfads = {
+            name: _operating(cases[name], cost, depreciation, interest, tax_rate, credits).cfads
+            for name in sizing_cases
+        }
+        if fixed_debt is None:
+            sizing = size_debt(
+                cfads, dscr_constraints, rate, tenor_years, repayment, capex_arr, max_gearing
+            )
+            new_debt, profile = sizing.debt, sizing.service
+        else:
+            new_debt = fixed_debt
+            profile = np.maximum(cfads[BASE_CASE], 0.0) if repayment == "sculpted" else None
+        schedule = debt_schedule(
+            new_debt,
+            rate,
+            tenor_years,
+            n_years,
+            repayment,
+            service_profile=profile,
+            upfront_fee_fraction=upfront_fee_fraction,
+        )
+        if prev_debt is not None:
+            scale = np.maximum(np.abs(new_debt), 1.0)
+            change = max(
+                float(np.max(np.abs(new_debt - prev_debt) / scale)),
+                float(np.max(np.abs(schedule.service - prev_service).max(axis=1) / scale)),
+            )
+        prev_debt, prev_service = new_debt, schedule.service
+        interest = schedule.interest
+
+    op = _operating(rev, cost, depreciation, schedule.interest, tax_rate, credits)
+    unlevered = _operating(rev, cost, depreciation, np.zeros_like(interest), tax_rate, credits)
+    service = schedule.service
+    equity = op.cfads - service
+    equity[:, 0] -= capex_arr - schedule.debt + schedule.upfront_fee
+    pre_tax = op.ebitda.copy()
+    pre_tax[:, 0] -= capex_arr
+    post_tax = unlevered.cfads.copy()
+    post_tax[:, 0] -= capex_arr
+    ratios = dscr(op.cfads, service)
+    min_dscr, avg_dscr = _dscr_summary(ratios)
+
+    return FinanceResult(
+        revenue=np.array(rev),
+        opex=np.array(cost),
+        ebitda=op.ebitda,
+        depreciation=depreciation,
+        interest=schedule.interest,
+        taxable_income=op.taxable_income,
+        tax=op.tax,
+        loss_balance=op.loss_balance,
+        credit_balance=op.credit_balance,
+        cfads=op.cfads,
+        debt_service=service,
+        principal=schedule.principal,
+        debt_balance=schedule.closing,
+        equity_flow=equity,
+        project_flow_pre_tax=pre_tax,
+        project_flow_post_tax=post_tax,
+        dscr=ratios,
+        debt=schedule.debt,
+        upfront_fee=schedule.upfront_fee,
+        min_dscr=min_dscr,
+        avg_dscr=avg_dscr,
+        llcr=llcr(op.cfads, schedule.debt, rate, tenor_years),
+        project_irr_pre_tax=irr_many(pre_tax),
+        project_irr_post_tax=irr_many(post_tax),
+        equity_irr=irr_many(equity),
+        npv_equity=np.broadcast_to(npv(discount_rate, equity), (n_s,)).copy(),
+        npv_project_post_tax=np.broadcast_to(npv(discount_rate, post_tax), (n_s,)).copy(),
+        payback_year=_first_payback_year(equity),
+        iterations=iterations,
+        sizing=sizing,
+        schedule=schedule,
+    )
+
+
+def breakeven_tariff(
+    *,
+    energy_kwh,
+    inflation,
+    target_equity_irr,
+    sizing_energy_kwh: Mapping[str, np.ndarray] | None = None,
+    tariff_high: float = 1.0,
+    xtol: float = 1e-12,
+    **finance_kwargs,
+) -> np.ndarray:
+    """Flat real tariff, escalating with inflation, that gives a target equity IRR.
+
+    Parameters
+    ----------
+    energy_kwh : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        Energy sold each year [kWh], column 0 = year 0 (normally 0).
+    inflation : float or array_like, shape (n_samples,)
+        Yearly tariff escalation [1/year], > -1.
+    target_equity_irr : float or array_like, shape (n_samples,)
+        Target equity IRR [1/year], > -1 (nominal if the other inputs are nominal).
+    sizing_energy_kwh : mapping of str to array_like, optional
+        Energy of the sizing cases [kWh/year]; their revenue uses the same tariff.
+    tariff_high : float
+        Initial upper bracket [currency/kWh]; doubled (up to 40 times) until the equity NPV at
+        the target rate is positive.
+    xtol : float
+        Bracket width at which the search stops, relative to the upper bracket [-].
+    **finance_kwargs
+        Every other keyword of :func:`project_finance` except ``revenue``,
+        ``sizing_revenue`` and ``discount_rate``.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_samples,)
+        Tariff in year-0 money [currency/kWh]: revenue_t = tariff * (1 + inflation)**t *
+        E_t. NaN where the equity NPV at the target rate is already >= 0 at tariff 0 or
+        never turns positive.
+
+    Notes
+    -----
+    The root of ``NPV_equity(target rate; tariff) = 0`` is found by bisection, vectorised over
+    samples (each sample's root is independent; the equity NPV rises with the tariff). Where
+    the equity flow has a unique IRR this root is the tariff at which IRR = target; the NPV is
+    used instead of the IRR because it is defined for every tariff.
+    """
+    for key in ("revenue", "sizing_revenue", "discount_rate"):
+        if key in finance_kwargs:
+            raise InputError(f"breakeven_tariff: {key} is set by the tariff search; remove it")
+    energy = as_flows(energy_kwh, "energy_kwh")
+    n_years = energy.shape[1] - 1
+    target = check_rate(target_equity_irr, "target_equity_irr", "breakeven_tariff")
+    infl = check_rate(inflation, "inflation", "breakeven_tariff")
+    growth = np.exp(np.arange(n_years + 1) * np.log1p(infl)[..., None])
+    others = {
+        name: as_flows(e, f"sizing_energy_kwh[{name!r}]", n_years=n_years)
+        for name, e in (sizing_energy_kwh or {}).items()
+    }
+    n_s = max(
+        [energy.shape[0], np.size(target), np.size(infl)] + [e.shape[0] for e in others.values()]
+    )
+
+    def equity_npv(tariff: np.ndarray) -> np.ndarray:
+        price = tariff[:, None] * growth
+        result = project_finance(
+            revenue=price * energy,
+            sizing_revenue={name: price * e for name, e in others.items()} or None,
+            discount_rate=target,
+            **finance_kwargs,
+        )
+        return result.npv_equity
+
+    lo = np.zeros(n_s)
+    hi = np.full(n_s, float(tariff_high))
+    f_lo = equity_npv(lo)
+    f_hi = equity_npv(hi)
+    # expanding the bracket is sequential; each step is vectorised over samples
+    for _ in range(40):
+        short = f_hi <= 0
+        if not np.any(short):
+            break
+        hi = np.where(short, 2.0 * hi, hi)
+        f_hi = np.where(short, equity_npv(hi), f_hi)
+    valid = (f_lo < 0) & (f_hi > 0)
+    # bisection is sequential; each step is vectorised over samples
+    for _ in range(200):
+        if np.all((hi - lo) <= xtol * hi):
+            break
+        mid = 0.5 * (lo + hi)
+        f_mid = equity_npv(mid)
+        below = f_mid < 0
+        lo = np.where(below, mid, lo)
+        hi = np.where(below, hi, mid)
+    return np.where(valid, 0.5 * (lo + hi), np.nan)

@@ -1,0 +1,490 @@
+"""Time value of money: rates, discounting, annuities, IRR and the levelised cost.
+
+Conventions used throughout the package
+----------------------------------------
+* Cash flows are yearly and end-of-year; column 0 is year 0 = financial close and is not
+  discounted (t = 0). A cash-flow array has shape ``(n_samples, n_years + 1)``; the functions of
+  this module accept any leading axes and work along the last one, so a 1-D cash flow is one
+  sample and gives a scalar result (numpy broadcasting rules).
+* Rates are fractions per year (0.07, never 7).
+
+The small helpers :func:`as_flows` and :func:`per_sample` give the finance layer
+(:mod:`lcoe.bank`) one way of turning its inputs into a ``(n_samples, n_years + 1)`` array and a
+``(n_samples,)`` array.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq
+
+from lcoe.errors import field_error
+
+__all__ = [
+    "IrrResult",
+    "annuity_payment",
+    "as_flows",
+    "check_rate",
+    "check_years",
+    "crf",
+    "discount_factors",
+    "irr",
+    "irr_many",
+    "lcoe_from_flows",
+    "nominal_rate",
+    "npv",
+    "per_sample",
+    "real_rate",
+    "sign_changes",
+]
+
+#: Search interval of :func:`irr`, in rate per year: (IRR_LOW, IRR_HIGH].
+IRR_LOW = -0.99
+IRR_HIGH = 10.0
+#: Points of the root-scanning grid of :func:`irr` (uniform in log(1 + rate)).
+IRR_GRID_POINTS = 4001
+_SMALL = 1e-5  # below this |x|, removable singularities are evaluated by their series
+
+
+# --------------------------------------------------------------------------------------------
+# validation and shape helpers
+# --------------------------------------------------------------------------------------------
+def check_rate(rate, name: str, source: str, low: float = -1.0) -> np.ndarray:
+    """Return ``rate`` as a float array, raising InputError unless every value is > ``low``."""
+    arr = np.asarray(rate, dtype=float)
+    bad = ~(arr > low)  # also catches NaN
+    if np.any(bad):
+        raise field_error(source, name, float(arr[bad].flat[0]), f"a number > {low:g}")
+    return arr
+
+
+def check_years(n, name: str, source: str, low: int = 0, high: int | None = None) -> int:
+    """Return ``n`` as int, raising InputError unless it is an integer in [low, high]."""
+    ok = isinstance(n, (int, np.integer)) or (isinstance(n, float) and float(n).is_integer())
+    if not ok or n < low or (high is not None and n > high):
+        rng = f"[{low}, {high}]" if high is not None else f">= {low}"
+        raise field_error(source, name, n, f"an integer {rng}")
+    return int(n)
+
+
+def as_flows(values, name: str, n_years: int | None = None) -> np.ndarray:
+    """Return a yearly array as float ``(n_samples, n_years + 1)``.
+
+    Parameters
+    ----------
+    values : array_like, shape (n_years + 1,) or (n_samples, n_years + 1)
+        Yearly values, column 0 = year 0. A 1-D input is one sample.
+    name : str
+        Argument name, for the error message.
+    n_years : int, optional
+        When given, the number of columns must be ``n_years + 1``.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_samples, n_years + 1)
+        A new array (the input is never modified).
+    """
+    arr = np.array(values, dtype=float, ndmin=2, copy=True)
+    if arr.ndim != 2:
+        raise ValueError(f"{name}: expected 1-D or 2-D yearly values, got shape {arr.shape}")
+    if n_years is not None and arr.shape[1] != n_years + 1:
+        raise ValueError(f"{name}: expected {n_years + 1} yearly columns, got {arr.shape[1]}")
+    return arr
+
+
+def per_sample(values, n_samples: int, name: str) -> np.ndarray:
+    """Broadcast a scalar or ``(n_samples,)`` value to a float ``(n_samples,)`` array."""
+    arr = np.asarray(values, dtype=float)
+    if arr.ndim > 1 or (arr.ndim == 1 and arr.shape[0] not in (1, n_samples)):
+        raise ValueError(f"{name}: expected a scalar or shape ({n_samples},), got {arr.shape}")
+    return np.broadcast_to(arr, (n_samples,)).copy()
+
+
+def sign_changes(cashflows) -> np.ndarray:
+    """Number of sign changes along the last axis, zeros skipped (Descartes' rule of signs).
+
+    Parameters
+    ----------
+    cashflows : array_like, shape (..., n_years + 1)
+
+    Returns
+    -------
+    numpy.ndarray of int, shape (...)
+    """
+    cf = np.atleast_1d(np.asarray(cashflows, dtype=float))
+    s = np.sign(cf)
+    pos = np.arange(cf.shape[-1])
+    # index of the last non-zero entry at or before each position (zeros inherit its sign)
+    last = np.maximum.accumulate(np.where(s != 0, pos, 0), axis=-1)
+    filled = np.take_along_axis(s, last, axis=-1)
+    return np.sum(filled[..., 1:] * filled[..., :-1] < 0, axis=-1)
+
+
+# --------------------------------------------------------------------------------------------
+# rates and discounting
+# --------------------------------------------------------------------------------------------
+def real_rate(nominal, inflation):
+    """Real rate from a nominal rate and inflation (Fisher relation).
+
+    Parameters
+    ----------
+    nominal : float or array_like
+        Nominal rate [1/year], > -1.
+    inflation : float or array_like
+        Inflation rate [1/year], > -1.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Real rate [1/year].
+
+    Notes
+    -----
+    ``real = (1 + nominal) / (1 + inflation) - 1``.
+
+    References
+    ----------
+    .. [1] Fisher, I. (1930). The Theory of Interest. Macmillan.
+    .. [2] Short, W., Packey, D. J. and Holt, T. (1995). A Manual for the Economic Evaluation of
+       Energy Efficiency and Renewable Energy Technologies. NREL/TP-462-5173.
+    """
+    n = check_rate(nominal, "nominal", "real_rate")
+    i = check_rate(inflation, "inflation", "real_rate")
+    return (1.0 + n) / (1.0 + i) - 1.0
+
+
+def nominal_rate(real, inflation):
+    """Nominal rate from a real rate and inflation (Fisher relation).
+
+    Parameters
+    ----------
+    real : float or array_like
+        Real rate [1/year], > -1.
+    inflation : float or array_like
+        Inflation rate [1/year], > -1.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Nominal rate [1/year]: ``(1 + real) * (1 + inflation) - 1``.
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). NREL/TP-462-5173.
+    """
+    r = check_rate(real, "real", "nominal_rate")
+    i = check_rate(inflation, "inflation", "nominal_rate")
+    return (1.0 + r) * (1.0 + i) - 1.0
+
+
+def discount_factors(rate, n_years: int) -> np.ndarray:
+    """Discount factors ``(1 + rate)**-t`` for t = 0 .. n_years (t = 0 at financial close).
+
+    Parameters
+    ----------
+    rate : float or array_like, shape (n_samples,)
+        Discount rate [1/year], > -1.
+    n_years : int
+        Number of years after financial close, >= 0.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_years + 1,) for a scalar rate, (n_samples, n_years + 1) otherwise
+        Discount factors [-]; column 0 is 1.
+    """
+    r = check_rate(rate, "rate", "discount_factors")
+    n = check_years(n_years, "n_years", "discount_factors")
+    t = np.arange(n + 1, dtype=float)
+    return np.exp(-t * np.log1p(r)[..., None])
+
+
+def npv(rate, cashflows):
+    """Net present value with the first flow at t = 0 (undiscounted).
+
+    Parameters
+    ----------
+    rate : float or array_like, shape (n_samples,)
+        Discount rate [1/year], > -1.
+    cashflows : array_like, shape (n_years + 1,) or (n_samples, n_years + 1)
+        Yearly cash flows [currency], column 0 = year 0 = financial close.
+
+    Returns
+    -------
+    float or numpy.ndarray, shape (n_samples,)
+        ``sum_t CF_t / (1 + rate)**t`` [currency].
+
+    Notes
+    -----
+    Same convention as ``numpy_financial.npv``. A spreadsheet's ``NPV()`` discounts every flow
+    it is given, including the first, so the spreadsheet equivalent of this function is
+    ``=CF0 + NPV(r, CF1:CFn)``.
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). NREL/TP-462-5173, section 4.
+    """
+    cf = np.asarray(cashflows, dtype=float)
+    if cf.ndim == 0:
+        raise ValueError("npv: cashflows must have at least one year (t = 0)")
+    df = discount_factors(rate, cf.shape[-1] - 1)
+    return np.sum(cf * df, axis=-1)
+
+
+def _ratio_over_log1p(r: np.ndarray) -> np.ndarray:
+    """``r / log(1 + r)``, equal to 1 at r = 0 (series below |r| < 1e-5)."""
+    small = np.abs(r) < _SMALL
+    safe = np.where(small, 1.0, r)
+    series = 1.0 + r / 2.0 - r**2 / 12.0 + r**3 / 24.0
+    return np.where(small, series, safe / np.log1p(safe))
+
+
+def _x_over_one_minus_exp(x: np.ndarray) -> np.ndarray:
+    """``x / (1 - exp(-x))``, equal to 1 at x = 0 (series below |x| < 1e-5)."""
+    small = np.abs(x) < _SMALL
+    safe = np.where(small, 1.0, x)
+    series = 1.0 + x / 2.0 + x**2 / 12.0
+    return np.where(small, series, safe / -np.expm1(-safe))
+
+
+def crf(rate, n_years):
+    """Capital recovery factor: the level yearly payment that repays 1 over ``n_years``.
+
+    Parameters
+    ----------
+    rate : float or array_like
+        Interest or discount rate [1/year], > -1.
+    n_years : int or array_like of int
+        Number of payments [year], >= 1.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        CRF [1/year], broadcast over ``rate`` and ``n_years``.
+
+    Notes
+    -----
+    ``CRF = r (1 + r)**n / ((1 + r)**n - 1) = r / (1 - exp(-n log(1 + r)))``. It is evaluated
+    as ``[r / log(1 + r)] * [x / (1 - exp(-x))] / n`` with ``x = n log(1 + r)``: both brackets
+    are removable singularities equal to 1 at r = 0 and are evaluated from their Taylor series
+    for tiny arguments, so r -> 0 gives 1/n without 0/0.
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). NREL/TP-462-5173, eq. for the capital
+       recovery factor.
+    """
+    r = check_rate(rate, "rate", "crf")
+    n = np.asarray(n_years)
+    if not np.issubdtype(n.dtype, np.number) or np.any(n < 1) or np.any(n != np.round(n)):
+        raise field_error("crf", "n_years", n_years, "integers >= 1")
+    n = n.astype(float)
+    x = n * np.log1p(r)
+    out = _ratio_over_log1p(r) * _x_over_one_minus_exp(x) / n
+    return out[()] if np.ndim(out) == 0 else out
+
+
+def annuity_payment(rate, n_periods, principal):
+    """Level payment per period that repays ``principal`` over ``n_periods`` at ``rate``.
+
+    Parameters
+    ----------
+    rate : float or array_like
+        Interest rate per period [1/period], > -1.
+    n_periods : int or array_like of int
+        Number of payments, >= 1.
+    principal : float or array_like
+        Amount borrowed [currency].
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Payment per period [currency], positive for a positive principal (numpy-financial's
+        ``pmt`` returns the same amount with a negative sign).
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). NREL/TP-462-5173.
+    """
+    return np.asarray(principal, dtype=float) * crf(rate, n_periods)
+
+
+# --------------------------------------------------------------------------------------------
+# internal rate of return
+# --------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class IrrResult:
+    """Every internal rate of return of one cash flow.
+
+    Attributes
+    ----------
+    roots : list of float
+        All rates in (-0.99, 10] [1/year] at which the NPV crosses zero, ascending.
+    value : float
+        The root when there is exactly one, else NaN.
+    reason : str
+        Why ``value`` is NaN (empty when it is not).
+    sign_changes : int
+        Number of sign changes of the cash flow (Descartes: an upper bound on the roots).
+    """
+
+    roots: list[float] = field(default_factory=list)
+    value: float = float("nan")
+    reason: str = ""
+    sign_changes: int = 0
+
+
+def _scaled_npv(u: np.ndarray, cf: np.ndarray) -> np.ndarray:
+    """NPV at rate ``exp(u) - 1`` times a positive factor that keeps every exponent <= 0.
+
+    ``cf`` has shape (..., n + 1) and ``u`` broadcasts against ``cf[..., 0]``. For u >= 0 the
+    factor is 1; for u < 0 it is ``exp(u n)``, so ``(1 + r)**-t`` never overflows. The result
+    is continuous in u and has the sign of the NPV.
+    """
+    u = np.asarray(u, dtype=float)[..., None]
+    n = cf.shape[-1] - 1
+    t = np.arange(n + 1, dtype=float)
+    shift = np.where(u < 0.0, float(n), 0.0)
+    return np.sum(cf * np.exp(u * (shift - t)), axis=-1)
+
+
+def irr(cashflows) -> IrrResult:
+    """All internal rates of return of one cash flow, or none with a reason.
+
+    Parameters
+    ----------
+    cashflows : array_like, shape (n_years + 1,)
+        Yearly cash flows [currency], column 0 = year 0.
+
+    Returns
+    -------
+    IrrResult
+        ``value`` is the IRR [1/year] when exactly one root lies in (-0.99, 10]; otherwise NaN
+        with ``reason`` "no sign change in cash flows", "NPV does not cross zero in (-99 %,
+        1000 %]" or "several IRRs" (``roots`` lists them).
+
+    Notes
+    -----
+    The NPV is scanned on a grid of ``IRR_GRID_POINTS`` points uniform in ``u = log(1 + r)``
+    (spacing about 0.0017 in u) for sign changes; each bracket is refined with Brent's method
+    (``scipy.optimize.brentq``, xtol 1e-14). A root is only reported where the NPV changes sign
+    or is exactly zero on the grid, so no root is ever invented; two roots closer than the grid
+    spacing, or a double root where the NPV touches zero without crossing, are not found.
+
+    References
+    ----------
+    .. [1] Descartes' rule of signs: the number of positive roots of a polynomial is at most
+       the number of sign changes of its coefficients (here in x = 1 / (1 + r)).
+    .. [2] Brent, R. P. (1973). Algorithms for Minimization without Derivatives. Prentice-Hall.
+    """
+    cf = np.asarray(cashflows, dtype=float)
+    if cf.ndim != 1 or cf.size < 2:
+        raise ValueError(f"irr: expected a 1-D cash flow of >= 2 years, got shape {cf.shape}")
+    if not np.all(np.isfinite(cf)):
+        raise ValueError("irr: cash flows must be finite")
+    changes = int(sign_changes(cf))
+    if changes == 0:
+        return IrrResult([], float("nan"), "no sign change in cash flows", 0)
+
+    u = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), IRR_GRID_POINTS)
+    g = _scaled_npv(u, cf)
+    sg = np.sign(g)
+    roots = [float(np.expm1(u[k])) for k in np.flatnonzero(sg[1:] == 0) + 1]
+    for k in np.flatnonzero(sg[:-1] * sg[1:] < 0):
+        a, b = np.expm1(u[k]), np.expm1(u[k + 1])
+        root = brentq(lambda r: float(_scaled_npv(np.log1p(r), cf)), a, b, xtol=1e-14)
+        roots.append(float(root))
+    roots.sort()
+    if not roots:
+        return IrrResult([], float("nan"), "NPV does not cross zero in (-99 %, 1000 %]", changes)
+    if len(roots) > 1:
+        return IrrResult(roots, float("nan"), "several IRRs", changes)
+    return IrrResult(roots, roots[0], "", changes)
+
+
+def irr_many(cashflows) -> np.ndarray:
+    """Unique IRR of each sample's cash flow, NaN where there is none or several.
+
+    Parameters
+    ----------
+    cashflows : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        Yearly cash flows [currency], column 0 = year 0; a 1-D input is one sample.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_samples,)
+        IRR [1/year] in (-0.99, 10], or NaN.
+
+    Notes
+    -----
+    Rows with exactly one sign change have exactly one root for r > -1 (Descartes); when the
+    NPV changes sign between the ends of the search interval, that root is found by bisection
+    in ``u = log(1 + r)``, vectorised over those rows, to the last bit of u. Rows with no sign
+    change are NaN; rows with several sign changes go through :func:`irr` one by one.
+    """
+    cf = as_flows(cashflows, "cashflows")
+    if not np.all(np.isfinite(cf)):
+        raise ValueError("irr_many: cash flows must be finite")
+    out = np.full(cf.shape[0], np.nan)
+    changes = sign_changes(cf)
+
+    lo = np.full(cf.shape[0], np.log1p(IRR_LOW))
+    hi = np.full(cf.shape[0], np.log1p(IRR_HIGH))
+    g_lo = _scaled_npv(lo, cf)
+    g_hi = _scaled_npv(hi, cf)
+    simple = (changes == 1) & (g_lo * g_hi < 0)
+    exact_hi = (changes == 1) & (g_hi == 0)
+    out[exact_hi] = IRR_HIGH
+    if np.any(simple):
+        rows = cf[simple]
+        a, b, ga = lo[simple], hi[simple], g_lo[simple]
+        # bisection is sequential by nature; each step is vectorised over the rows
+        for _ in range(80):
+            m = 0.5 * (a + b)
+            gm = _scaled_npv(m, rows)
+            left = np.sign(gm) == np.sign(ga)
+            a = np.where(left, m, a)
+            ga = np.where(left, gm, ga)
+            b = np.where(left, b, m)
+        out[simple] = np.expm1(0.5 * (a + b))
+    for k in np.flatnonzero(changes >= 2):
+        out[k] = irr(cf[k]).value
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# levelised cost
+# --------------------------------------------------------------------------------------------
+def lcoe_from_flows(costs, energy_kwh, rate):
+    """Levelised cost of energy from yearly costs and yearly energy.
+
+    Parameters
+    ----------
+    costs : array_like, shape (n_years + 1,) or (n_samples, n_years + 1)
+        Yearly costs [currency]: capex, O&M, replacements, minus salvage; column 0 = year 0.
+    energy_kwh : array_like, same shape as ``costs`` (or broadcastable)
+        Yearly delivered energy [kWh], degradation and availability included.
+    rate : float or array_like, shape (n_samples,)
+        Discount rate [1/year], > -1 (real rate for a real LCOE, nominal for a nominal one).
+
+    Returns
+    -------
+    float or numpy.ndarray, shape (n_samples,)
+        LCOE [currency/kWh].
+
+    Notes
+    -----
+    ``LCOE = sum_t C_t / (1 + r)**t / sum_t E_t / (1 + r)**t`` with t = 0 at financial close.
+    With a single capex C_0 at t = 0 and level O&M and energy from year 1 to n this equals
+    ``(C_0 * CRF(r, n) + O&M) / E``.
+
+    References
+    ----------
+    .. [1] Short, W., Packey, D. J. and Holt, T. (1995). A Manual for the Economic Evaluation
+       of Energy Efficiency and Renewable Energy Technologies. NREL/TP-462-5173, section 4.
+    """
+    pv_energy = npv(rate, energy_kwh)
+    if np.any(~(np.asarray(pv_energy) > 0)):
+        raise ValueError("lcoe_from_flows: discounted energy must be > 0 for every sample")
+    return npv(rate, costs) / pv_energy
