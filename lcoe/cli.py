@@ -51,10 +51,41 @@ def format_table(result) -> str:
     return "\n".join(lines)
 
 
+class Progress:
+    """A progress bar on stderr, shown only once a stage has run for a couple of seconds."""
+
+    def __init__(self, enabled: bool, delay_s: float = 2.0):
+        import time
+
+        self.enabled, self.delay_s, self._time = enabled, delay_s, time.monotonic
+        self._start: dict[str, float] = {}
+        self._shown: set[str] = set()
+
+    def __call__(self, stage: str, done: int, total: int) -> None:
+        if not self.enabled:
+            return
+        now = self._time()
+        start = self._start.setdefault(stage, now)
+        if now - start < self.delay_s and done < total and stage not in self._shown:
+            return
+        if done >= total and stage not in self._shown:
+            return
+        self._shown.add(stage)
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\r  {stage:<12} [{'#' * filled}{'.' * (width - filled)}] "
+                         f"{done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
 def _cmd_run(args) -> int:
     from .runner import run_case, write_outputs
 
-    result = run_case(args.case)
+    result = run_case(args.case, samples=args.samples, seed=args.seed, sobol_base=args.sobol,
+                      sobol_output=args.sobol_output, screen=args.screen, method=args.method,
+                      progress=Progress(not args.quiet))
     out = Path(args.out) if args.out else Path("outputs") / Path(args.case).stem
     write_outputs(result, out, force=args.force, replace_own=args.replace_own)
     if not args.quiet:
@@ -106,16 +137,44 @@ def _cmd_demo(args) -> int:
     return _cmd_run(args)
 
 
+def _non_negative_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"{value} is negative; expected >= 0")
+    return value
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="lcoe", description="Cost of solar electricity under uncertainty.")
     sub = p.add_subparsers(dest="command", required=True)
+
+    from .runner import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE
 
     def out_opts(sp, default_help):
         sp.add_argument("--out", help=f"output folder ({default_help})")
         sp.add_argument("--force", action="store_true",
                         help="write into a non-empty output folder, replacing files")
         sp.add_argument("--quiet", action="store_true", help="print nothing but errors")
+        sp.add_argument("--samples", type=_non_negative_int, default=None,
+                        help=f"Monte Carlo trials (default {DEFAULT_SAMPLES} when the case has "
+                             f"[uncertain] tables; 0 = deterministic only)")
+        sp.add_argument("--seed", type=_non_negative_int, default=DEFAULT_SEED,
+                        help=f"seed of the random generator (default {DEFAULT_SEED})")
+        sp.add_argument("--sobol", type=_non_negative_int, default=DEFAULT_SOBOL_BASE,
+                        metavar="N", help=f"Sobol base samples, rounded up to a power of two "
+                                          f"(default {DEFAULT_SOBOL_BASE}; 0 = skip)")
+        sp.add_argument("--sobol-output", default="lcoe_real_per_kwh",
+                        choices=("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
+                                 "energy_first_year_kwh"),
+                        help="output whose drivers are ranked (default lcoe_real_per_kwh)")
+        sp.add_argument("--screen", action="store_true",
+                        help="also run Morris screening (useful with many inputs)")
+        sp.add_argument("--method", choices=("lhs", "random"), default="lhs",
+                        help="Monte Carlo sampling: Latin hypercube (default) or random")
 
     r = sub.add_parser("run", help="run a case file and write results")
     r.add_argument("case", help="case file (.toml)")

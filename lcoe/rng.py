@@ -5,14 +5,15 @@ from __future__ import annotations
 import numpy as np
 
 
-def make_rng(seed: int | np.random.Generator | None) -> np.random.Generator:
+def make_rng(seed: int | np.random.Generator | np.random.SeedSequence | None
+             ) -> np.random.Generator:
     """Return a :class:`numpy.random.Generator` for ``seed``.
 
     Parameters
     ----------
-    seed : int, numpy.random.Generator or None
-        A non-negative integer seed, an existing generator (returned as is) or None for fresh
-        entropy (not reproducible).
+    seed : int, numpy.random.Generator, numpy.random.SeedSequence or None
+        A non-negative integer seed, an existing generator (returned as is), a seed sequence
+        (e.g. spawned from a run's seed) or None for fresh entropy (not reproducible).
 
     Returns
     -------
@@ -20,6 +21,8 @@ def make_rng(seed: int | np.random.Generator | None) -> np.random.Generator:
     """
     if isinstance(seed, np.random.Generator):
         return seed
+    if isinstance(seed, np.random.SeedSequence):
+        return np.random.default_rng(seed)
     if seed is not None and (not isinstance(seed, (int, np.integer)) or seed < 0):
         raise ValueError(f"seed = {seed!r}: expected a non-negative integer")
     return np.random.default_rng(seed)

@@ -35,24 +35,64 @@ def provenance(seed=None) -> dict:
             "date_utc": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")}
 
 
-def run_case(case: Case | str | Path) -> RunResult:
-    """The deterministic run of a case (one sample at the case's values).
+#: Defaults of an uncertainty study when the case has an ``[uncertain]`` table.
+DEFAULT_SAMPLES = 2000
+DEFAULT_SEED = 20261201
+DEFAULT_SOBOL_BASE = 1024
+
+
+def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DEFAULT_SEED,
+             sobol_base: int = DEFAULT_SOBOL_BASE, sobol_output: str = "lcoe_real_per_kwh",
+             screen: bool = False, method: str = "lhs", chunk_size: int = 1000,
+             progress=None) -> RunResult:
+    """Run a case: the deterministic case and, when it has uncertain inputs, the study.
 
     Parameters
     ----------
     case : Case or path
         A validated case or the path of a case file.
+    samples : int, optional
+        Monte Carlo trials; None = :data:`DEFAULT_SAMPLES` when the case has ``[uncertain]``
+        tables; 0 = deterministic only.
+    seed : int
+        Seed of the one random generator (stored with the results).
+    sobol_base : int
+        Sobol base samples N (0 skips Sobol).
+    sobol_output : str
+        Output whose drivers are ranked.
+    screen : bool
+        Also run Morris screening.
+    method : {"lhs", "random"}
+        Sampling method of the Monte Carlo.
+    chunk_size : int
+        Trials per model call (memory bound; results do not depend on it).
+    progress : callable, optional
+        ``progress(stage, done, total)``.
 
     Returns
     -------
     RunResult
     """
+    from .uncertainty.spec import read_spec
+
     if not isinstance(case, Case):
         case = load_case(case)
+    spec = read_spec(case)
     site = prepare(case)
     base = evaluate(case, site)
     notes = list(site.notes)
-    return RunResult(case=case, site=site, base=base, notes=notes, provenance=provenance())
+    extras = {}
+    n = (DEFAULT_SAMPLES if not spec.is_empty else 0) if samples is None else samples
+    if n:
+        from .uncertainty.study import run_study
+
+        unc, sens = run_study(case, site, spec, n, seed, sobol_base, sobol_output, screen,
+                              chunk_size, method, progress=progress)
+        extras["uncertainty"] = unc
+        if sens is not None:
+            extras["sensitivity"] = sens
+    return RunResult(case=case, site=site, base=base, notes=notes, extras=extras,
+                     provenance=provenance(seed if n else None))
 
 
 def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
@@ -68,4 +108,8 @@ def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
     with OutputDir(out_dir, force=force, replace_own=replace_own) as out:
         out.write_text("summary.json", summary_json(result))
         out.write_with("workbook.xlsx", lambda p: write_workbook(result, p))
+        if "uncertainty" in result.extras:
+            from .export.trials import write_trials_csv
+
+            out.write_with("trials.csv", lambda p: write_trials_csv(result, p))
     return Path(out_dir)
