@@ -76,7 +76,12 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     from .uncertainty.spec import read_spec
 
     if not isinstance(case, Case):
-        case = load_case(case)
+        if str(case).lower().endswith(".xlsx"):
+            from .export.readback import case_from_workbook
+
+            case = case_from_workbook(case)
+        else:
+            case = load_case(case)
     spec = read_spec(case)
     site = prepare(case)
     base = evaluate(case, site)
