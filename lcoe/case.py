@@ -60,6 +60,10 @@ class Case:
         The raw ``[uncertain]`` table (parsed by :mod:`lcoe.uncertainty.spec`).
     correlation : tuple
         The raw ``[[correlation]]`` entries.
+    monthly : Mapping or None
+        ``[site.monthly]`` climate values (``ghi_kwh_m2_day``, ``temp_air_c`` and optionally
+        ``wind_speed_m_s``, 12 values each, and ``seed``), checked; weather is then synthesised
+        from them (:mod:`lcoe.synth_weather`).
     """
 
     source: str
@@ -69,6 +73,7 @@ class Case:
     replacements: tuple[Replacement, ...] = ()
     uncertain: Mapping[str, Any] = field(default_factory=dict)
     correlation: tuple[Mapping[str, Any], ...] = ()
+    monthly: Mapping[str, Any] | None = None
 
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
@@ -153,7 +158,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         table = data.get(section, {})
         if not isinstance(table, Mapping):
             raise field_error(source, section, table, f"a table [{section}]")
-        extra = {"replacement"} if section == "costs" else set()
+        extra = {"costs": {"replacement"}, "site": {"monthly"}}.get(section, set())
         known = {f.key for f in FIELDS if f.section == section}
         for key in table:
             if key not in known and key not in extra:
@@ -170,6 +175,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
             values[f.path] = None if f.default is REQUIRED else f.default
     replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
     _check_cross_fields(values, replacements, source)
+    monthly = _read_monthly(data.get("site", {}).get("monthly"), values, source)
     uncertain = data.get("uncertain", {})
     if not isinstance(uncertain, Mapping):
         raise field_error(source, "uncertain", uncertain, "a table [uncertain]")
@@ -178,7 +184,8 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         raise field_error(source, "correlation", correlation, "a list of [[correlation]] tables")
     return Case(source=source, base_dir=base_dir, sha256=sha256,
                 values=MappingProxyType(values), replacements=tuple(replacements),
-                uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation))
+                uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
+                monthly=monthly)
 
 
 def _coerce(f: Field, value: Any, source: str) -> Any:
@@ -230,6 +237,40 @@ def _read_replacements(entries: Any, source: str) -> list[Replacement]:
             vals[key] = _coerce(replace(f, path=f"{where}.{key}"), entry[key], source)
         out.append(Replacement(**vals))
     return out
+
+
+MONTHLY_KEYS = ("ghi_kwh_m2_day", "temp_air_c", "wind_speed_m_s", "seed")
+
+
+def _read_monthly(table: Any, values: Mapping[str, Any], source: str):
+    """Check a ``[site.monthly]`` table (12 values per list) and return it, or None."""
+    if table is None:
+        return None
+    if not isinstance(table, Mapping):
+        raise field_error(source, "site.monthly", table, "a table [site.monthly]")
+    for key in table:
+        if key not in MONTHLY_KEYS:
+            raise unknown_key_error(source, f"site.monthly.{key}",
+                                    [f"site.monthly.{k}" for k in MONTHLY_KEYS])
+    for key in ("ghi_kwh_m2_day", "temp_air_c"):
+        if key not in table:
+            raise InputError(f"{source}: missing key 'site.monthly.{key}' (12 monthly values)")
+    if values.get("site.weather") is not None:
+        raise InputError(f"{source}: site.weather and [site.monthly] are both given; keep one "
+                         f"(a weather file, or monthly values to synthesise weather from)")
+    if values.get("site.timezone") is None:
+        raise InputError(f"{source}: [site.monthly] needs site.timezone (e.g. 'Etc/GMT-1') to "
+                         f"place the synthetic hours in local time")
+    seed = table.get("seed", 1)
+    if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
+        raise field_error(source, "site.monthly.seed", seed, "a whole number >= 0")
+    from .synth_weather import validate_monthly
+
+    ghi, temp, wind = validate_monthly(values["site.latitude_deg"], values["site.longitude_deg"],
+                                       table["ghi_kwh_m2_day"], table["temp_air_c"],
+                                       table.get("wind_speed_m_s"), source=source)
+    return MappingProxyType({"ghi_kwh_m2_day": tuple(ghi), "temp_air_c": tuple(temp),
+                             "wind_speed_m_s": tuple(wind), "seed": seed})
 
 
 def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) -> None:

@@ -73,11 +73,37 @@ class ModelOutput:
 
 
 def load_weather_for(case: Case) -> Weather:
-    """Read the case's weather file (or the bundled one) and check its time zone."""
+    """Read the case's weather file (or the bundled one) and check its time zone.
+
+    With ``[site.monthly]`` the hourly year is synthesised from the monthly values instead
+    (seeded, reproducible; a screening tool, see :mod:`lcoe.synth_weather`).
+    """
+    if case.monthly is not None:
+        return synthetic_weather(case)
     path = case.weather_path or bundled_weather_path()
     weather = read_weather(path, case["site.weather_time_label"])
     check_timezone(weather, case["site.timezone"], case.source)
     return weather
+
+
+def synthetic_weather(case: Case) -> Weather:
+    """Hourly weather synthesised from the case's ``[site.monthly]`` values."""
+    import pandas as pd
+
+    from .synth_weather import SYNTHETIC_WEATHER_WARNING, synthesize_year
+
+    m = case.monthly
+    tz = case["site.timezone"]
+    df = synthesize_year(case["site.latitude_deg"], case["site.longitude_deg"],
+                         case["site.altitude_m"], tz, m["ghi_kwh_m2_day"], m["temp_air_c"],
+                         m["wind_speed_m_s"], rng=m["seed"], source=case.source)
+    jan = pd.Timestamp("2021-01-15 12:00").tz_localize(tz).utcoffset().total_seconds() / 3600
+    return Weather(data=df[["ghi", "dni", "dhi", "temp_air", "wind_speed"]],
+                   source=f"{case.source} [site.monthly]", fmt="synthetic",
+                   latitude_deg=case["site.latitude_deg"],
+                   longitude_deg=case["site.longitude_deg"], altitude_m=case["site.altitude_m"],
+                   utc_offset_h=jan, name="synthetic year from monthly means",
+                   typical_year=True, notes=(SYNTHETIC_WEATHER_WARNING,))
 
 
 def prepare(case: Case, weather: Weather | None = None) -> Site:

@@ -86,3 +86,42 @@ def test_template_is_valid_and_complete(tmp_path):
 def test_with_values_validates(demo_case):
     with pytest.raises(InputError):
         demo_case.with_values({"plant.tilt_deg": 120.0})
+
+
+MONTHLY = """
+[site.monthly]
+ghi_kwh_m2_day = [2.6, 3.5, 4.8, 5.9, 7.0, 7.8, 7.9, 7.0, 5.6, 4.0, 2.9, 2.3]
+temp_air_c = [10.7, 12.0, 14.5, 16.3, 19.8, 24.0, 27.3, 27.0, 24.1, 19.6, 14.6, 11.6]
+"""
+
+
+def test_monthly_climate_builds_synthetic_weather(tmp_path):
+    from lcoe.model import load_weather_for
+
+    text = MINIMAL_CASE.replace("altitude_m = 273.0", "altitude_m = 273.0\n"
+                                "timezone = \"Etc/GMT+5\"") + MONTHLY
+    case = load_case(write_case(tmp_path, text))
+    w = load_weather_for(case)
+    assert w.fmt == "synthetic" and w.n_hours == 8760 and w.notes
+    daily = w.data["ghi"].groupby(w.data.index.month).sum() / 1000 / \
+        w.data["ghi"].groupby(w.data.index.month).size() * 24
+    # The synthetic year reproduces the monthly means (lcoe.synth_weather contract).
+    assert abs(daily.iloc[0] / 2.6 - 1) < 0.01
+
+
+@pytest.mark.parametrize("extra,match", [
+    ("", "timezone"),  # timezone missing
+    ("timezone = \"Etc/GMT+5\"\nweather = \"w.csv\"", "both given"),
+])
+def test_monthly_conflicts(tmp_path, extra, match):
+    text = MINIMAL_CASE.replace("altitude_m = 273.0", "altitude_m = 273.0\n" + extra) + MONTHLY
+    with pytest.raises(InputError, match=match):
+        load_case(write_case(tmp_path, text))
+
+
+def test_monthly_needs_twelve_values(tmp_path):
+    text = MINIMAL_CASE.replace("altitude_m = 273.0", "altitude_m = 273.0\n"
+                                "timezone = \"Etc/GMT+5\"") + \
+        MONTHLY.replace("2.6, 3.5, ", "")
+    msg = _bad(tmp_path, text)
+    assert "ghi_kwh_m2_day" in msg
