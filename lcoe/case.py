@@ -16,7 +16,16 @@ from types import MappingProxyType
 from typing import Any
 
 from .errors import InputError, field_error, unknown_key_error
-from .schema import FIELD_BY_PATH, FIELDS, REPLACEMENT_FIELDS, REQUIRED, SECTIONS, Field
+from .schema import (
+    EXTRA_KEYS,
+    FIELD_BY_PATH,
+    FIELDS,
+    REPLACEMENT_FIELDS,
+    REQUIRED,
+    SECTIONS,
+    SIZING_CASES,
+    Field,
+)
 
 #: Top-level tables that are not scalar sections of the schema, with their readers elsewhere.
 LIST_TABLES = ("uncertain", "correlation")
@@ -64,6 +73,11 @@ class Case:
         ``[site.monthly]`` climate values (``ghi_kwh_m2_day``, ``temp_air_c`` and optionally
         ``wind_speed_m_s``, 12 values each, and ``seed``), checked; weather is then synthesised
         from them (:mod:`lcoe.synth_weather`).
+    sections : frozenset of str
+        Top-level tables present in the file (``revenue`` switches the bankability layer on).
+    debt_sizing : tuple of (case, min_dscr)
+        Debt-sizing constraints of ``[debt] sizing`` (default P50 at 1.30x and P99_1yr at
+        1.00x, common practice).
     """
 
     source: str
@@ -74,6 +88,8 @@ class Case:
     uncertain: Mapping[str, Any] = field(default_factory=dict)
     correlation: tuple[Mapping[str, Any], ...] = ()
     monthly: Mapping[str, Any] | None = None
+    sections: frozenset = frozenset()
+    debt_sizing: tuple[tuple[str, float], ...] = ()
 
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
@@ -158,7 +174,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         table = data.get(section, {})
         if not isinstance(table, Mapping):
             raise field_error(source, section, table, f"a table [{section}]")
-        extra = {"costs": {"replacement"}, "site": {"monthly"}}.get(section, set())
+        extra = set(EXTRA_KEYS.get(section, ()))
         known = {f.key for f in FIELDS if f.section == section}
         for key in table:
             if key not in known and key not in extra:
@@ -176,6 +192,11 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
     replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
     _check_cross_fields(values, replacements, source)
     monthly = _read_monthly(data.get("site", {}).get("monthly"), values, source)
+    sections = frozenset(k for k in data if k in SECTIONS)
+    if "revenue" in sections and values["revenue.tariff_per_kwh"] is None:
+        raise InputError(f"{source}: missing required key 'revenue.tariff_per_kwh' (contracted "
+                         f"price in year 1 [currency/kWh]; a number >= 0)")
+    sizing = _read_sizing(data.get("debt", {}).get("sizing"), source)
     uncertain = data.get("uncertain", {})
     if not isinstance(uncertain, Mapping):
         raise field_error(source, "uncertain", uncertain, "a table [uncertain]")
@@ -185,7 +206,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
     return Case(source=source, base_dir=base_dir, sha256=sha256,
                 values=MappingProxyType(values), replacements=tuple(replacements),
                 uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
-                monthly=monthly)
+                monthly=monthly, sections=sections, debt_sizing=sizing)
 
 
 def _coerce(f: Field, value: Any, source: str) -> Any:
@@ -239,6 +260,31 @@ def _read_replacements(entries: Any, source: str) -> list[Replacement]:
     return out
 
 
+DEFAULT_SIZING = (("P50", 1.30), ("P99_1yr", 1.00))
+
+
+def _read_sizing(entries: Any, source: str) -> tuple[tuple[str, float], ...]:
+    """Check ``[debt] sizing = [{case = "P50", min_dscr = 1.30}, ...]``."""
+    if entries is None:
+        return DEFAULT_SIZING
+    if not isinstance(entries, list) or not entries:
+        raise field_error(source, "debt.sizing", entries,
+                          'a non-empty list such as [{case = "P50", min_dscr = 1.30}]')
+    out = []
+    for i, e in enumerate(entries):
+        where = f"debt.sizing[{i}]"
+        if not isinstance(e, Mapping) or set(e) != {"case", "min_dscr"}:
+            raise field_error(source, where, e, "a table with case and min_dscr")
+        if e["case"] not in SIZING_CASES:
+            raise field_error(source, f"{where}.case", e["case"],
+                              "one of " + ", ".join(SIZING_CASES))
+        v = e["min_dscr"]
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not v > 0:
+            raise field_error(source, f"{where}.min_dscr", v, "a number > 0")
+        out.append((e["case"], float(v)))
+    return tuple(out)
+
+
 MONTHLY_KEYS = ("ghi_kwh_m2_day", "temp_air_c", "wind_speed_m_s", "seed")
 
 
@@ -286,6 +332,13 @@ def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) ->
     if (1 + r) / (1 + infl) - 1 <= -1 + 1e-9 or not math.isfinite(r):
         raise field_error(source, "finance.discount_rate", r,
                           "a rate whose real value (1+r)/(1+inflation)-1 is above -100 %")
+    if values["debt.tenor_years"] > life:
+        raise field_error(source, "debt.tenor_years", values["debt.tenor_years"],
+                          f"a tenor no longer than case.lifetime_years ({life})")
+    cy = values.get("revenue.contract_years")
+    if cy is not None and cy > life:
+        raise field_error(source, "revenue.contract_years", cy,
+                          f"a contract no longer than case.lifetime_years ({life})")
     if values["plant.mount"] == "single_axis" and values["plant.tilt_deg"] > 45:
         raise field_error(source, "plant.tilt_deg", values["plant.tilt_deg"],
                           "an axis tilt in [0, 45] for a single-axis tracker")

@@ -34,7 +34,8 @@ LCOE_FORMULA = (
 )
 
 #: Cost lines of the cash flow, in the order they are shown.
-COST_LINES = ("capex", "fixed_om", "variable_om", "replacements", "decommissioning", "salvage")
+COST_LINES = ("capex", "fixed_om", "variable_om", "insurance", "land_lease", "replacements",
+              "decommissioning", "salvage")
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,8 @@ def build_cashflow(params: dict, replacements: Sequence, lifetime_years: int,
         ``costs.capex_per_kw`` [currency/kW], ``costs.fixed_om_per_kw_year``
         [currency/kW/year], ``costs.variable_om_per_kwh`` [currency/kWh],
         ``costs.decommissioning_per_kw``, ``costs.salvage_per_kw`` [currency/kW],
+        ``costs.insurance_fraction_per_year`` [1/year, of capex], ``costs.land_lease_per_year``
+        [currency/year],
         ``finance.discount_rate`` (nominal), ``finance.inflation`` [1/year]; and for each
         replacement i, optionally ``costs.replacement[i].cost_per_kw``.
     replacements : sequence of Replacement
@@ -148,6 +151,9 @@ def build_cashflow(params: dict, replacements: Sequence, lifetime_years: int,
         "capex": p("costs.capex_per_kw") * kw * (t == 0),
         "fixed_om": p("costs.fixed_om_per_kw_year") * kw * esc * operating,
         "variable_om": p("costs.variable_om_per_kwh") * energy_kwh * esc,
+        "insurance": p("costs.insurance_fraction_per_year") * p("costs.capex_per_kw") * kw *
+        esc * operating,
+        "land_lease": p("costs.land_lease_per_year") * esc * operating,
         "replacements": np.zeros((n_s, n + 1)),
         "decommissioning": p("costs.decommissioning_per_kw") * kw * esc * last,
         "salvage": -p("costs.salvage_per_kw") * kw * esc * last,

@@ -160,12 +160,65 @@ FIELDS: tuple[Field, ...] = (
       "Decommissioning in year-0 money, paid in the last year", default=0.0, low=0),
     F("costs.salvage_per_kw", "float", "currency/kW",
       "Salvage value in year-0 money, received in the last year", default=0.0, low=0),
+    F("costs.insurance_fraction_per_year", "float", "1/year",
+      "Insurance per year as a fraction of capex, escalated with inflation", default=0.0,
+      low=0, high=0.1, typical="0.002-0.006"),
+    F("costs.land_lease_per_year", "float", "currency/year",
+      "Land lease per year in year-0 money, escalated with inflation", default=0.0, low=0),
     # --- finance ----------------------------------------------------------------------------
     F("finance.discount_rate", "float", "1/year", "Nominal discount rate (after-tax WACC or "
       "the investor's hurdle rate)", low=-1, low_open=True, high=1, typical="0.05-0.10"),
     F("finance.inflation", "float", "1/year", "General inflation; also escalates O&M",
       default=0.02, low=-0.5, high=1, typical="0.02-0.03"),
+    # --- revenue (bankability; the section's presence switches it on) ------------------------
+    F("revenue.tariff_per_kwh", "float", "currency/kWh",
+      "Contracted price in year 1, escalating from year 2", low=0, optional=True,
+      typical="0.03-0.10"),
+    F("revenue.tariff_escalation", "float", "1/year", "Yearly escalation of the contract price",
+      default=0.0, low=-0.2, high=0.5),
+    F("revenue.contract_years", "int", "years", "Length of the price contract (absent = whole "
+      "life); merchant price afterwards", low=1, high=60, optional=True),
+    F("revenue.merchant_price_per_kwh", "float", "currency/kWh",
+      "Market price in year 1 money terms for the years after the contract", default=0.0,
+      low=0),
+    F("revenue.merchant_escalation", "float", "1/year", "Yearly escalation of the merchant "
+      "price from year 2", default=0.02, low=-0.2, high=0.5),
+    F("revenue.curtailment_fraction", "float", "-", "Share of energy that cannot be sold",
+      default=0.0, low=0, high=1, high_open=True, typical="0-0.05"),
+    # --- tax ----------------------------------------------------------------------------------
+    F("tax.rate", "float", "-", "Income tax rate", default=0.0, low=0, high=1, high_open=True,
+      typical="0.15-0.30"),
+    F("tax.depreciation", "choice", "-", "Tax depreciation method (accelerated_5yr: IRS "
+      "Publication 946 Table A-1, 5-year, half-year)",
+      choices=("straight_line", "declining_balance", "accelerated_5yr"),
+      default="straight_line"),
+    F("tax.depreciation_years", "int", "years", "Recovery period (straight_line, "
+      "declining_balance)", default=20, low=1, high=60),
+    F("tax.depreciation_rate", "float", "1/year", "Declining-balance rate", default=0.1,
+      low=0, high=1, low_open=True),
+    F("tax.itc_fraction", "float", "-", "Investment tax credit as a fraction of capex",
+      default=0.0, low=0, high=1),
+    # --- debt ---------------------------------------------------------------------------------
+    F("debt.interest_rate", "float", "1/year", "Loan interest rate (nominal)", default=0.06,
+      low=0, high=1, typical="0.04-0.08"),
+    F("debt.tenor_years", "int", "years", "Loan tenor from financial close", default=18, low=1,
+      high=60, typical="15-20"),
+    F("debt.upfront_fee_fraction", "float", "-", "Arrangement fee as a fraction of the loan",
+      default=0.02, low=0, high=0.2),
+    F("debt.repayment", "choice", "-", "Repayment profile", choices=("sculpted", "annuity"),
+      default="sculpted"),
+    F("debt.max_gearing", "float", "-", "Largest debt / capex", default=0.8, low=0, high=1,
+      low_open=True, typical="0.6-0.85"),
+    F("debt.lockup_dscr", "float", "-", "DSCR below which distributions to equity are locked up",
+      default=1.10, low=0, low_open=True, typical="1.05-1.15 (common practice)"),
+    # --- equity -------------------------------------------------------------------------------
+    F("equity.target_irr", "float", "1/year", "Equity investor's target IRR (nominal)",
+      default=0.10, low=-0.99, high=1, typical="0.08-0.14"),
 )
+
+#: Energy cases a debt-sizing constraint may name (P50 = the deterministic case; the others
+#: by the normal method from ``[uncertain.energy]``, applied to every operating year).
+SIZING_CASES: tuple[str, ...] = ("P50", "P90_1yr", "P99_1yr", "P90_10yr", "P99_10yr")
 
 #: Keys of each ``[[costs.replacement]]`` entry.
 REPLACEMENT_FIELDS: tuple[Field, ...] = (
@@ -181,6 +234,8 @@ SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(f.section for f in FIELDS))
 #: Sections that hold lists or tables handled outside the scalar schema.
 EXTRA_KEYS: dict[str, tuple[str, ...]] = {
     "costs": ("replacement",),
+    "site": ("monthly",),
+    "debt": ("sizing",),
     "": ("uncertain", "correlation"),
 }
 

@@ -39,6 +39,13 @@ def _line(f: Field, value, commented: bool = False) -> list[str]:
     return out
 
 
+#: Sections that switch on the bankability layer; written commented out.
+OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity")
+OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
+                     "site.weather_time_label": "start", "revenue.tariff_per_kwh": 0.055,
+                     "revenue.contract_years": 20}
+
+
 def template_text() -> str:
     """The commented template as TOML text."""
     lines = [
@@ -49,18 +56,26 @@ def template_text() -> str:
     ]
     section = None
     for f in FIELDS:
+        off = f.section in OPTIONAL_SECTIONS
         if f.section != section:
             section = f.section
-            lines += ["", f"[{section}]"]
+            lines += [""]
+            if f.section == "revenue":
+                lines += ["# ---- Bankability (optional): uncomment [revenue] and what follows to "
+                          "get tax, debt,", "# ---- DSCR and equity returns."]
+            lines += [f"{'# ' if off else ''}[{section}]"]
         if f.default is REQUIRED and not f.optional:
-            lines += _line(f, EXAMPLES[f.path])
+            new = _line(f, EXAMPLES[f.path])
         elif f.default is REQUIRED:
-            example = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
-                       "site.weather_time_label": "start"}[f.path]
-            lines += _line(f, example, commented=True)
+            new = _line(f, OPTIONAL_EXAMPLES[f.path], commented=not off)
         else:
-            lines += _line(f, f.default)
-        if f.path == "costs.salvage_per_kw":
+            new = _line(f, f.default)
+        lines += [("# " + x if off and not x.startswith("#") else x) for x in new]
+        if f.path == "debt.lockup_dscr":
+            lines += ["# Debt is the smallest that meets every constraint and the gearing cap:",
+                      '# sizing = [{case = "P50", min_dscr = 1.30}, '
+                      '{case = "P99_1yr", min_dscr = 1.00}]']
+        if f.path == "costs.land_lease_per_year":
             lines += ["", "# Scheduled replacements, one table each (add as many as needed):",
                       "[[costs.replacement]]"]
             for rf, v in zip(REPLACEMENT_FIELDS, ("inverters", 12, 60.0)):

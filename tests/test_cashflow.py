@@ -14,6 +14,7 @@ def _params(**over):
     p = {"plant.dc_capacity_kw": 1000.0, "costs.capex_per_kw": 1000.0,
          "costs.fixed_om_per_kw_year": 15.0, "costs.variable_om_per_kwh": 0.0,
          "costs.decommissioning_per_kw": 0.0, "costs.salvage_per_kw": 0.0,
+         "costs.insurance_fraction_per_year": 0.0, "costs.land_lease_per_year": 0.0,
          "finance.discount_rate": 0.07, "finance.inflation": 0.0}
     p.update(over)
     return p
@@ -75,3 +76,13 @@ def test_real_and_nominal_order():
     e = energy_by_year([1_000_000.0], 0.005, 25)
     cf = build_cashflow(_params(**{"finance.inflation": 0.02}), [], 25, e)
     assert cf.lcoe_nominal[0] > cf.lcoe_real[0]
+
+
+def test_insurance_and_lease_lines():
+    e = energy_by_year([1_000_000.0], 0.0, 3)
+    cf = build_cashflow(_params(**{"costs.insurance_fraction_per_year": 0.004,
+                                   "costs.land_lease_per_year": 20_000.0,
+                                   "finance.inflation": 0.02}), [], 3, e)
+    np.testing.assert_allclose(cf.lines["insurance"][0], [0, 4000 * 1.02, 4000 * 1.02 ** 2,
+                                                          4000 * 1.02 ** 3])
+    np.testing.assert_allclose(cf.lines["land_lease"][0], [0, 20400, 20808, 21224.16])

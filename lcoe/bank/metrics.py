@@ -176,6 +176,7 @@ def project_finance(
     discount_rate,
     max_iterations: int = 100,
     tolerance: float = 1e-9,
+    service_profile=None,
 ) -> FinanceResult:
     """Project-finance cash flow of a project company, vectorised over samples.
 
@@ -226,6 +227,10 @@ def project_finance(
         Largest debt / capex [-] in [0, 1]; a given ``debt_amount`` must respect it too.
     discount_rate : float or array_like, shape (n_samples,)
         Rate [1/year] for ``npv_equity`` and ``npv_project_post_tax``.
+    service_profile : array_like, shape (n_samples, n_years + 1) or (n_years + 1,), optional
+        With a given ``debt_amount`` and sculpted repayment: the contractual debt-service
+        profile (e.g. the schedule sized on the deterministic case), instead of re-sculpting on
+        this case's CFADS. This is how a loan sized once is tested in Monte Carlo trials.
     max_iterations : int
         Largest number of fixed-point iterations.
     tolerance : float
@@ -345,7 +350,13 @@ def project_finance(
             new_debt, profile = sizing.debt, sizing.service
         else:
             new_debt = fixed_debt
-            profile = np.maximum(cfads[BASE_CASE], 0.0) if repayment == "sculpted" else None
+            if repayment != "sculpted":
+                profile = None
+            elif service_profile is not None:
+                profile = np.broadcast_to(as_flows(service_profile, "service_profile",
+                                                   n_years=n_years), (n_s, n_years + 1))
+            else:
+                profile = np.maximum(cfads[BASE_CASE], 0.0)
         schedule = debt_schedule(
             new_debt,
             rate,
