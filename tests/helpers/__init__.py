@@ -1,0 +1,1 @@
+"""Test harnesses for outside programs: LibreOffice (workbook recalculation), Chromium (report)."""
