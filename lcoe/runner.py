@@ -87,15 +87,24 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     base = evaluate(case, site)
     notes = list(site.notes)
     extras = {}
+    bank = None
+    if "revenue" in case.sections:
+        from .bankability import run_bankability
+
+        bank = run_bankability(case, base, spec)
+        extras["bankability"] = bank
     n = (DEFAULT_SAMPLES if not spec.is_empty else 0) if samples is None else samples
     if n:
         from .uncertainty.study import run_study
 
+        collectors = (bank.collector(case),) if bank is not None else ()
         unc, sens = run_study(case, site, spec, n, seed, sobol_base, sobol_output, screen,
-                              chunk_size, method, progress=progress)
+                              chunk_size, method, collectors=collectors, progress=progress)
         extras["uncertainty"] = unc
         if sens is not None:
             extras["sensitivity"] = sens
+        if bank is not None:
+            bank.add_trials(unc.trials.outputs)
     return RunResult(case=case, site=site, base=base, notes=notes, extras=extras,
                      provenance=provenance(seed if n else None))
 

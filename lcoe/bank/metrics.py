@@ -174,7 +174,7 @@ def project_finance(
     sizing_revenue: Mapping[str, np.ndarray] | None = None,
     max_gearing: float = 1.0,
     discount_rate,
-    max_iterations: int = 100,
+    max_iterations: int = 200,
     tolerance: float = 1e-9,
     service_profile=None,
 ) -> FinanceResult:
@@ -373,7 +373,10 @@ def project_finance(
                 float(np.max(np.abs(schedule.service - prev_service).max(axis=1) / scale)),
             )
         prev_debt, prev_service = new_debt, schedule.service
-        interest = schedule.interest
+        # Plain substitution converges in a few passes in most cases; when tax losses and
+        # sculpting make it oscillate, under-relaxing the interest (same fixed point) damps it.
+        interest = schedule.interest if iterations <= 10 else \
+            0.5 * (interest + schedule.interest)
 
     op = _operating(rev, cost, depreciation, schedule.interest, tax_rate, credits)
     unlevered = _operating(rev, cost, depreciation, np.zeros_like(interest), tax_rate, credits)

@@ -194,9 +194,8 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
 
 
 def _check_finite(trials: Trials) -> None:
-    for key, v in trials.outputs.items():
-        if v.ndim != 1:
-            continue
+    for key in OUTPUTS:  # collector outputs such as an IRR may legitimately have no value
+        v = trials.outputs[key]
         bad = ~np.isfinite(v)
         if bad.any():
             i = int(np.argmax(bad))

@@ -145,8 +145,12 @@ class SensitivityBlock:
                 f"{self.output.replace('_', ' ')} on their own (first-order Sobol indices).")
 
     def table_lines(self) -> list[str]:
-        lines = [f"  Drivers of {self.output} (Sobol, N = "
-                 f"{self.sobol.base_samples if self.sobol else '-'}):"]
+        if self.sobol is None:
+            lines = [f"  Drivers of {self.output} (one at a time, P10 to P90 of each input):"]
+            for r in self.tornado[:8]:
+                lines.append(f"    {r['input']:<38} swing {r['swing']:.4g}")
+            return lines
+        lines = [f"  Drivers of {self.output} (Sobol, N = {self.sobol.base_samples}):"]
         for r in self.ranked()[:8]:
             flag = " (interval includes 0)" if r["ST_includes_zero"] else ""
             lines.append(f"    {r['input']:<38} S1 {r['S1']:6.3f} ± {r['S1_conf']:.3f}   "

@@ -1,0 +1,323 @@
+"""The lender's view of a case: revenue, tax, debt sized on downside cases, cover ratios, returns.
+
+Orchestration only: it builds yearly revenue and operating cost from a case and its cash flow,
+and calls the pure project-finance functions of :mod:`lcoe.bank`. Debt is sized once on the
+deterministic sizing cases (as lenders do); every Monte Carlo trial then runs with that loan and
+its contractual debt-service schedule, under its own energy and costs.
+
+Sizing cases: ``P50`` is the deterministic case; ``P90_1yr``, ``P99_1yr``, ``P90_10yr`` and
+``P99_10yr`` scale its energy in every operating year by ``1 - z sigma`` (normal method of
+DOMAIN.md section 4), with sigma the root-sum-square of the case's ``[uncertain.energy]``
+components (the year-to-year part divided by sqrt(10) for ten-year cases).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .bank.metrics import BASE_CASE, FinanceResult, breakeven_tariff, project_finance
+from .case import Case
+from .finance import IrrResult, irr, npv
+from .model import ModelOutput
+from .uncertainty.engine import QUANTILES, Z90, Z99, stats
+from .uncertainty.spec import UncertainSpec
+
+#: DSCR below which a year counts as a payment default (common practice).
+DEFAULT_DSCR = 1.00
+
+
+def sizing_factors(spec: UncertainSpec) -> tuple[dict, float, float]:
+    """Energy multipliers of the sizing cases, and sigma for one and ten years [-].
+
+    Returns
+    -------
+    factors : dict of str to float
+        ``{"P50": 1, "P90_1yr": 1 - 1.28155 s1, ...}``.
+    sigma_1yr, sigma_10yr : float
+    """
+    persistent = float(np.sqrt(sum(v ** 2 for v in spec.energy_components.values())))
+    iav = spec.interannual_cov
+    s1 = float(np.sqrt(persistent ** 2 + iav ** 2))
+    s10 = float(np.sqrt(persistent ** 2 + iav ** 2 / 10))
+    return ({"P50": 1.0, "P90_1yr": 1 - Z90 * s1, "P99_1yr": 1 - Z99 * s1,
+             "P90_10yr": 1 - Z90 * s10, "P99_10yr": 1 - Z99 * s10}, s1, s10)
+
+
+def price_by_year(case: Case, n_years: int) -> np.ndarray:
+    """Price of energy sold in each year [currency/kWh], shape (n_years + 1,), 0 in year 0.
+
+    Contract price ``tariff (1 + e)^(t-1)`` for t = 1..contract_years, then the merchant price
+    ``merchant (1 + e_m)^(t-1)``.
+    """
+    t = np.arange(n_years + 1, dtype=float)
+    contract = case["revenue.contract_years"] or n_years
+    tariff = case["revenue.tariff_per_kwh"] * (1 + case["revenue.tariff_escalation"]) ** (t - 1)
+    merchant = case["revenue.merchant_price_per_kwh"] * \
+        (1 + case["revenue.merchant_escalation"]) ** (t - 1)
+    price = np.where(t <= contract, tariff, merchant)
+    price[0] = 0.0
+    return price
+
+
+def finance_inputs(case: Case, out: ModelOutput) -> dict:
+    """Revenue, opex and capex arrays of every sample of a model output.
+
+    Returns
+    -------
+    dict
+        ``energy_sold_kwh``, ``revenue``, ``opex`` (n_s, N + 1) [kWh, currency] and
+        ``capex`` (n_s,) [currency]. Opex = every cost line but capex (O&M, insurance, lease,
+        replacements, decommissioning less salvage).
+    """
+    c = out.cashflow
+    n = c.energy_kwh.shape[1] - 1
+    sold = c.energy_kwh * (1.0 - case["revenue.curtailment_fraction"])
+    capex_line = c.lines["capex"]
+    return {"energy_sold_kwh": sold, "revenue": sold * price_by_year(case, n),
+            "opex": c.total_cost - capex_line, "capex": capex_line[:, 0]}
+
+
+def _tax_debt_kwargs(case: Case) -> dict:
+    return dict(tax_rate=case["tax.rate"], depreciation_method=case["tax.depreciation"],
+                depreciation_years=(case["tax.depreciation_years"]
+                                    if case["tax.depreciation"] != "accelerated_5yr" else None),
+                depreciation_rate=(case["tax.depreciation_rate"]
+                                   if case["tax.depreciation"] == "declining_balance" else None),
+                itc_fraction=case["tax.itc_fraction"],
+                interest_rate=case["debt.interest_rate"], tenor_years=case["debt.tenor_years"],
+                repayment=case["debt.repayment"],
+                upfront_fee_fraction=case["debt.upfront_fee_fraction"])
+
+
+@dataclass
+class BankabilityBlock:
+    """Deterministic finance and, after a Monte Carlo, the odds of covenant breaches.
+
+    Attributes
+    ----------
+    finance : FinanceResult
+        The deterministic case (one sample) with the sized loan.
+    factors : dict
+        Energy multipliers of the sizing cases.
+    sigma_1yr, sigma_10yr : float
+        Energy sigmas used for sizing [-].
+    constraints : list of (str, float)
+        Sizing constraints as given (case, min DSCR).
+    breakeven_tariff : float
+        Flat real tariff (year-0 money, escalating with inflation) giving the equity its target
+        IRR, with debt sized on the same constraints [currency/kWh].
+    after_tax_lcoe : float
+        Flat real tariff giving the unlevered post-tax project flow NPV zero at the case's
+        discount rate (the WACC definition) [currency/kWh].
+    target_irr, lockup_dscr, discount_rate : float
+    currency : str
+    mc : dict or None
+        Monte Carlo statistics (see :meth:`add_trials`).
+    notes : list of str
+    """
+
+    finance: FinanceResult
+    factors: dict
+    sigma_1yr: float
+    sigma_10yr: float
+    constraints: list
+    breakeven_tariff: float
+    after_tax_lcoe: float
+    target_irr: float
+    lockup_dscr: float
+    discount_rate: float
+    currency: str
+    mc: dict | None = None
+    notes: list = field(default_factory=list)
+
+    @property
+    def gearing(self) -> float:
+        capex = -self.finance.project_flow_pre_tax[0, 0]
+        return float(self.finance.debt[0] / capex) if capex > 0 else 0.0
+
+    @property
+    def binding(self) -> str:
+        s = self.finance.sizing
+        if s is None:
+            return ""
+        b = s.binding[0] if isinstance(s.binding, (list, tuple, np.ndarray)) else s.binding
+        return str(b).replace(BASE_CASE, "P50")
+
+    def irr_results(self) -> dict:
+        """IRRs of the deterministic flows with every root (several roots are all reported)."""
+        f = self.finance
+        return {"project_post_tax": irr(f.project_flow_post_tax[0]),
+                "project_pre_tax": irr(f.project_flow_pre_tax[0]),
+                "equity": irr(f.equity_flow[0])}
+
+    def collector(self, case: Case):
+        """Per-trial collector for :func:`lcoe.uncertainty.engine.monte_carlo`."""
+        debt = float(self.finance.debt[0])
+        service = self.finance.debt_service[0]
+        kwargs = _tax_debt_kwargs(case)
+        target = self.target_irr
+
+        def collect(out: ModelOutput, params: dict, sl) -> dict:
+            fi = finance_inputs(case, out)
+            d = np.minimum(debt, fi["capex"])
+            fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                                 debt_amount=d, service_profile=service, max_gearing=1.0,
+                                 discount_rate=np.asarray(params.get(
+                                     "finance.discount_rate", case["finance.discount_rate"])),
+                                 **kwargs)
+            return {"min_dscr": fr.min_dscr, "dscr_by_year": fr.dscr,
+                    "equity_irr": fr.equity_irr,
+                    "equity_npv_at_target": npv(target, fr.equity_flow)}
+
+        return collect
+
+    def add_trials(self, outputs: dict) -> None:
+        """Summarise per-trial outputs of :meth:`collector` into :attr:`mc`."""
+        dscr_y = outputs["dscr_by_year"]
+        tenor = int(np.sum(np.isfinite(self.finance.dscr[0])))
+        served = np.isfinite(self.finance.dscr[0])
+        d = dscr_y[:, served]
+        worst = np.nanmin(np.where(np.isfinite(d), d, np.inf), axis=1) if d.size else \
+            np.full(dscr_y.shape[0], np.nan)
+        years = np.nonzero(served)[0]
+        fan = {f"q{int(round(q * 100)):02d}": np.nanquantile(d, q, axis=0).tolist()
+               for q in QUANTILES} if d.size else {}
+        self.mc = {
+            "trials": int(dscr_y.shape[0]),
+            "min_dscr": stats(worst) if d.size else None,
+            "prob_dscr_below_1": float(np.mean(worst < DEFAULT_DSCR)) if d.size else 0.0,
+            "prob_lockup": float(np.mean(worst < self.lockup_dscr)) if d.size else 0.0,
+            "prob_equity_below_target": float(np.mean(outputs["equity_npv_at_target"] < 0)),
+            "equity_irr": stats(outputs["equity_irr"][np.isfinite(outputs["equity_irr"])])
+            if np.isfinite(outputs["equity_irr"]).sum() > 1 else None,
+            "dscr_fan": {"years": years.tolist(), **fan}, "tenor_years": tenor,
+        }
+
+    def to_summary(self) -> dict:
+        f = self.finance
+        irrs = self.irr_results()
+        out = {
+            "debt": f.debt[0], "gearing": self.gearing, "binding_constraint": self.binding,
+            "sizing_constraints": [{"case": c, "min_dscr": m} for c, m in self.constraints],
+            "sizing_energy_factors": self.factors, "sigma_1yr": self.sigma_1yr,
+            "sigma_10yr": self.sigma_10yr,
+            "min_dscr": f.min_dscr[0], "avg_dscr": f.avg_dscr[0], "llcr": f.llcr[0],
+            "project_irr": _irr_value(irrs["project_post_tax"]),
+            "project_irr_pre_tax": _irr_value(irrs["project_pre_tax"]),
+            "equity_irr": _irr_value(irrs["equity"]),
+            "irr_roots": {k: {"roots": v.roots, "sign_changes": v.sign_changes,
+                              "reason": v.reason} for k, v in irrs.items()},
+            "npv": f.npv_equity[0],
+            "npv_definition": "NPV of the cash flow to equity at finance.discount_rate",
+            "payback_year": f.payback_year[0],
+            "breakeven_tariff_per_kwh": self.breakeven_tariff,
+            "breakeven_definition": "flat real tariff (year-0 money, escalating with "
+                                    "inflation) that gives the equity its target IRR, debt "
+                                    "sized on the same constraints",
+            "after_tax_lcoe_per_kwh": self.after_tax_lcoe,
+            "after_tax_lcoe_definition": "flat real tariff at which the unlevered post-tax "
+                                         "project cash flow has NPV zero at finance."
+                                         "discount_rate (WACC)",
+            "target_equity_irr": self.target_irr, "lockup_dscr": self.lockup_dscr,
+            "cfads": f.cfads[0], "dscr_by_year": f.dscr[0], "debt_service": f.debt_service[0],
+            "notes": self.notes,
+        }
+        mc = self.mc or {}
+        out["prob_dscr_below_1"] = mc.get("prob_dscr_below_1")
+        out["prob_lockup"] = mc.get("prob_lockup")
+        out["prob_equity_below_target"] = mc.get("prob_equity_below_target")
+        if mc:
+            out["monte_carlo"] = mc
+        return out
+
+    def table_lines(self) -> list[str]:
+        f, cur = self.finance, self.currency
+        irrs = self.irr_results()
+        lines = [f"  Bankability (debt sized on {', '.join(f'{c} @ {m:.2f}x' for c, m in self.constraints)})",
+                 f"    Debt               {f.debt[0]:,.0f} {cur} (gearing "
+                 f"{100 * self.gearing:.1f} %; binding: {self.binding or '-'})",
+                 f"    DSCR               min {f.min_dscr[0]:.2f}x, average {f.avg_dscr[0]:.2f}x, "
+                 f"LLCR {f.llcr[0]:.2f}x",
+                 f"    IRR                project {_irr_text(irrs['project_post_tax'])} "
+                 f"post-tax ({_irr_text(irrs['project_pre_tax'])} pre-tax)",
+                 f"    Equity IRR         {_irr_text(irrs['equity'])} (target "
+                 f"{100 * self.target_irr:.1f} %)",
+                 f"    Equity NPV         {f.npv_equity[0]:,.0f} {cur} at "
+                 f"{100 * self.discount_rate:.2f} %; payback year {f.payback_year[0]:.0f}",
+                 f"    Break-even tariff  {self.breakeven_tariff:.4f} {cur}/kWh (flat real, "
+                 f"equity at target IRR)",
+                 f"    After-tax LCOE     {self.after_tax_lcoe:.4f} {cur}/kWh (flat real, NPV 0 "
+                 f"at WACC {100 * self.discount_rate:.2f} %)"]
+        if self.mc:
+            m = self.mc
+            lines.append(f"    Monte Carlo        P(DSCR < 1.00 in any year) "
+                         f"{100 * m['prob_dscr_below_1']:.1f} %, P(lock-up < "
+                         f"{self.lockup_dscr:.2f}x) {100 * m['prob_lockup']:.1f} %, "
+                         f"P(equity IRR < target) {100 * m['prob_equity_below_target']:.1f} %")
+            if m["min_dscr"]:
+                lines.append(f"    Min DSCR           P10 {m['min_dscr']['q10']:.2f}x, P50 "
+                             f"{m['min_dscr']['q50']:.2f}x, P90 {m['min_dscr']['q90']:.2f}x")
+        lines += [f"    note: {n}" for n in self.notes]
+        return lines
+
+
+def _irr_value(r: IrrResult):
+    """The unique IRR, or None when there are several roots or none."""
+    return float(r.value) if np.isfinite(r.value) else None
+
+
+def _irr_text(r: IrrResult) -> str:
+    if np.isfinite(r.value):
+        return f"{100 * r.value:.2f} %"
+    if r.roots:
+        return "several roots: " + ", ".join(f"{100 * x:.2f} %" for x in r.roots)
+    return f"none ({r.reason})"
+
+
+def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> BankabilityBlock:
+    """Size the debt on the case's constraints and compute the deterministic metrics.
+
+    Parameters
+    ----------
+    case : Case
+        With a ``[revenue]`` table.
+    base : ModelOutput
+        The deterministic run (one sample).
+    spec : UncertainSpec
+        Supplies the energy sigmas of the sizing cases.
+    """
+    factors, s1, s10 = sizing_factors(spec)
+    notes = []
+    if s1 == 0 and any(c != "P50" for c, _ in case.debt_sizing):
+        notes.append("no [uncertain.energy] components given: downside sizing cases equal P50")
+    notes.append("sizing cases scale energy and revenue; operating costs are those of P50")
+    fi = finance_inputs(case, base)
+    constraints = [(BASE_CASE if c == "P50" else c, m) for c, m in case.debt_sizing]
+    sizing_rev = {c: fi["revenue"] * factors[c] for c, _ in case.debt_sizing if c != "P50"}
+    kwargs = _tax_debt_kwargs(case)
+    r = case["finance.discount_rate"]
+    fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                         dscr_constraints=constraints, sizing_revenue=sizing_rev or None,
+                         max_gearing=case["debt.max_gearing"], discount_rate=r, **kwargs)
+    if fr.debt[0] <= 0:
+        reason = getattr(fr.sizing, "reason", "") or "no positive debt meets the constraints"
+        notes.append(f"no debt: {reason}")
+    infl = case["finance.inflation"]
+    sizing_energy = {c: fi["energy_sold_kwh"] * factors[c] for c, _ in case.debt_sizing
+                     if c != "P50"}
+    be = breakeven_tariff(energy_kwh=fi["energy_sold_kwh"], inflation=infl,
+                          target_equity_irr=case["equity.target_irr"],
+                          sizing_energy_kwh=sizing_energy or None, opex=fi["opex"],
+                          capex=fi["capex"], dscr_constraints=constraints,
+                          max_gearing=case["debt.max_gearing"], **kwargs)
+    at = breakeven_tariff(energy_kwh=fi["energy_sold_kwh"], inflation=infl,
+                          target_equity_irr=r, opex=fi["opex"], capex=fi["capex"],
+                          debt_amount=0.0, **kwargs)
+    pretty = [(("P50" if c == BASE_CASE else c), m) for c, m in constraints]
+    return BankabilityBlock(finance=fr, factors=factors, sigma_1yr=s1, sigma_10yr=s10,
+                            constraints=pretty, breakeven_tariff=float(be[0]),
+                            after_tax_lcoe=float(at[0]), target_irr=case["equity.target_irr"],
+                            lockup_dscr=case["debt.lockup_dscr"], discount_rate=r,
+                            currency=case["case.currency"], notes=notes)

@@ -1,0 +1,113 @@
+"""The Monte Carlo engine: reproducibility, chunking, energy P-values, bad input."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import MINIMAL_CASE, write_case
+from scipy.stats import norm
+
+from lcoe.case import load_case
+from lcoe.errors import InputError
+from lcoe.model import prepare
+from lcoe.uncertainty.engine import energy_exceedance, monte_carlo
+from lcoe.uncertainty.spec import read_spec
+
+UNC = """
+[uncertain]
+"costs.capex_per_kw" = { dist = "triangular", low = 900, mode = 1000, high = 1200 }
+"plant.dc_loss_fraction" = { dist = "uniform", low = 0.05, high = 0.12 }
+[uncertain.energy]
+interannual_cov = 0.04
+resource_sd = 0.05
+"""
+
+
+@pytest.fixture(scope="module")
+def unc_case(tmp_path_factory):
+    path = write_case(tmp_path_factory.mktemp("u"), MINIMAL_CASE + UNC)
+    case = load_case(path)
+    return case, prepare(case), read_spec(case)
+
+
+def test_same_seed_same_numbers_any_chunk(unc_case):
+    case, site, spec = unc_case
+    a, _ = monte_carlo(case, site, spec, 64, seed=7, chunk_size=64)
+    b, _ = monte_carlo(case, site, spec, 64, seed=7, chunk_size=5)
+    c, _ = monte_carlo(case, site, spec, 64, seed=8, chunk_size=64)
+    for k in a.outputs:
+        np.testing.assert_array_equal(a.outputs[k], b.outputs[k])
+    assert not np.array_equal(a.outputs["lcoe_real_per_kwh"], c.outputs["lcoe_real_per_kwh"])
+
+
+def test_persistent_drawn_once_yearly_independent(unc_case):
+    case, site, spec = unc_case
+    t, _ = monte_carlo(case, site, spec, 400, seed=3)
+    yearly = t.energy_factors / t.persistent_factor[:, None]
+    # year-to-year factors vary within a trial and are uncorrelated between years
+    assert np.std(yearly[0]) > 0.01
+    r = np.corrcoef(yearly[:, 0], yearly[:, 1])[0, 1]
+    assert abs(r) < 0.15
+    # persistent factor: mean 1, sd = resource_sd (statistical, LHS)
+    assert abs(t.persistent_factor.std() - 0.05) < 0.005
+
+
+def test_normal_method_matches_scipy_and_samples(tmp_path):
+    # Energy-only uncertainty with normal components: sampled P90 agrees with the closed form
+    # P50 (1 - z90 sigma) within Monte Carlo error; z from scipy.stats.norm (cross-impl.).
+    text = MINIMAL_CASE + "\n[uncertain.energy]\ninterannual_cov = 0.03\nresource_sd = 0.04\n"
+    case = load_case(write_case(tmp_path, text))
+    spec = read_spec(case)
+    t, _ = monte_carlo(case, prepare(case), spec, 20000, seed=11)
+    ex = energy_exceedance(t, spec)
+    sigma = np.hypot(0.03, 0.04)
+    assert ex.sigma_1yr == pytest.approx(sigma, rel=0.03)
+    assert ex.normal["p90"] == pytest.approx(ex.sampled["p50"] * (1 + norm.ppf(0.10) * sigma),
+                                             rel=3e-3)
+    assert ex.sampled["p90"] == pytest.approx(ex.normal["p90"], rel=0.01)
+    # DOMAIN.md worked example: P50 100 GWh, sigma 5 % -> P90 93.592 GWh (published method)
+    assert 100 * (1 - norm.ppf(0.9) * 0.05) == pytest.approx(93.592, abs=1e-3)
+    # ten-year horizon: only the year-to-year part shrinks, by sqrt(10)
+    assert ex.sigma_10yr == pytest.approx(np.hypot(0.04, 0.03 / np.sqrt(10)), rel=0.05)
+    assert ex.sampled["p90_10yr"] > ex.sampled["p90"]
+
+
+@pytest.mark.parametrize("entry,match", [
+    ('"costs.capex_per_kw" = { dist = "gamma", k = 2 }', "dist"),
+    ('"costs.capex_per_kw" = { dist = "uniform", low = 5, high = 1 }', "low"),
+    ('"costs.capex_per_kw" = { dist = "normal", mean = 900, sd = 0 }', "sd"),
+    ('"costs.capex_per_kw" = { dist = "triangular", low = 1, mode = 9, high = 5 }', "mode"),
+    ('"costs.capex_per_kw" = { dist = "discrete", values = [1, 2], weights = [0.5, 0.6] }',
+     "weights"),
+    ('"plant.mount" = { dist = "uniform", low = 0, high = 1 }', "numeric"),
+    ('"plant.tilt_dg" = { dist = "uniform", low = 0, high = 1 }', "tilt_deg"),
+    ('"plant.degradation_per_year" = { dist = "normal", mean = 0.005, sd = 0.003 }',
+     "truncate"),
+])
+def test_bad_uncertain_entries(tmp_path, entry, match):
+    case = load_case(write_case(tmp_path, MINIMAL_CASE + "\n[uncertain]\n" + entry + "\n"))
+    with pytest.raises(InputError, match=match) as exc:
+        read_spec(case)
+    assert "\n" not in str(exc.value) and "case.toml" in str(exc.value)
+
+
+def test_bad_correlation(tmp_path):
+    text = MINIMAL_CASE + UNC + '\n[[correlation]]\nbetween = ["costs.capex_per_kw", ' \
+        '"plant.dc_loss_fraction"]\nrank = 1.5\n'
+    with pytest.raises(InputError, match="correlation"):
+        read_spec(load_case(write_case(tmp_path, text)))
+
+
+def test_non_finite_output_names_trial(tmp_path):
+    # A non-finite output (planted here) stops the run with the trial and its inputs named,
+    # instead of being dropped silently.
+    text = MINIMAL_CASE + '\n[uncertain]\n"plant.availability" = { dist = "discrete", ' \
+        'values = [1.0, 0.9], weights = [0.5, 0.5] }\n'
+    case = load_case(write_case(tmp_path, text))
+    spec = read_spec(case)
+    from lcoe.uncertainty import engine
+
+    t, _ = monte_carlo(case, prepare(case), spec, 8, seed=1)
+    t.outputs["lcoe_real_per_kwh"][3] = np.nan
+    with pytest.raises(InputError, match="trial 3.*plant.availability"):
+        engine._check_finite(t)
