@@ -190,6 +190,9 @@ def build_parser() -> argparse.ArgumentParser:
     d = sub.add_parser("demo", help="run the bundled demo case")
     out_opts(d, "default outputs/demo")
     d.set_defaults(func=_cmd_demo)
+    from .sweep import register_cli
+
+    register_cli(sub)
     return p
 
 

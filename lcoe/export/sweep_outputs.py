@@ -1,0 +1,304 @@
+"""Files of a sweep: ``sweep.csv``, ``sweep.json``, ``sweep.xlsx`` and two charts.
+
+The exporters read a :class:`lcoe.sweep.SweepResult` and compute nothing. User text (site and
+technology names, notes) goes into the workbook as text cells, never formulas
+(:func:`lcoe.export.workbook.put_text`).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+from ..cashflow import LCOE_FORMULA
+from .summary import _clean
+from .workbook import put_text
+
+SCHEMA_VERSION = 1
+#: Columns of ``sweep.csv`` and of the workbook's table, in order.
+CSV_COLUMNS = ("site", "technology", "lcoe_real_q10", "lcoe_real_q50", "lcoe_real_q90",
+               "energy_p50_kwh", "energy_p90_kwh", "prob_cheapest")
+#: What each column means (JSON and workbook).
+COLUMN_NOTES = {
+    "lcoe_real_q10": "10th percentile of the real LCOE over the trials [currency/kWh]",
+    "lcoe_real_q50": "median real LCOE [currency/kWh]",
+    "lcoe_real_q90": "90th percentile of the real LCOE [currency/kWh]",
+    "energy_p50_kwh": "one-year energy exceeded with 50 % probability (no degradation) [kWh]",
+    "energy_p90_kwh": "one-year energy exceeded with 90 % probability (no degradation) [kWh]",
+    "prob_cheapest": "share of trials in which this technology has the lowest real LCOE at the "
+                     "site (trial by trial, common random numbers) [-]",
+}
+CAUTION = ("Results depend entirely on the inputs; they are not investment advice. Sites built "
+           "from monthly climate values use synthetic weather: a screening estimate, not a "
+           "bankable energy assessment.")
+FILES = ("sweep.csv", "sweep.json", "sweep.xlsx", "sweep_ranking.png", "sweep_sites.png")
+
+
+def _header(ws, labels) -> None:
+    """Bold text cells across row 1."""
+    from openpyxl.styles import Font
+
+    for j, label in enumerate(labels, start=1):
+        put_text(ws, 1, j, label)
+        ws.cell(row=1, column=j).font = Font(bold=True)
+
+
+def _put(ws, row: int, col: int, value, number_format: str) -> None:
+    """A number as a number cell; anything else as a text cell."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        ws.cell(row=row, column=col, value=float(value)).number_format = number_format
+    else:
+        put_text(ws, row, col, value)
+
+
+def _row_values(row) -> list:
+    return [getattr(row, c) for c in CSV_COLUMNS]
+
+
+def write_sweep_csv(result, path: Path) -> None:
+    """One row per completed site x technology, columns :data:`CSV_COLUMNS`."""
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(CSV_COLUMNS)
+        for row in result.rows:
+            vals = _row_values(row)
+            w.writerow(vals[:2] + [repr(float(v)) for v in vals[2:]])
+
+
+def sweep_dict(result) -> dict:
+    """The content of ``sweep.json`` as a plain dict."""
+    plan = result.plan
+    return _clean({
+        "schema_version": SCHEMA_VERSION,
+        "kind": "sweep",
+        "plan": {"source": plan.path, "sha256": plan.sha256, "samples": plan.samples,
+                 "seed": plan.seed, "chunk_trials": plan.chunk_trials, "method": plan.method,
+                 "currency": plan.currency, "uncertain_inputs": list(plan.input_names)},
+        "technologies": [{"label": t.label, "path": t.path, "sha256": t.sha256,
+                          "case_name": t.case_name} for t in plan.technologies],
+        "columns": COLUMN_NOTES,
+        "formula": LCOE_FORMULA,
+        "rows": [{**{c: getattr(r, c) for c in CSV_COLUMNS},
+                  "lcoe_real_mean": r.lcoe_real_mean, "lcoe_nominal_q50": r.lcoe_nominal_q50}
+                 for r in result.rows],
+        "sites": [{"name": s.name, "latitude_deg": s.latitude_deg,
+                   "longitude_deg": s.longitude_deg, "cheapest": s.cheapest,
+                   "prob_cheapest": s.prob_cheapest, "cheapest_by_median": s.cheapest_by_median}
+                  for s in result.sites],
+        "failures": [{"site": f.site, "technology": f.technology, "chunk": f.chunk,
+                      "attempts": f.attempts, "error": f.error} for f in result.failures],
+        "execution": {"how": result.execution, "elapsed_s": result.elapsed_s},
+        "notes": list(result.notes) + [CAUTION],
+        "versions": result.provenance.get("versions", {}),
+        "provenance": {k: v for k, v in result.provenance.items() if k != "versions"},
+    })
+
+
+def sweep_json(result) -> str:
+    """``sweep.json`` text (indented, UTF-8)."""
+    return json.dumps(sweep_dict(result), indent=2, ensure_ascii=False) + "\n"
+
+
+def write_sweep_workbook(result, path: Path) -> None:
+    """``sweep.xlsx``: the table, the sites, the failures and what the numbers are."""
+    from openpyxl import Workbook
+
+    plan = result.plan
+    cur = plan.currency
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Sweep"
+    _header(ws, CSV_COLUMNS)
+    for i, row in enumerate(result.rows, start=2):
+        vals = _row_values(row)
+        put_text(ws, i, 1, vals[0])
+        put_text(ws, i, 2, vals[1])
+        for j, v in enumerate(vals[2:], start=3):
+            fmt = "0.0000" if CSV_COLUMNS[j - 1].startswith(("lcoe", "prob")) else "#,##0"
+            _put(ws, i, j, v, fmt)
+    for j, width in enumerate((26, 26, 14, 14, 14, 16, 16, 14), start=1):
+        ws.column_dimensions[chr(64 + j)].width = width
+
+    wsites = wb.create_sheet("Sites")
+    _header(wsites, ("site", "latitude_deg", "longitude_deg", "most_often_cheapest",
+                        "prob_cheapest", "cheapest_by_median"))
+    for i, s in enumerate(result.sites, start=2):
+        put_text(wsites, i, 1, s.name)
+        _put(wsites, i, 2, s.latitude_deg, "0.000")
+        _put(wsites, i, 3, s.longitude_deg, "0.000")
+        put_text(wsites, i, 4, s.cheapest or "(none completed)")
+        _put(wsites, i, 5, s.prob_cheapest, "0.000")
+        put_text(wsites, i, 6, s.cheapest_by_median or "")
+
+    if result.failures:
+        wf = wb.create_sheet("Failures")
+        _header(wf, ("site", "technology", "chunk", "attempts", "error"))
+        for i, f in enumerate(result.failures, start=2):
+            put_text(wf, i, 1, f.site)
+            put_text(wf, i, 2, f.technology)
+            _put(wf, i, 3, f.chunk, "0")
+            _put(wf, i, 4, f.attempts, "0")
+            put_text(wf, i, 5, f.error)
+
+    wa = wb.create_sheet("About")
+    _header(wa, ("Item", "Value"))
+    about = [("Plan", plan.path), ("Plan SHA-256", plan.sha256),
+             ("Trials per site x technology", plan.samples), ("Seed", plan.seed),
+             ("Trials per chunk", plan.chunk_trials), ("Sampling", plan.method),
+             ("Currency", cur), ("LCOE formula", LCOE_FORMULA), ("Ran on", result.execution)]
+    about += [(f"Technology {t.label}", f"{t.path} (sha256 {t.sha256})")
+              for t in plan.technologies]
+    about += [(c, meaning.replace("currency", cur)) for c, meaning in COLUMN_NOTES.items()]
+    about += [("Note", n) for n in result.notes] + [("Caution", CAUTION)]
+    for i, (k, v) in enumerate(about, start=2):
+        put_text(wa, i, 1, k)
+        _put(wa, i, 2, v, "0")
+    wa.column_dimensions["A"].width = 34
+    wa.column_dimensions["B"].width = 110
+    wb.save(path)
+
+
+def _tech_colours(result) -> dict:
+    from matplotlib import colormaps
+
+    cmap = colormaps["tab10"]
+    return {t.label: cmap(i % 10) for i, t in enumerate(result.plan.technologies)}
+
+
+def plot_ranking(result, path: Path) -> None:
+    """Median real LCOE with 10th-90th percentile bars, by site and technology.
+
+    Sites are ordered by their lowest median; a filled marker shows the technology most often
+    cheapest at the site.
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.lines import Line2D
+
+    colours = _tech_colours(result)
+    techs = [t.label for t in result.plan.technologies]
+    best = {s.name: s.cheapest for s in result.sites}
+    by_site: dict[str, list] = {}
+    for r in result.rows:
+        by_site.setdefault(r.site, []).append(r)
+    order = sorted(by_site, key=lambda s: min(r.lcoe_real_q50 for r in by_site[s]))
+    fig, ax = plt.subplots(figsize=(max(8.0, 0.75 * len(order) + 3.0), 6.0))
+    width = 0.75 / max(len(techs), 1)
+    for x, site in enumerate(order):
+        for r in by_site[site]:
+            j = techs.index(r.technology)
+            xj = x + (j - (len(techs) - 1) / 2) * width
+            c = colours[r.technology]
+            ax.errorbar(xj, r.lcoe_real_q50,
+                        yerr=[[r.lcoe_real_q50 - r.lcoe_real_q10],
+                              [r.lcoe_real_q90 - r.lcoe_real_q50]],
+                        fmt="o", color=c, ecolor=c, elinewidth=1.6, capsize=3, markersize=6,
+                        markerfacecolor=c if best.get(site) == r.technology else "white")
+    ax.set_xticks(range(len(order)))
+    ax.set_xticklabels(order, rotation=35, ha="right")
+    ax.set_xlim(-0.6, len(order) - 0.4)
+    ax.set_ylabel(f"Real LCOE [{result.plan.currency}/kWh]")
+    ax.set_title(f"Median real LCOE with 10th-90th percentile bars ({result.plan.samples} "
+                 f"trials each)\nsites ordered by their cheapest median; filled marker = most "
+                 f"often cheapest", fontsize=11)
+    ax.grid(axis="y", alpha=0.3)
+    handles = [Line2D([], [], marker="o", color=colours[t], linestyle="-", label=t)
+               for t in techs]
+    ax.legend(handles=handles, title="technology", fontsize=9, loc="upper left")
+    if not order:
+        ax.text(0.5, 0.5, "no site x technology completed", transform=ax.transAxes,
+                ha="center")
+    fig.tight_layout()
+    fig.savefig(path, dpi=120)
+    plt.close(fig)
+
+
+def plot_site_map(result, path: Path) -> None:
+    """Sites by longitude and latitude, coloured by the technology most often cheapest.
+
+    Marker area grows with that technology's probability of being cheapest. A plain
+    longitude-latitude plot (no coastlines).
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.lines import Line2D
+
+    colours = _tech_colours(result)
+    fig, ax = plt.subplots(figsize=(10.0, 6.0))
+    for s in result.sites:
+        if s.cheapest is None:
+            ax.scatter(s.longitude_deg, s.latitude_deg, marker="x", s=60, color="grey")
+        else:
+            ax.scatter(s.longitude_deg, s.latitude_deg, s=40 + 260 * s.prob_cheapest,
+                       color=colours[s.cheapest], edgecolor="black", linewidth=0.6, zorder=3)
+    lons = [s.longitude_deg for s in result.sites] or [0.0]
+    lats = [s.latitude_deg for s in result.sites] or [0.0]
+    pad_x = max(5.0, 0.08 * (max(lons) - min(lons)))
+    pad_y = max(5.0, 0.08 * (max(lats) - min(lats)))
+    ax.set_xlim(max(-180, min(lons) - pad_x), min(180, max(lons) + 3 * pad_x))
+    ax.set_ylim(max(-90, min(lats) - pad_y), min(90, max(lats) + pad_y))
+    _place_labels(fig, ax, [(s.longitude_deg, s.latitude_deg,
+                             s.name if s.cheapest is None else f"{s.name} ({s.prob_cheapest:.2f})")
+                            for s in result.sites])
+    ax.axhline(0.0, color="grey", linewidth=0.6, linestyle=":")
+    ax.set_xlabel("Longitude [deg, east positive]")
+    ax.set_ylabel("Latitude [deg, north positive]")
+    ax.set_title("Technology most often cheapest at each site (marker size: its probability)",
+                 fontsize=11)
+    ax.grid(alpha=0.3)
+    used = [t.label for t in result.plan.technologies
+            if any(s.cheapest == t.label for s in result.sites)]
+    handles = [Line2D([], [], marker="o", linestyle="", color=colours[t], markeredgecolor="black",
+                      markersize=8, label=t) for t in used]
+    if any(s.cheapest is None for s in result.sites):
+        handles.append(Line2D([], [], marker="x", linestyle="", color="grey",
+                              label="no run completed"))
+    if handles:
+        ax.legend(handles=handles, fontsize=9, loc="best")
+    fig.tight_layout()
+    fig.savefig(path, dpi=120)
+    plt.close(fig)
+
+
+def _place_labels(fig, ax, points) -> None:
+    """Label points, each at the first of four offsets that overlaps no marker or label."""
+    renderer = fig.canvas.get_renderer()
+    marker_px = 14.0  # radius of the largest marker [pixels]
+    centres = [ax.transData.transform((x, y)) for x, y, _ in points]
+    taken = []
+    for i, (x, y, text) in enumerate(points):
+        others = [c for j, c in enumerate(centres) if j != i]
+        best = None
+        for dx, dy, ha in ((8, 4, "left"), (8, -12, "left"), (-8, 4, "right"),
+                           (-8, -12, "right"), (0, 10, "center"), (0, -18, "center")):
+            ann = ax.annotate(text, (x, y), xytext=(dx, dy), textcoords="offset points",
+                              fontsize=8, ha=ha)
+            box = ann.get_window_extent(renderer).expanded(1.05, 1.1)
+            hits = sum(box.overlaps(b) for b in taken) + sum(
+                box.x0 - marker_px < cx < box.x1 + marker_px and
+                box.y0 - marker_px < cy < box.y1 + marker_px
+                for cx, cy in others)
+            if best is None or hits < best[0]:
+                if best is not None:
+                    best[1].remove()
+                best = (hits, ann, box)
+            else:
+                ann.remove()
+            if hits == 0:
+                break
+        taken.append(best[2])
+
+
+def write_sweep_outputs(result, out) -> None:
+    """Write every sweep file through an :class:`lcoe.output.OutputDir` (staged, renamed)."""
+    with out:
+        out.write_with("sweep.csv", lambda p: write_sweep_csv(result, p))
+        out.write_text("sweep.json", sweep_json(result))
+        out.write_with("sweep.xlsx", lambda p: write_sweep_workbook(result, p))
+        out.write_with("sweep_ranking.png", lambda p: plot_ranking(result, p))
+        out.write_with("sweep_sites.png", lambda p: plot_site_map(result, p))
