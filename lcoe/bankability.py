@@ -235,7 +235,8 @@ class BankabilityBlock:
     def table_lines(self) -> list[str]:
         f, cur = self.finance, self.currency
         irrs = self.irr_results()
-        lines = [f"  Bankability (debt sized on {', '.join(f'{c} @ {m:.2f}x' for c, m in self.constraints)})",
+        sizing = ", ".join(f"{c} @ {m:.2f}x" for c, m in self.constraints)
+        lines = [f"  Bankability (debt sized on {sizing})",
                  f"    Debt               {f.debt[0]:,.0f} {cur} (gearing "
                  f"{100 * self.gearing:.1f} %; binding: {self.binding or '-'})",
                  f"    DSCR               min {f.min_dscr[0]:.2f}x, average {f.avg_dscr[0]:.2f}x, "
