@@ -11,6 +11,8 @@ Every derived cell is a formula of the Inputs sheet (through defined names such 
     capex_0      = capex_per_kw * kW
     fixed O&M_t  = fixed_om_per_kw_year * kW * escalation_t            t = 1..N
     variable O&M = variable_om_per_kwh * E_t * escalation_t
+    insurance_t  = insurance_fraction_per_year * capex_per_kw * kW * escalation_t   t = 1..N
+    land lease_t = land_lease_per_year * escalation_t                    t = 1..N
     replacement  = cost_per_kw * kW * escalation_t   at t = k * every_years, 0 < t < N
     decommissioning, -salvage: per kW * kW * escalation_N in year N
     LCOE         = (C_0 + NPV(r_nom, C_1..C_N)) / (E_0 + NPV(r, E_1..E_N)),
@@ -54,6 +56,10 @@ LINE_FORMULAS = {
                  ("fixed_om_per_kw_year", "dc_capacity_kw")),
     "variable_om": ("Variable O&M", "=variable_om_per_kwh*{E}*{esc}",
                     ("variable_om_per_kwh",)),
+    "insurance": ("Insurance",
+                  "=insurance_fraction_per_year*capex_per_kw*dc_capacity_kw*{esc}*{op}",
+                  ("insurance_fraction_per_year", "capex_per_kw", "dc_capacity_kw")),
+    "land_lease": ("Land lease", "=land_lease_per_year*{esc}*{op}", ("land_lease_per_year",)),
     "decommissioning": ("Decommissioning", "=decommissioning_per_kw*dc_capacity_kw*{esc}*{last}",
                         ("decommissioning_per_kw", "dc_capacity_kw")),
     "salvage": ("Salvage (negative cost)", "=-salvage_per_kw*dc_capacity_kw*{esc}*{last}",
