@@ -111,3 +111,31 @@ def test_non_finite_output_names_trial(tmp_path):
     t.outputs["lcoe_real_per_kwh"][3] = np.nan
     with pytest.raises(InputError, match="trial 3.*plant.availability"):
         engine._check_finite(t)
+
+
+def test_multi_year_file_supplies_year_to_year_spread(tmp_path):
+    # A weather file of several calendar years: each trial-year draws one of the file's years,
+    # so the yearly factors are exactly the file's own year ratios.
+    import pandas as pd
+
+    frames = []
+    for year, scale in ((2019, 0.9), (2020, 1.0), (2021, 1.1)):
+        idx = pd.date_range(f"{year}-01-01", periods=8784 if year == 2020 else 8760, freq="h")
+        hour = idx.hour.to_numpy()
+        ghi = np.clip(700 * np.sin(np.pi * (hour - 6) / 12), 0, None) * scale
+        frames.append(pd.DataFrame({"timestamp": [t.strftime("%Y-%m-%dT%H:%M:%S-05:00")
+                                                  for t in idx],
+                                    "ghi": ghi, "dni": ghi * 0.7, "dhi": ghi * 0.3,
+                                    "temp_air": 15.0, "wind_speed": 2.0}))
+    pd.concat(frames).to_csv(tmp_path / "wx.csv", index=False)
+    text = MINIMAL_CASE.replace("altitude_m = 273.0", 'altitude_m = 273.0\nweather = "wx.csv"\n'
+                                'weather_time_label = "start"')
+    text += "\n[uncertain.energy]\nresource_sd = 0.02\n"
+    case = load_case(write_case(tmp_path, text))
+    site = prepare(case)
+    spec = read_spec(case)
+    t, notes = monte_carlo(case, site, spec, 50, seed=5)
+    yearly = t.energy_factors / t.persistent_factor[:, None]
+    distinct = np.unique(np.round(yearly, 12))
+    assert len(distinct) == 3 and "3 calendar years" in notes[0]
+    assert distinct.mean() == pytest.approx(1.0, rel=1e-9)
