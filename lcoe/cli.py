@@ -109,7 +109,19 @@ def _cmd_check(args) -> int:
           f"UTC{weather.utc_offset_h:+g} h)")
     print(f"  plant    {case['plant.dc_capacity_kw']:,.0f} kW DC, {case['plant.mount']}, "
           f"{case['plant.transposition']} transposition")
-    print(f"  would run: hourly energy, {case['case.lifetime_years']}-year cash flow, LCOE")
+    from .uncertainty.spec import read_spec
+
+    spec = read_spec(case)
+    steps = ["hourly energy", f"{case['case.lifetime_years']}-year cash flow", "LCOE"]
+    if "revenue" in case.sections:
+        steps.append("tax, debt sizing on " + ", ".join(f"{c} @ {m:.2f}x"
+                                                         for c, m in case.debt_sizing))
+    print(f"  would run: {', '.join(steps)}")
+    if not spec.is_empty:
+        print(f"  uncertain: {len(spec.case_paths)} inputs, energy components "
+              f"{', '.join(spec.energy_components) or 'none'}, year-to-year CoV "
+              f"{spec.interannual_cov:g}, {0 if spec.corr is None else 'with'} correlations"
+              .replace(", 0 correlations", ", no correlations"))
     return 0
 
 
