@@ -17,6 +17,7 @@ from typing import Any
 
 from .errors import InputError, field_error, unknown_key_error
 from .schema import (
+    BODY_FACET_FIELDS,
     EXTRA_KEYS,
     FIELD_BY_PATH,
     FIELDS,
@@ -25,6 +26,7 @@ from .schema import (
     SECTIONS,
     SIZING_CASES,
     Field,
+    child_sections,
 )
 
 #: Top-level tables that are not scalar sections of the schema, with their readers elsewhere.
@@ -48,6 +50,25 @@ class Replacement:
     item: str
     every_years: int
     cost_per_kw: float
+
+
+@dataclass(frozen=True)
+class BodyFacet:
+    """One flat piece of a body described facet by facet (``[[plant.body.facet]]``).
+
+    Parameters
+    ----------
+    tilt_deg : float
+        Tilt from horizontal [deg]; 0 faces up, 90 is vertical, 180 faces down.
+    azimuth_deg : float
+        Direction the facet faces, clockwise from north [deg].
+    area_m2 : float
+        Cell area [m2].
+    """
+
+    tilt_deg: float
+    azimuth_deg: float
+    area_m2: float
 
 
 @dataclass(frozen=True)
@@ -78,6 +99,8 @@ class Case:
     debt_sizing : tuple of (case, min_dscr)
         Debt-sizing constraints of ``[debt] sizing`` (default P50 at 1.30x and P99_1yr at
         1.00x, common practice).
+    body_facets : tuple of BodyFacet
+        The ``[[plant.body.facet]]`` list (``plant.body.shape = "facets"``).
     """
 
     source: str
@@ -90,6 +113,7 @@ class Case:
     monthly: Mapping[str, Any] | None = None
     sections: frozenset = frozenset()
     debt_sizing: tuple[tuple[str, float], ...] = ()
+    body_facets: tuple[BodyFacet, ...] = ()
 
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
@@ -112,6 +136,7 @@ class Case:
                 raise unknown_key_error(self.source, path, FIELD_BY_PATH)
             vals[path] = _coerce(FIELD_BY_PATH[path], v, self.source)
         _check_cross_fields(vals, self.replacements, self.source)
+        _check_body(vals, self.body_facets, self.source)
         return replace(self, values=MappingProxyType(vals))
 
 
@@ -166,22 +191,20 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         Hash of the origin's bytes.
     """
     values: dict[str, Any] = {}
-    top_allowed = set(SECTIONS) | set(LIST_TABLES)
+    top_allowed = {s.split(".")[0] for s in SECTIONS} | set(LIST_TABLES)
     for key in data:
         if key not in top_allowed:
             raise unknown_key_error(source, key, sorted(top_allowed))
-    for section in SECTIONS:
-        table = data.get(section, {})
-        if not isinstance(table, Mapping):
-            raise field_error(source, section, table, f"a table [{section}]")
-        extra = set(EXTRA_KEYS.get(section, ()))
+    tables = {section: _section_table(data, section, source) for section in SECTIONS}
+    for section, table in tables.items():
+        extra = set(EXTRA_KEYS.get(section, ())) | set(child_sections(section))
         known = {f.key for f in FIELDS if f.section == section}
         for key in table:
             if key not in known and key not in extra:
                 raise unknown_key_error(source, f"{section}.{key}",
                                         [f"{section}.{k}" for k in sorted(known | extra)])
     for f in FIELDS:
-        table = data.get(f.section, {})
+        table = tables[f.section]
         if f.key in table:
             values[f.path] = _coerce(f, table[f.key], source)
         elif f.default is REQUIRED and not f.optional:
@@ -191,6 +214,12 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
             values[f.path] = None if f.default is REQUIRED else f.default
     replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
     _check_cross_fields(values, replacements, source)
+    body_facets = _read_list(tables["plant.body"].get("facet", []), "plant.body.facet",
+                             BODY_FACET_FIELDS, BodyFacet, source)
+    if "body" in data.get("plant", {}) and values["plant.mount"] != "body":
+        raise field_error(source, "plant.mount", values["plant.mount"],
+                          '"body" when a [plant.body] table is given (or remove the table)')
+    _check_body(values, body_facets, source)
     monthly = _read_monthly(data.get("site", {}).get("monthly"), values, source)
     sections = frozenset(k for k in data if k in SECTIONS)
     if "revenue" in sections and values["revenue.tariff_per_kwh"] is None:
@@ -206,7 +235,19 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
     return Case(source=source, base_dir=base_dir, sha256=sha256,
                 values=MappingProxyType(values), replacements=tuple(replacements),
                 uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
-                monthly=monthly, sections=sections, debt_sizing=sizing)
+                monthly=monthly, sections=sections, debt_sizing=sizing,
+                body_facets=tuple(body_facets))
+
+
+def _section_table(data: Mapping[str, Any], section: str, source: str) -> Mapping[str, Any]:
+    """The table at dotted ``section`` (e.g. ``plant.body``), empty when absent."""
+    table: Any = data
+    for depth, part in enumerate(section.split(".")):
+        table = table.get(part, {})
+        if not isinstance(table, Mapping):
+            where = ".".join(section.split(".")[:depth + 1])
+            raise field_error(source, where, table, f"a table [{where}]")
+    return table
 
 
 def _coerce(f: Field, value: Any, source: str) -> Any:
@@ -237,26 +278,36 @@ def _coerce(f: Field, value: Any, source: str) -> Any:
 
 
 def _read_replacements(entries: Any, source: str) -> list[Replacement]:
+    return _read_list(entries, "costs.replacement", REPLACEMENT_FIELDS, Replacement, source)
+
+
+def _read_list(entries: Any, path: str, fields: tuple[Field, ...], make, source: str) -> list:
+    """Check a list of tables such as ``[[costs.replacement]]`` and build one object each.
+
+    A key is required unless its field has a default; ``make(**values)`` builds the entry.
+    """
     if not isinstance(entries, list):
-        raise field_error(source, "costs.replacement", entries,
-                          "a list of [[costs.replacement]] tables")
+        raise field_error(source, path, entries, f"a list of [[{path}]] tables")
     out = []
-    known = {f.key: f for f in REPLACEMENT_FIELDS}
+    known = {f.key: f for f in fields}
     for i, entry in enumerate(entries):
-        where = f"costs.replacement[{i}]"
+        where = f"{path}[{i}]"
         if not isinstance(entry, Mapping):
-            raise field_error(source, where, entry, "a table with item, every_years, cost_per_kw")
+            raise field_error(source, where, entry, "a table with " + ", ".join(known))
         for key in entry:
             if key not in known:
                 raise unknown_key_error(source, f"{where}.{key}",
                                         [f"{where}.{k}" for k in known])
         vals = {}
         for key, f in known.items():
-            if key not in entry:
+            if key in entry:
+                vals[key] = _coerce(replace(f, path=f"{where}.{key}"), entry[key], source)
+            elif f.default is REQUIRED and not f.optional:
                 raise InputError(f"{source}: missing key '{where}.{key}' ({f.doc}; "
                                  f"{f.allowed()})")
-            vals[key] = _coerce(replace(f, path=f"{where}.{key}"), entry[key], source)
-        out.append(Replacement(**vals))
+            else:
+                vals[key] = None if f.default is REQUIRED else f.default
+        out.append(make(**vals))
     return out
 
 
@@ -342,3 +393,50 @@ def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) ->
     if values["plant.mount"] == "single_axis" and values["plant.tilt_deg"] > 45:
         raise field_error(source, "plant.tilt_deg", values["plant.tilt_deg"],
                           "an axis tilt in [0, 45] for a single-axis tracker")
+
+
+def _check_body(values: Mapping[str, Any], facets, source: str) -> None:
+    """Checks of a ``plant.mount = "body"`` case: the shape's keys, spacing, rotation."""
+    if values["plant.mount"] != "body":
+        return
+    shape = values["plant.body.shape"]
+    if shape is None:
+        raise InputError(f"{source}: missing key 'plant.body.shape' (plant.mount = \"body\" "
+                         f"needs a [plant.body] table; one of cone, cylinder, dome, pyramid, "
+                         f"facets)")
+    if values["plant.body.spacing_m"] is None:
+        raise InputError(f"{source}: missing key 'plant.body.spacing_m' (centre-to-centre "
+                         f"distance of the bodies [m]; sets the land per body and the shading "
+                         f"between bodies; a number > 0)")
+    radius, height = values["plant.body.radius_m"], values["plant.body.height_m"]
+    if shape == "facets":
+        if not facets:
+            raise InputError(f"{source}: plant.body.shape = \"facets\" needs at least one "
+                             f"[[plant.body.facet]] table with tilt_deg, azimuth_deg, area_m2")
+        if (radius is None) != (height is None):
+            raise InputError(f"{source}: plant.body.radius_m and plant.body.height_m describe "
+                             f"the envelope used for shading between bodies: give both or "
+                             f"neither")
+    else:
+        if facets:
+            raise field_error(source, "plant.body.shape", shape,
+                              '"facets" when [[plant.body.facet]] tables are given')
+        if radius is None:
+            raise InputError(f"{source}: missing key 'plant.body.radius_m' (radius of the "
+                             f"{shape} [m]; a number > 0)")
+        if shape == "dome":
+            if height is not None:
+                raise field_error(source, "plant.body.height_m", height,
+                                  "no height for a dome (a hemisphere: its height is "
+                                  "plant.body.radius_m)")
+        elif height is None:
+            raise InputError(f"{source}: missing key 'plant.body.height_m' (height of the "
+                             f"{shape} [m]; a number > 0)")
+    if radius is not None and values["plant.body.spacing_m"] < 2.0 * radius:
+        raise field_error(source, "plant.body.spacing_m", values["plant.body.spacing_m"],
+                          f"at least the body's width 2 x plant.body.radius_m = {2 * radius:g} "
+                          f"m (bodies would overlap)")
+    if values["plant.body.drive_power_w"] > 0 and not values["plant.body.rotating"]:
+        raise field_error(source, "plant.body.drive_power_w", values["plant.body.drive_power_w"],
+                          "0 unless plant.body.rotating = true (only a rotating body has a "
+                          "drive)")

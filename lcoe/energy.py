@@ -7,7 +7,13 @@ annual, monthly and loss-chain totals. Hourly arrays have shape (n_samples, n_ho
 built chunk by chunk, so peak memory is bounded by the chunk size, not by the number of samples.
 
 Loss order (as in the domain brief): DC losses -> inverter efficiency -> clipping at the AC
-rating -> AC losses -> availability. Clipping is reported as its own line.
+rating -> AC losses -> availability -> the plant's own consumption (drives of rotating bodies).
+Clipping is reported as its own line.
+
+A plant of flat modules has one plane of array; a plant of 3-D bodies has one per facet
+(:class:`lcoe.irradiance.FacetIrradiance`): each facet gets its own cell temperature and DC
+power, the DC of the plant is the area-weighted sum over facets, and one inverter, clipping and
+AC chain follows for the whole plant.
 """
 
 from __future__ import annotations
@@ -16,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .irradiance import PlaneOfArray, iam_beam
+from .irradiance import FacetIrradiance, PlaneOfArray, iam_beam
 from .weather import Weather
 
 #: Inputs of :func:`simulate` (dotted case paths) that act per sample.
@@ -38,7 +44,8 @@ LOSS_CHAIN = (
     ("after_inverter_kwh", "after inverter efficiency (before clipping)"),
     ("after_clipping_kwh", "after clipping at the AC rating"),
     ("after_ac_losses_kwh", "after AC losses"),
-    ("delivered_kwh", "delivered, after availability"),
+    ("after_availability_kwh", "after availability"),
+    ("delivered_kwh", "delivered, after the plant's own consumption (drives)"),
 )
 
 
@@ -114,11 +121,13 @@ def inverter_ac_kw(pdc_kw, ac_capacity_kw, eta_nom):
     .. [1] A. P. Dobos, "PVWatts Version 5 Manual", NREL/TP-6A20-62641, 2014.
     """
     pdc0 = ac_capacity_kw / eta_nom
-    zeta = pdc_kw / pdc0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        inv = np.where(pdc_kw != 0, 0.0059 / np.where(zeta == 0, 1.0, zeta), 0.0)
-    eta = eta_nom / ETA_INV_REF * (-0.0162 * zeta - inv + 0.9858)
-    unclipped = np.maximum(eta * pdc_kw, 0.0)
+    # eta * P_dc written as a polynomial in P_dc (same value, no division per hour):
+    # eta_nom/eta_ref * (0.9858 P - 0.0162 P^2 / P_dc0 - 0.0059 P_dc0)
+    k = eta_nom / ETA_INV_REF
+    unclipped = pdc_kw * (0.9858 - 0.0162 / pdc0 * pdc_kw)
+    unclipped -= 0.0059 * pdc0
+    unclipped *= k
+    np.maximum(unclipped, 0.0, out=unclipped)
     return unclipped, np.minimum(unclipped, ac_capacity_kw)
 
 
@@ -138,11 +147,20 @@ class EnergyResult:
     loss_chain_kwh : dict of str to numpy.ndarray
         Energy after each stage of :data:`LOSS_CHAIN` per average year [kWh], each (n_s,).
     poa_kwh_m2 : numpy.ndarray
-        Plane-of-array irradiation per average year [kWh/m2], (n_s,).
+        Plane-of-array irradiation per average year, mean over the cells [kWh/m2], (n_s,).
     dc_capacity_kw : numpy.ndarray
         Nameplate used [kW], (n_s,).
     hourly_ac_kw : numpy.ndarray or None
         Delivered AC power each hour [kW], (n_s, n_h), only when asked for.
+    cell_area_m2 : numpy.ndarray or None
+        Area of the cells, nameplate / (module efficiency x 1 kW/m2) [m2], (n_s,); set by
+        :func:`lcoe.model.evaluate`.
+    land_area_m2 : numpy.ndarray or None
+        Land the plant occupies [m2], (n_s,): cell area / gcr for flat mounts, bodies x
+        spacing^2 for bodies; set by :func:`lcoe.model.evaluate`.
+    n_bodies : numpy.ndarray or None
+        Number of bodies (nameplate / body nameplate, not rounded) [-], (n_s,); None for flat
+        mounts.
     """
 
     annual_kwh: np.ndarray
@@ -152,6 +170,19 @@ class EnergyResult:
     poa_kwh_m2: np.ndarray
     dc_capacity_kw: np.ndarray
     hourly_ac_kw: np.ndarray | None = None
+    cell_area_m2: np.ndarray | None = None
+    land_area_m2: np.ndarray | None = None
+    n_bodies: np.ndarray | None = None
+
+    @property
+    def energy_per_cell_m2_kwh(self) -> np.ndarray:
+        """Delivered energy per m2 of cells per average year [kWh/m2], (n_s,)."""
+        return self.annual_kwh / self.cell_area_m2
+
+    @property
+    def energy_per_land_m2_kwh(self) -> np.ndarray:
+        """Delivered energy per m2 of land per average year [kWh/m2], (n_s,)."""
+        return self.annual_kwh / self.land_area_m2
 
     @property
     def specific_yield_kwh_per_kw(self) -> np.ndarray:
@@ -186,29 +217,57 @@ def _column(values, n: int) -> np.ndarray:
     return a[:, None]
 
 
-def simulate(poa: PlaneOfArray, weather: Weather, params: dict, aoi_model: str = "physical",
-             chunk_size: int = 128, keep_hourly: bool = False) -> EnergyResult:
+def _facet_rows(poa, aoi_model: str):
+    """(direct, effective direct, sky, ground per albedo) as (k, n_h) arrays and shares (k,).
+
+    A flat plane is one row with share 1 (so its result is unchanged by the facet sum).
+    """
+    if isinstance(poa, FacetIrradiance):
+        return (poa.direct_w_m2, poa.direct_effective_w_m2, poa.sky_diffuse_w_m2,
+                poa.ground_per_albedo_w_m2, poa.area_fraction)
+    direct_eff = poa.direct_w_m2 * iam_beam(poa.aoi_deg, aoi_model)
+    return (poa.direct_w_m2[None, :], direct_eff[None, :], poa.sky_diffuse_w_m2[None, :],
+            poa.ground_per_albedo_w_m2[None, :], np.ones(1))
+
+
+def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
+             aoi_model: str = "physical", chunk_size: int = 128, keep_hourly: bool = False,
+             parasitic_kw=None, parasitic_hours=None) -> EnergyResult:
     """Hourly energy for every sample, reduced to totals.
 
     Parameters
     ----------
-    poa : PlaneOfArray
-        Shared plane-of-array irradiance of the geometry, arrays (n_h,).
+    poa : PlaneOfArray or FacetIrradiance
+        Shared irradiance of the geometry: one plane, arrays (n_h,), or k facets of a body,
+        arrays (k, n_h) with area fractions (k,) (incidence-angle loss already applied).
     weather : Weather
         Hourly weather (air temperature [C], wind speed [m/s]).
     params : dict of str to array_like
         Every key of :data:`ENERGY_PARAMS`, each a scalar or shape (n_s,), in the units of the
         case file (fractions, kW, 1/C, W/m2/K, W s/m3/K).
     aoi_model : {"physical", "ashrae"}
-        Beam incidence-angle modifier.
+        Beam incidence-angle modifier (for a plane; a FacetIrradiance carries its own).
     chunk_size : int
-        Samples evaluated together; bounds peak memory at about 10 x chunk_size x n_h x 8 bytes.
+        Samples evaluated together; bounds peak memory at about 12 x chunk_size x n_h x 8
+        bytes, whatever the number of facets (facets are summed one at a time).
     keep_hourly : bool
         Also return the hourly delivered AC power (n_s, n_h) [kW].
+    parasitic_kw : array_like, optional
+        The plant's own consumption (drives) [kW], scalar or (n_s,), drawn in every hour of
+        ``parasitic_hours`` and subtracted after availability. Where it exceeds the output, the
+        difference is drawn from the grid and counts as negative delivered energy.
+    parasitic_hours : numpy.ndarray of bool, optional
+        (n_h,) hours in which the consumption runs (e.g. the sun above the horizon).
 
     Returns
     -------
     EnergyResult
+
+    Notes
+    -----
+    For facet j with area fraction a_j, ``P_dc = sum_j a_j P_stc G_eff,j / 1000 (1 + gamma
+    (T_j - 25))`` with ``T_j`` from Faiman with the facet's own plane-of-array irradiance. The
+    plane-of-array irradiation reported is the area-weighted mean over the cells.
     """
     missing = [k for k in ENERGY_PARAMS if k not in params]
     if missing:
@@ -226,7 +285,11 @@ def simulate(poa: PlaneOfArray, weather: Weather, params: dict, aoi_model: str =
     year_onehot = (years[:, None] == year_values[None, :]).astype(float)
     if weather.typical_year:
         year_onehot = np.ones((weather.n_hours, 1))
-    direct_eff = poa.direct_w_m2 * iam_beam(poa.aoi_deg, aoi_model)
+    direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
+    if parasitic_kw is not None:
+        parasitic = _column(parasitic_kw, n_s) * np.asarray(parasitic_hours, dtype=float)
+    else:
+        parasitic = None
 
     annual = np.empty(n_s)
     monthly = np.empty((n_s, 12))
@@ -238,21 +301,27 @@ def simulate(poa: PlaneOfArray, weather: Weather, params: dict, aoi_model: str =
         sl = slice(start, min(start + chunk_size, n_s))
         c = {k: v[sl] for k, v in cols.items()}
         albedo = c["site.albedo"]
-        g_poa = poa.direct_w_m2 + poa.sky_diffuse_w_m2 + albedo * poa.ground_per_albedo_w_m2
-        g_eff = direct_eff + poa.sky_diffuse_w_m2 + albedo * poa.ground_per_albedo_w_m2
-        t_cell = faiman_cell_temperature(g_poa, t_air, ws, c["plant.thermal_u0"],
-                                         c["plant.thermal_u1"])
         p_stc = c["plant.dc_capacity_kw"]
-        pdc = dc_power_kw(g_eff, t_cell, p_stc, c["plant.temp_coeff_per_c"])
+        g_poa = g_eff = pdc = 0.0
+        for j in range(share.size):  # facets one at a time: memory independent of k
+            g_j = direct[j] + sky[j] + albedo * ground[j]
+            g_eff_j = direct_eff[j] + sky[j] + albedo * ground[j]
+            t_cell = faiman_cell_temperature(g_j, t_air, ws, c["plant.thermal_u0"],
+                                             c["plant.thermal_u1"])
+            pdc = pdc + share[j] * dc_power_kw(g_eff_j, t_cell, p_stc,
+                                               c["plant.temp_coeff_per_c"])
+            g_poa = g_poa + share[j] * g_j
+            g_eff = g_eff + share[j] * g_eff_j
         pdc_net = pdc * (1.0 - c["plant.dc_loss_fraction"])
         ac_kw = p_stc / c["plant.dc_ac_ratio"]
         unclipped, clipped = inverter_ac_kw(pdc_net, ac_kw, c["plant.inverter_efficiency"])
         after_ac = clipped * (1.0 - c["plant.ac_loss_fraction"])
-        delivered = after_ac * c["plant.availability"]
-        h_poa = g_poa.sum(axis=1) / 1000.0 / n_years
-        poa_kwh_m2[sl] = np.broadcast_to(h_poa, (sl.stop - sl.start,))
+        after_avail = after_ac * c["plant.availability"]
+        delivered = after_avail if parasitic is None else after_avail - parasitic[sl]
+        h_poa = np.broadcast_to(g_poa, (sl.stop - sl.start, weather.n_hours)).sum(axis=1)
+        poa_kwh_m2[sl] = h_poa / 1000.0 / n_years
         stages = (p_stc * g_poa / 1000.0, p_stc * g_eff / 1000.0, pdc, pdc_net, unclipped,
-                  clipped, after_ac, delivered)
+                  clipped, after_ac, after_avail, delivered)
         for (name, _), stage in zip(LOSS_CHAIN, stages):
             chain[name][sl] = stage.sum(axis=1) / n_years
         annual[sl] = delivered.sum(axis=1) / n_years

@@ -8,6 +8,7 @@ sampled input without recomputing the transposition.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -21,17 +22,20 @@ class Geometry:
 
     Parameters
     ----------
-    mount : {"fixed", "single_axis"}
+    mount : {"fixed", "single_axis", "dual_axis", "body"}
     tilt_deg : float
-        Fixed: module tilt from horizontal; single-axis: axis tilt [deg].
+        Fixed: module tilt from horizontal; single-axis: axis tilt [deg]; unused otherwise.
     azimuth_deg : float
-        Fixed: azimuth the modules face; single-axis: axis azimuth [deg, clockwise from north].
+        Fixed: azimuth the modules face; single-axis: axis azimuth [deg, clockwise from north];
+        unused otherwise.
     gcr : float
-        Ground coverage ratio [-] (backtracking).
+        Ground coverage ratio [-] (backtracking; land use).
     max_rotation_deg : float
         Single-axis rotation limit [deg].
     backtrack : bool
         Single-axis backtracking.
+    body : lcoe.bodies.BodySpec or None
+        The body of a ``"body"`` mount (hashable, so that a geometry is a cache key).
     """
 
     mount: str
@@ -40,6 +44,7 @@ class Geometry:
     gcr: float = 0.4
     max_rotation_deg: float = 60.0
     backtrack: bool = True
+    body: Any = None
 
 
 @dataclass(frozen=True)
@@ -89,6 +94,38 @@ class PlaneOfArray:
             self.ground_per_albedo_w_m2
 
 
+@dataclass(frozen=True, eq=False)
+class FacetIrradiance:
+    """Irradiance on the k facets (or groups of identical facets) of a body, arrays (k, n_h).
+
+    The hourly energy model (:func:`lcoe.energy.simulate`) gives every facet its own cell
+    temperature and DC power and sums the DC weighted by ``area_fraction``.
+
+    Attributes
+    ----------
+    direct_w_m2 : numpy.ndarray
+        Beam on each facet, after any shading between bodies [W/m2], (k, n_h).
+    direct_effective_w_m2 : numpy.ndarray
+        The same after the incidence-angle loss [W/m2], (k, n_h).
+    sky_diffuse_w_m2 : numpy.ndarray
+        Sky diffuse on each facet [W/m2], (k, n_h).
+    ground_per_albedo_w_m2 : numpy.ndarray
+        Ground-reflected irradiance per unit albedo [W/m2], (k, n_h).
+    area_fraction : numpy.ndarray
+        Share of the body's cell area of each row [-], (k,), summing to 1.
+    """
+
+    direct_w_m2: np.ndarray
+    direct_effective_w_m2: np.ndarray
+    sky_diffuse_w_m2: np.ndarray
+    ground_per_albedo_w_m2: np.ndarray
+    area_fraction: np.ndarray
+
+    @property
+    def n_facets(self) -> int:
+        return int(self.area_fraction.size)
+
+
 def solar_position(weather: Weather, latitude_deg: float, longitude_deg: float,
                    altitude_m: float) -> SolarPosition:
     """Solar position by SPA (Reda & Andreas 2004) at the centre of each hour.
@@ -130,14 +167,22 @@ def orientation(geometry: Geometry, sun: SolarPosition) -> tuple[np.ndarray, np.
     """Surface tilt and azimuth each hour for a mount [deg], arrays of shape (n_hours,).
 
     Single-axis trackers follow pvlib.tracking.singleaxis (true tracking with optional
-    backtracking, Marion & Dobos 2013; Anderson & Mikofski 2020). At night a tracker is parked
-    flat.
+    backtracking, Marion & Dobos 2013; Anderson & Mikofski 2020). A dual-axis tracker turns its
+    surface normal onto the sun (tilt = apparent zenith, azimuth = sun azimuth, so the angle of
+    incidence is 0) while the sun is above the horizon, with no rotation limit and no shading
+    between trackers (spacing them so is the designer's job; land use follows from ``gcr``).
+    At night every tracker is parked flat (tilt 0). A body has no single plane: see
+    :func:`lcoe.bodies.body_irradiance`.
     """
     import pvlib
 
     n = sun.apparent_zenith_deg.shape[0]
     if geometry.mount == "fixed":
         return np.full(n, geometry.tilt_deg), np.full(n, geometry.azimuth_deg)
+    if geometry.mount == "dual_axis":
+        up = sun.apparent_zenith_deg < 90.0
+        return (np.where(up, sun.apparent_zenith_deg, 0.0),
+                np.where(up, sun.azimuth_deg, 180.0))
     if geometry.mount == "single_axis":
         tr = pvlib.tracking.singleaxis(
             sun.apparent_zenith_deg, sun.azimuth_deg, axis_tilt=geometry.tilt_deg,
@@ -147,7 +192,8 @@ def orientation(geometry: Geometry, sun: SolarPosition) -> tuple[np.ndarray, np.
         az = np.nan_to_num(np.asarray(tr["surface_azimuth"], dtype=float),
                            nan=geometry.azimuth_deg)
         return tilt, az
-    raise ValueError(f"plant.mount = {geometry.mount!r}: expected 'fixed' or 'single_axis'")
+    raise ValueError(f"plant.mount = {geometry.mount!r}: expected 'fixed', 'single_axis' or "
+                     f"'dual_axis' (a body has no single plane)")
 
 
 def plane_of_array(weather: Weather, sun: SolarPosition, surface_tilt_deg, surface_azimuth_deg,

@@ -9,7 +9,7 @@ shared; everything downstream is numpy over the samples axis. A deterministic ru
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -18,6 +18,7 @@ from .cashflow import CashFlow, build_cashflow, energy_by_year
 from .energy import ENERGY_PARAMS, EnergyResult, simulate
 from .errors import InputError
 from .irradiance import (
+    FacetIrradiance,
     Geometry,
     PlaneOfArray,
     SolarPosition,
@@ -25,7 +26,7 @@ from .irradiance import (
     plane_of_array,
     solar_position,
 )
-from .schema import GEOMETRY_PATHS
+from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS
 from .weather import Weather, bundled_weather_path, check_timezone, read_weather
 
 
@@ -46,13 +47,25 @@ class Site:
     notes: list = field(default_factory=list)
     _poa_cache: dict = field(default_factory=dict, repr=False)
 
-    def poa(self, geometry: Geometry, transposition: str) -> PlaneOfArray:
-        """Plane-of-array irradiance for ``geometry`` (computed once, then cached)."""
-        key = (geometry, transposition)
+    def poa(self, geometry: Geometry, transposition: str,
+            aoi_model: str = "physical") -> PlaneOfArray | FacetIrradiance:
+        """Irradiance for ``geometry`` (computed once, then cached).
+
+        A plane of array for flat mounts; the facets of a body (with their incidence-angle
+        loss, hence ``aoi_model``) for ``mount = "body"``.
+        """
+        body = geometry.mount == "body"
+        key = (geometry, transposition, aoi_model if body else None)
         if key not in self._poa_cache:
-            tilt, az = orientation(geometry, self.sun)
-            self._poa_cache[key] = plane_of_array(self.weather, self.sun, tilt, az,
-                                                  transposition)
+            if body:
+                from .bodies import body_irradiance
+
+                self._poa_cache[key] = body_irradiance(self.weather, self.sun, geometry.body,
+                                                       transposition, aoi_model)
+            else:
+                tilt, az = orientation(geometry, self.sun)
+                self._poa_cache[key] = plane_of_array(self.weather, self.sun, tilt, az,
+                                                      transposition)
         return self._poa_cache[key]
 
 
@@ -66,10 +79,16 @@ class ModelOutput:
         Totals of the weather file's average year, (n_s,) arrays.
     cashflow : CashFlow
         (n_s, N + 1) arrays and LCOE (n_s,).
+    params : dict of str to numpy.ndarray
+        Every numeric input used, by dotted path, (n_s,) (the case's values filled in).
+    weather_factors : numpy.ndarray or None
+        The energy multipliers per operating year that were applied, (n_s, N).
     """
 
     energy: EnergyResult
     cashflow: CashFlow
+    params: dict = field(default_factory=dict)
+    weather_factors: np.ndarray | None = None
 
 
 def load_weather_for(case: Case) -> Weather:
@@ -139,16 +158,50 @@ def base_params(case: Case, n_samples: int = 1) -> dict:
     return out
 
 
+def geometry_paths(case: Case) -> tuple[str, ...]:
+    """Inputs that change the irradiance of ``case``'s geometry (grouped by in evaluate)."""
+    if case["plant.mount"] != "body":
+        return GEOMETRY_PATHS
+    return GEOMETRY_PATHS + tuple(p for p in BODY_GEOMETRY_PATHS if case[p] is not None)
+
+
 def _geometry(case: Case, params: Mapping, i: int) -> Geometry:
+    body = None
+    if case["plant.mount"] == "body":
+        from .bodies import body_spec
+
+        body = body_spec(case, {p: params[p][i] for p in BODY_GEOMETRY_PATHS if p in params})
     return Geometry(mount=case["plant.mount"], tilt_deg=float(params["plant.tilt_deg"][i]),
                     azimuth_deg=float(params["plant.azimuth_deg"][i]),
                     gcr=float(params["plant.gcr"][i]),
                     max_rotation_deg=float(params["plant.max_rotation_deg"][i]),
-                    backtrack=bool(case["plant.backtrack"]))
+                    backtrack=bool(case["plant.backtrack"]), body=body)
+
+
+def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chunk_size: int,
+                    keep_hourly: bool) -> EnergyResult:
+    """Energy of the samples ``idx`` that share one geometry, with areas and body count."""
+    geometry = _geometry(case, full, int(idx[0]))
+    poa = site.poa(geometry, case["plant.transposition"], case["plant.aoi_model"])
+    sub = {k: full[k][idx] for k in ENERGY_PARAMS}
+    dc_kw, eff = full["plant.dc_capacity_kw"][idx], full["plant.module_efficiency"][idx]
+    parasitic_kw, n_bodies = None, None
+    if geometry.body is not None:
+        from .bodies import count_and_land
+
+        n_bodies, land = count_and_land(geometry.body, dc_kw, eff)
+        if geometry.body.rotating:
+            parasitic_kw = n_bodies * full["plant.body.drive_power_w"][idx] / 1000.0
+    else:
+        land = dc_kw / eff / full["plant.gcr"][idx]
+    energy = simulate(poa, site.weather, sub, case["plant.aoi_model"], chunk_size=chunk_size,
+                      keep_hourly=keep_hourly, parasitic_kw=parasitic_kw,
+                      parasitic_hours=site.sun.apparent_zenith_deg < 90.0)
+    return replace(energy, cell_area_m2=dc_kw / eff, land_area_m2=land, n_bodies=n_bodies)
 
 
 def evaluate(case: Case, site: Site, params: Mapping | None = None,
-             weather_factors: np.ndarray | None = None, chunk_size: int = 128,
+             weather_factors: np.ndarray | None = None, chunk_size: int = 16,
              keep_hourly: bool = False) -> ModelOutput:
     """Run parameter sets through the hourly physics and the cash flow.
 
@@ -178,31 +231,53 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     full = base_params(case, n_s)
     for k, v in params.items():
         full[k] = np.broadcast_to(np.asarray(v, dtype=float), (n_s,))
-    life = int(case["case.lifetime_years"])
-    for path in GEOMETRY_PATHS:
+    gpaths = geometry_paths(case)
+    for path in gpaths:
         if path not in full:
             full[path] = np.full(n_s, float(case[path]))
-    geo_keys = np.stack([full[p] for p in GEOMETRY_PATHS], axis=1)
+    geo_keys = np.stack([full[p] for p in gpaths], axis=1)
     uniq, inverse = np.unique(geo_keys, axis=0, return_inverse=True)
     inverse = inverse.reshape(-1)
-    transposition = case["plant.transposition"]
     parts = []
     for g in range(uniq.shape[0]):
         idx = np.nonzero(inverse == g)[0]
-        poa = site.poa(_geometry(case, full, int(idx[0])), transposition)
-        sub = {k: full[k][idx] for k in ENERGY_PARAMS}
-        parts.append((idx, simulate(poa, site.weather, sub, case["plant.aoi_model"],
-                                    chunk_size=chunk_size, keep_hourly=keep_hourly)))
+        parts.append((idx, _simulate_group(case, site, full, idx, chunk_size, keep_hourly)))
     energy = parts[0][1] if len(parts) == 1 else _merge(parts, n_s)
-    e_by_year = energy_by_year(energy.annual_kwh, full["plant.degradation_per_year"], life,
-                               weather_factors)
-    cash = build_cashflow(full, case.replacements, life, e_by_year)
+    cash = cash_flow(case, full, energy, weather_factors)
     if not np.all(np.isfinite(cash.lcoe_real)):
         bad = int(np.argmax(~np.isfinite(cash.lcoe_real)))
         raise InputError(f"{case.source}: the model gave a non-finite LCOE for sample {bad} "
                          f"(discounted energy {cash.pv_energy_real_kwh[bad]:g} kWh); "
                          f"check that the plant delivers energy")
-    return ModelOutput(energy=energy, cashflow=cash)
+    return ModelOutput(energy=energy, cashflow=cash, params=full,
+                       weather_factors=weather_factors)
+
+
+def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
+              weather_factors: np.ndarray | None = None) -> CashFlow:
+    """Lifetime cash flow and LCOE from the energy of :func:`evaluate`, vectorised.
+
+    Split from :func:`evaluate` so that the finance can be re-run on the same physics (e.g.
+    at another capex per kW, which LCOE depends on affinely).
+
+    Parameters
+    ----------
+    case : Case
+    params : mapping of str to numpy.ndarray
+        Every numeric input by dotted path, (n_s,) (``ModelOutput.params``).
+    energy : EnergyResult
+        Average-year energy, (n_s,) arrays.
+    weather_factors : numpy.ndarray, optional
+        Energy multipliers per operating year, (n_s, N).
+
+    Returns
+    -------
+    CashFlow
+    """
+    life = int(case["case.lifetime_years"])
+    e_by_year = energy_by_year(energy.annual_kwh, params["plant.degradation_per_year"], life,
+                               weather_factors)
+    return build_cashflow(params, case.replacements, life, e_by_year)
 
 
 def _merge(parts, n_s: int) -> EnergyResult:
@@ -223,4 +298,7 @@ def _merge(parts, n_s: int) -> EnergyResult:
         loss_chain_kwh={k: gather(lambda r, k=k: r.loss_chain_kwh[k])
                         for k in first.loss_chain_kwh},
         poa_kwh_m2=gather(lambda r: r.poa_kwh_m2),
-        dc_capacity_kw=gather(lambda r: r.dc_capacity_kw), hourly_ac_kw=hourly)
+        dc_capacity_kw=gather(lambda r: r.dc_capacity_kw), hourly_ac_kw=hourly,
+        cell_area_m2=gather(lambda r: r.cell_area_m2),
+        land_area_m2=gather(lambda r: r.land_area_m2),
+        n_bodies=None if first.n_bodies is None else gather(lambda r: r.n_bodies))

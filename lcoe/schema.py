@@ -12,6 +12,11 @@ from dataclasses import dataclass
 
 REQUIRED = object()  # sentinel: the key has no default and must be given
 
+#: Mounting structures of ``plant.mount``.
+MOUNTS: tuple[str, ...] = ("fixed", "single_axis", "dual_axis", "body")
+#: Shapes of ``plant.body.shape``.
+BODY_SHAPES: tuple[str, ...] = ("cone", "cylinder", "dome", "pyramid", "facets")
+
 
 @dataclass(frozen=True)
 class Field:
@@ -108,8 +113,9 @@ FIELDS: tuple[Field, ...] = (
     F("site.albedo", "float", "-", "Ground reflectance", default=0.2, low=0, high=1,
       typical="0.15-0.30 (grass, soil); 0.6-0.8 fresh snow"),
     # --- plant ------------------------------------------------------------------------------
-    F("plant.mount", "choice", "-", "Mounting structure", choices=("fixed", "single_axis"),
-      default="fixed"),
+    F("plant.mount", "choice", "-", "Mounting structure: fixed tilt, single-axis tracker, "
+      "dual-axis tracker (faces the sun), or a 3-D body covered with cells ([plant.body])",
+      choices=MOUNTS, default="fixed"),
     F("plant.tilt_deg", "float", "deg", "Fixed mount: tilt from horizontal; single-axis: "
       "axis tilt", default=20.0, low=0, high=90, typical="10-35 fixed; 0 trackers"),
     F("plant.azimuth_deg", "float", "deg", "Fixed mount: azimuth the modules face (180 = south); "
@@ -148,6 +154,30 @@ FIELDS: tuple[Field, ...] = (
       choices=("perez", "haydavies", "isotropic"), default="perez"),
     F("plant.aoi_model", "choice", "-", "Angle-of-incidence loss model for beam light",
       choices=("physical", "ashrae"), default="physical"),
+    # --- plant.body (plant.mount = "body") --------------------------------------------------
+    F("plant.body.shape", "choice", "-", "Shape of each body covered with cells; 'facets' = "
+      "the list of [[plant.body.facet]] tables", choices=BODY_SHAPES, optional=True),
+    F("plant.body.radius_m", "float", "m", "Radius: base circle of a cone, cylinder or dome; "
+      "corners of a pyramid's base; for 'facets' the envelope used for mutual shading",
+      low=0, low_open=True, optional=True, typical="0.2-2"),
+    F("plant.body.height_m", "float", "m", "Height of a cone, cylinder or pyramid (a dome's "
+      "height is its radius); for 'facets' the envelope used for mutual shading", low=0,
+      low_open=True, optional=True, typical="1-6"),
+    F("plant.body.facets", "int", "-", "Flat facets around the body (pyramid: its sides); "
+      "absent: 4 for a pyramid, 24 otherwise", low=3, high=360, optional=True),
+    F("plant.body.rings", "int", "-", "Dome: rings of facets from the top to the base",
+      default=6, low=1, high=90),
+    F("plant.body.spacing_m", "float", "m", "Centre-to-centre distance of bodies on a square "
+      "grid (land per body = spacing^2; mutual shading)", low=0, low_open=True, optional=True,
+      typical="2-4 x the body's width"),
+    F("plant.body.rotating", "bool", "-", "The body turns about its vertical axis, evening out "
+      "the irradiance of each ring of cells", default=False),
+    F("plant.body.rotation_period_s", "float", "s", "Time of one turn; must be much shorter "
+      "than an hour (each cell then sees the mean of its ring within the hour)", default=60.0,
+      low=0, high=600, low_open=True, typical="10-120"),
+    F("plant.body.drive_power_w", "float", "W", "Power drawn by each rotating body's drive "
+      "whenever the sun is above the horizon (subtracted from the AC output)", default=0.0,
+      low=0, typical="5-50"),
     # --- costs ------------------------------------------------------------------------------
     F("costs.capex_per_kw", "float", "currency/kW", "Installed cost at financial close",
       low=0, typical="700-1300 utility scale"),
@@ -229,6 +259,16 @@ REPLACEMENT_FIELDS: tuple[Field, ...] = (
       "Cost of each replacement in year-0 money, escalated with inflation", low=0),
 )
 
+#: Keys of each ``[[plant.body.facet]]`` entry (``plant.body.shape = "facets"``).
+BODY_FACET_FIELDS: tuple[Field, ...] = (
+    F("plant.body.facet.tilt_deg", "float", "deg", "Facet tilt from horizontal (0 faces up, "
+      "90 vertical, 180 faces down)", low=0, high=180),
+    F("plant.body.facet.azimuth_deg", "float", "deg", "Direction the facet faces, clockwise "
+      "from north (180 = south)", low=0, high=360, high_open=True),
+    F("plant.body.facet.area_m2", "float", "m2", "Cell area of the facet", low=0,
+      low_open=True),
+)
+
 FIELD_BY_PATH: dict[str, Field] = {f.path: f for f in FIELDS}
 SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(f.section for f in FIELDS))
 #: Sections that hold lists or tables handled outside the scalar schema.
@@ -236,6 +276,7 @@ EXTRA_KEYS: dict[str, tuple[str, ...]] = {
     "costs": ("replacement",),
     "site": ("monthly",),
     "debt": ("sizing",),
+    "plant.body": ("facet",),
     "": ("uncertain", "correlation"),
 }
 
@@ -250,3 +291,15 @@ def numeric_paths() -> list[str]:
 GEOMETRY_PATHS: tuple[str, ...] = (
     "plant.tilt_deg", "plant.azimuth_deg", "plant.gcr", "plant.max_rotation_deg",
 )
+#: Further geometry inputs of a body (``plant.mount = "body"``), when the case gives them.
+BODY_GEOMETRY_PATHS: tuple[str, ...] = (
+    "plant.body.radius_m", "plant.body.height_m", "plant.body.facets", "plant.body.rings",
+    "plant.body.spacing_m",
+)
+
+
+def child_sections(section: str) -> tuple[str, ...]:
+    """Names of the sub-tables of ``section`` that hold schema keys (``plant`` -> ``body``)."""
+    depth = section.count(".") + 1
+    return tuple(dict.fromkeys(s.split(".")[depth] for s in SECTIONS
+                               if s.startswith(section + ".") and s.count(".") >= depth))

@@ -39,11 +39,13 @@ def _line(f: Field, value, commented: bool = False) -> list[str]:
     return out
 
 
-#: Sections that switch on the bankability layer; written commented out.
-OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity")
+#: Sections written commented out: the bankability layer and the tables of other mounts.
+OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body")
 OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
                      "site.weather_time_label": "start", "revenue.tariff_per_kwh": 0.055,
-                     "revenue.contract_years": 20}
+                     "revenue.contract_years": 20, "plant.body.shape": "cylinder",
+                     "plant.body.radius_m": 0.5, "plant.body.height_m": 3.0,
+                     "plant.body.facets": 24, "plant.body.spacing_m": 3.0}
 
 
 def template_text() -> str:
@@ -63,6 +65,10 @@ def template_text() -> str:
             if f.section == "revenue":
                 lines += ["# ---- Bankability (optional): uncomment [revenue] and what follows to "
                           "get tax, debt,", "# ---- DSCR and equity returns."]
+            if f.section == "plant.body":
+                lines += ['# ---- plant.mount = "body": bodies covered with cells (uncomment). '
+                          'With shape = "facets"', "# ---- list the pieces instead: "
+                          "[[plant.body.facet]] with tilt_deg, azimuth_deg, area_m2."]
             lines += [f"{'# ' if off else ''}[{section}]"]
         if f.default is REQUIRED and not f.optional:
             new = _line(f, EXAMPLES[f.path])
