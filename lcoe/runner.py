@@ -111,11 +111,13 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
 
 def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
                   replace_own: bool = False) -> Path:
-    """Write ``summary.json`` and ``workbook.xlsx`` (and whatever later stages add).
+    """Write ``summary.json``, ``workbook.xlsx``, the pictures (PNG) and ``report.html``.
 
-    Files are staged under temporary names and renamed into ``out_dir``; a non-empty
-    ``out_dir`` is refused unless ``force``.
+    With an uncertainty study also ``trials.csv``. Files are staged under temporary names and
+    renamed into ``out_dir``; a non-empty ``out_dir`` is refused unless ``force``.
     """
+    from .export.plots import render_figures
+    from .export.report import write_report
     from .export.summary import summary_json
     from .export.workbook import write_workbook
 
@@ -126,4 +128,8 @@ def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
             from .export.trials import write_trials_csv
 
             out.write_with("trials.csv", lambda p: write_trials_csv(result, p))
+        figures = render_figures(result)
+        for name, png in figures.items():
+            out.write_with(name, lambda p, png=png: p.write_bytes(png))
+        out.write_with("report.html", lambda p: write_report(result, p, figures))
     return Path(out_dir)

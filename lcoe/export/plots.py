@@ -1,0 +1,384 @@
+"""Pictures of a run as PNG (matplotlib, Agg canvas; pyplot and its global state are not used).
+
+Each ``fig_*`` function takes plain result blocks and returns a :class:`matplotlib.figure.Figure`;
+:func:`render_figures` draws every picture a run supports and returns PNG bytes by file name,
+for ``runner.write_outputs`` (PNG files) and :mod:`lcoe.export.report` (embedded images).
+The functions draw what the results hold; percentiles, indices and losses are the engine's.
+"""
+
+from __future__ import annotations
+
+import io
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+
+from ..energy import LOSS_CHAIN
+from .workbook import MONTHS
+
+#: Figure size [inch] and resolution [dot/inch] of every picture.
+FIGSIZE = (8.0, 4.6)
+DPI = 110
+#: Colours of this project's pictures.
+BLUE, ORANGE, GREY, GREEN, RED = "#2f6690", "#d9822b", "#8a8f98", "#3a7d44", "#b23a48"
+
+#: Short labels of the loss-chain stages (the loss *into* each stage).
+LOSS_LABELS = {
+    "poa_kwh": "Nameplate x irradiation",
+    "after_iam_kwh": "Incidence angle",
+    "after_temperature_kwh": "Temperature",
+    "after_dc_losses_kwh": "DC losses",
+    "after_inverter_kwh": "Inverter",
+    "after_clipping_kwh": "Clipping",
+    "after_ac_losses_kwh": "AC losses",
+    "after_availability_kwh": "Availability",
+}
+
+
+#: Readable names of the outputs that sensitivity may target.
+OUTPUT_LABELS = {
+    "lcoe_real_per_kwh": "LCOE real",
+    "lcoe_nominal_per_kwh": "LCOE nominal",
+    "npv_costs": "NPV of costs",
+    "energy_first_year_kwh": "First-year energy",
+}
+
+
+def output_label(output: str) -> str:
+    """Readable name of an output key, e.g. ``lcoe_real_per_kwh`` -> ``LCOE real``."""
+    return OUTPUT_LABELS.get(output, output.replace("_", " "))
+
+
+def _figure(figsize=FIGSIZE):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, dpi=DPI, layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _style(ax) -> None:
+    ax.grid(True, axis="y", color="#dddddd", linewidth=0.8)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+
+
+def figure_png(fig) -> bytes:
+    """PNG bytes of a figure."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=DPI)
+    return buf.getvalue()
+
+
+# --------------------------------------------------------------------------------------------
+# single pictures
+# --------------------------------------------------------------------------------------------
+def fig_lcoe_distribution(values: np.ndarray, stats: Mapping, currency: str,
+                          label: str = "LCOE real"):
+    """Histogram of the LCOE over the Monte Carlo trials with its 10th, 50th, 90th percentiles.
+
+    Parameters
+    ----------
+    values : numpy.ndarray
+        LCOE of each trial [currency/kWh], (n,).
+    stats : mapping
+        :func:`lcoe.uncertainty.engine.stats` of ``values`` (keys ``mean, q10, q50, q90``).
+    currency : str
+    label : str
+        Name of the output.
+    """
+    fig = _figure()
+    ax = fig.add_subplot()
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    ax.hist(v, bins=min(60, max(10, int(np.sqrt(v.size)))), color=BLUE, alpha=0.85,
+            edgecolor="white", linewidth=0.4)
+    ymax = ax.get_ylim()[1]
+    for key, name, ls in (("q10", "10th pct", ":"), ("q50", "median", "-"),
+                          ("q90", "90th pct", "--")):
+        x = stats[key]
+        ax.axvline(x, color=ORANGE, linestyle=ls, linewidth=1.8,
+                   label=f"{name}: {x:.4f} {currency}/kWh")
+    ax.set_ylim(0, ymax * 1.05)
+    ax.set_xlabel(f"{label} [{currency}/kWh]")
+    ax.set_ylabel("Trials")
+    ax.set_title(f"{label} across {v.size:,} Monte Carlo trials")
+    ax.legend(loc="upper right", frameon=False, fontsize=9)
+    _style(ax)
+    return fig
+
+
+def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12):
+    """Sobol first-order (S1) and total (ST) indices with their confidence half-widths.
+
+    Parameters
+    ----------
+    rows : sequence of mapping
+        Sobol rows (``input, S1, S1_conf, ST, ST_conf``), ranked largest ST first.
+    output : str
+        Name of the analysed output.
+    top : int
+        Largest number of factors shown.
+    """
+    rows = list(rows)[:top]
+    fig = _figure((8.0, max(3.0, 0.42 * len(rows) + 1.6)))
+    ax = fig.add_subplot()
+    y = np.arange(len(rows))
+    h = 0.38
+    ax.barh(y - h / 2, [r["S1"] for r in rows], height=h, xerr=[r["S1_conf"] for r in rows],
+            color=BLUE, label="S1 (first order)", error_kw={"elinewidth": 1, "capsize": 2})
+    ax.barh(y + h / 2, [r["ST"] for r in rows], height=h, xerr=[r["ST_conf"] for r in rows],
+            color=ORANGE, label="ST (total)", error_kw={"elinewidth": 1, "capsize": 2})
+    ax.set_yticks(y, [_short(r["input"]) for r in rows])
+    ax.invert_yaxis()
+    ax.axvline(0, color="black", linewidth=0.8)
+    ax.set_xlabel("Share of the output's variance [-] (bars: index, whiskers: confidence)")
+    ax.set_title(f"Drivers of {output_label(output)} (Sobol indices)")
+    ax.legend(loc="lower right", frameon=False, fontsize=9)
+    ax.grid(True, axis="x", color="#dddddd", linewidth=0.8)
+    ax.set_axisbelow(True)
+    return fig
+
+
+def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12):
+    """One-at-a-time swings: the output with each input at its 10th and 90th percentile.
+
+    Parameters
+    ----------
+    rows : sequence of mapping
+        Tornado rows (``input, low_value, high_value, y_low, y_high, y_base``), largest
+        swing first.
+    output : str
+        Name of the output.
+    unit : str
+        Unit of the output.
+    top : int
+        Largest number of inputs shown.
+    """
+    rows = list(rows)[:top]
+    fig = _figure((8.0, max(3.0, 0.42 * len(rows) + 1.6)))
+    ax = fig.add_subplot()
+    base = rows[0]["y_base"] if rows else 0.0
+    y = np.arange(len(rows))
+    for i, r in enumerate(rows):
+        ax.barh(i, r["y_low"] - base, left=base, color=BLUE, height=0.6,
+                label="input at its 10th percentile" if i == 0 else None)
+        ax.barh(i, r["y_high"] - base, left=base, color=ORANGE, height=0.6,
+                label="input at its 90th percentile" if i == 0 else None)
+    ax.set_yticks(y, [_short(r["input"]) for r in rows])
+    ax.invert_yaxis()
+    ax.axvline(base, color="black", linewidth=1)
+    ax.set_xlabel(f"{output_label(output)} [{unit}] (base case {base:.4g})")
+    ax.set_title("Tornado: one input moved at a time, the others at base")
+    ax.legend(loc="lower right", frameon=False, fontsize=9)
+    ax.grid(True, axis="x", color="#dddddd", linewidth=0.8)
+    ax.set_axisbelow(True)
+    return fig
+
+
+def fig_monthly_energy(monthly_kwh: np.ndarray):
+    """Delivered energy by calendar month [MWh].
+
+    Parameters
+    ----------
+    monthly_kwh : numpy.ndarray
+        (12,) delivered energy [kWh].
+    """
+    fig = _figure()
+    ax = fig.add_subplot()
+    mwh = np.asarray(monthly_kwh, dtype=float) / 1000.0
+    ax.bar(MONTHS, mwh, color=BLUE)
+    ax.set_ylabel("Delivered energy [MWh]")
+    ax.set_xlabel("Month")
+    ax.set_title(f"Delivered energy by month (year total {mwh.sum():,.0f} MWh)")
+    _style(ax)
+    return fig
+
+
+def fig_loss_chain(loss_chain_kwh: Mapping):
+    """Waterfall from nameplate x plane-of-array irradiation to delivered energy [MWh/year].
+
+    Parameters
+    ----------
+    loss_chain_kwh : mapping
+        Energy after each stage of :data:`lcoe.energy.LOSS_CHAIN` [kWh/year], scalars.
+    """
+    keys = [k for k, _ in LOSS_CHAIN if k in loss_chain_kwh]
+    vals = np.array([float(loss_chain_kwh[k]) for k in keys]) / 1000.0
+    fig = _figure((8.6, 4.8))
+    ax = fig.add_subplot()
+    x = np.arange(len(keys) + 1)
+    ax.bar(x[0], vals[0], color=BLUE)
+    ax.text(x[0], vals[0], f"{vals[0]:,.0f}", ha="center", va="bottom", fontsize=8)
+    for i in range(1, len(keys)):
+        loss = vals[i - 1] - vals[i]
+        color = RED if loss >= 0 else GREEN
+        ax.bar(x[i], -loss, bottom=vals[i - 1], color=color)
+        pct = 100 * loss / vals[i - 1] if vals[i - 1] else 0.0
+        text = "none" if abs(pct) < 0.05 else f"{-pct:+.1f} %"
+        ax.text(x[i], vals[i - 1], text, ha="center", va="bottom", fontsize=8)
+    ax.bar(x[-1], vals[-1], color=GREEN)
+    ax.text(x[-1], vals[-1], f"{vals[-1]:,.0f}", ha="center", va="bottom", fontsize=8)
+    labels = [LOSS_LABELS.get(k, k.replace("after_", "").replace("_kwh", "").replace("_", " "))
+              for k in keys]
+    if keys[-1] == "delivered_kwh":  # the last loss is the one that leads to delivery
+        labels[-1] = "Own consumption" if "after_availability_kwh" in keys else "Availability"
+    ax.set_xticks(x, labels + ["Delivered"], rotation=35, ha="right", fontsize=9)
+    lo = max(0.0, float(vals.min()) * 0.8)
+    ax.set_ylim(lo, float(vals.max()) * 1.06)
+    ax.set_ylabel("Energy [MWh/year] (axis does not start at 0)" if lo > 0 else
+                  "Energy [MWh/year]")
+    ax.yaxis.set_major_formatter("{x:,.0f}")
+    ax.set_title("Loss chain: from plane-of-array irradiation to delivered AC energy")
+    _style(ax)
+    return fig
+
+
+def fig_dscr_fan(years: np.ndarray, bands: Mapping[float, np.ndarray],
+                 lockup: float | None = None, default: float = 1.0,
+                 deterministic: np.ndarray | None = None):
+    """DSCR by year: median and percentile bands over Monte Carlo trials.
+
+    Parameters
+    ----------
+    years : numpy.ndarray
+        Operating years with debt service [year], (k,).
+    bands : mapping of float to numpy.ndarray
+        DSCR percentile by year, keyed by probability (e.g. 0.01, 0.1, 0.5, 0.9, 0.99) [-],
+        each (k,). Symmetric pairs are shaded, 0.5 is drawn as a line.
+    lockup : float, optional
+        Lock-up threshold [-] drawn as a line.
+    default : float
+        Default threshold [-] drawn as a line.
+    deterministic : numpy.ndarray, optional
+        DSCR of the deterministic case by year [-], (k,).
+    """
+    fig = _figure()
+    ax = fig.add_subplot()
+    qs = sorted(bands)
+    pairs = [(lo, hi) for lo, hi in zip(qs, reversed(qs)) if lo < hi]
+    for j, (lo, hi) in enumerate(pairs):
+        ax.fill_between(years, bands[lo], bands[hi], color=BLUE, alpha=0.18 + 0.17 * j,
+                        linewidth=0, label=f"{100 * lo:g}th-{100 * hi:g}th percentile")
+    if 0.5 in bands:
+        ax.plot(years, bands[0.5], color=BLUE, linewidth=2, label="median of trials")
+    if deterministic is not None:
+        ax.plot(years, deterministic, color="black", linewidth=1.2, linestyle="--",
+                label="deterministic case")
+    if lockup is not None:
+        ax.axhline(lockup, color=ORANGE, linewidth=1.2, label=f"lock-up {lockup:.2f}x")
+    ax.axhline(default, color=RED, linewidth=1.2, label=f"default {default:.2f}x")
+    ax.set_xlabel("Operating year")
+    ax.set_ylabel("DSCR = CFADS / debt service [-]")
+    ax.set_title("Debt service cover ratio by year across the trials")
+    ax.legend(loc="upper left", frameon=False, fontsize=8, ncol=2)
+    _style(ax)
+    return fig
+
+
+def fig_cumulative(curves: Mapping[str, np.ndarray], xlabel: str,
+                   title: str = "Cumulative distribution"):
+    """Empirical cumulative distributions of several runs (e.g. the LCOE of compared cases).
+
+    Parameters
+    ----------
+    curves : mapping of str to numpy.ndarray
+        Label -> values of the trials, (n_i,).
+    xlabel : str
+        Axis label with unit, e.g. ``"LCOE real [USD/kWh]"``.
+    title : str
+    """
+    fig = _figure()
+    ax = fig.add_subplot()
+    colors = (BLUE, ORANGE, GREEN, RED, GREY, "#6b4c9a", "#1b998b", "#c05746")
+    for i, (label, values) in enumerate(curves.items()):
+        v = np.sort(np.asarray(values, dtype=float)[np.isfinite(values)])
+        if v.size == 0:
+            continue
+        p = (np.arange(1, v.size + 1) - 0.5) / v.size
+        ax.plot(v, p, color=colors[i % len(colors)], linewidth=2,
+                label=f"{_short(label, 40)} (median {np.median(v):.4g})")
+    for q in (0.1, 0.5, 0.9):
+        ax.axhline(q, color=GREY, linewidth=0.7, linestyle=":")
+    ax.set_ylim(0, 1)
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel("Share of trials at or below [-]")
+    ax.set_title(title)
+    ax.legend(loc="lower right", frameon=False, fontsize=9)
+    _style(ax)
+    return fig
+
+
+def _short(text: str, n: int = 32) -> str:
+    text = str(text)
+    return text if len(text) <= n else text[: n - 1] + "…"
+
+
+# --------------------------------------------------------------------------------------------
+# every picture of a run
+# --------------------------------------------------------------------------------------------
+#: File names of the pictures, in the order the report shows them.
+PICTURES = ("lcoe_distribution.png", "sobol_indices.png", "tornado.png", "monthly_energy.png",
+            "loss_chain.png", "dscr_fan.png")
+
+
+def dscr_bands(result):
+    """DSCR fan data of a run's bankability block, or None.
+
+    Returns
+    -------
+    tuple or None
+        ``(years, bands, lockup, deterministic)`` when the block carries per-year DSCR
+        percentiles (attribute or key ``dscr_percentiles``: mapping of probability to (k,)
+        array, with ``dscr_years``).
+    """
+    bank = result.extras.get("bankability")
+    if bank is None:
+        return None
+
+    def get(name):
+        return bank.get(name) if isinstance(bank, Mapping) else getattr(bank, name, None)
+
+    bands, years = get("dscr_percentiles"), get("dscr_years")
+    if not bands or years is None:
+        return None
+    lockup = result.case.values.get("debt.lockup_dscr")
+    return np.asarray(years), {float(k): np.asarray(v) for k, v in bands.items()}, lockup, \
+        get("dscr_deterministic")
+
+
+def render_figures(result) -> dict[str, bytes]:
+    """Every picture the run supports, as PNG bytes by file name (see :data:`PICTURES`).
+
+    Parameters
+    ----------
+    result : RunResult
+
+    Returns
+    -------
+    dict of str to bytes
+    """
+    cur = result.case["case.currency"]
+    e = result.base.energy
+    figs = {}
+    unc = result.extras.get("uncertainty")
+    if unc is not None:
+        figs["lcoe_distribution.png"] = fig_lcoe_distribution(
+            unc.trials.outputs["lcoe_real_per_kwh"], unc.stats["lcoe_real_per_kwh"], cur)
+    sens = result.extras.get("sensitivity")
+    if sens is not None:
+        unit = f"{cur}/kWh" if "lcoe" in sens.output else (cur if "npv" in sens.output
+                                                           else "kWh")
+        if sens.sobol is not None and sens.sobol.rows:
+            figs["sobol_indices.png"] = fig_sobol(sens.ranked(), sens.output)
+        if sens.tornado:
+            figs["tornado.png"] = fig_tornado(sens.tornado, sens.output, unit)
+    figs["monthly_energy.png"] = fig_monthly_energy(e.monthly_kwh[0])
+    figs["loss_chain.png"] = fig_loss_chain({k: v[0] for k, v in e.loss_chain_kwh.items()})
+    fan = dscr_bands(result)
+    if fan is not None:
+        years, bands, lockup, det = fan
+        figs["dscr_fan.png"] = fig_dscr_fan(years, bands, lockup=lockup, deterministic=det)
+    return {name: figure_png(figs[name]) for name in PICTURES if name in figs}

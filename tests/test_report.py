@@ -1,0 +1,74 @@
+"""report.html: self-contained, escaped, and rendered by a real browser (headless Chromium)."""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+
+import numpy as np
+import pytest
+from conftest import DEMO
+from helpers.browser import chromium_path, render
+
+from lcoe.case import load_case
+from lcoe.export.report import report_html, write_report
+from lcoe.runner import run_case
+
+HOSTILE_NAME = '<script>alert("x")</script> =HYPERLINK("http://example.invalid") & co'
+
+
+@pytest.fixture(scope="module")
+def study():
+    return run_case(DEMO, samples=128, sobol_base=16)
+
+
+@pytest.fixture(scope="module")
+def hostile(study, tmp_path_factory):
+    case = load_case(DEMO)
+    values = dict(case.values, **{"case.name": HOSTILE_NAME,
+                                  "case.description": "<b>bold</b> & \"quoted\""})
+    case = dataclasses.replace(case, values=values)
+    audit = [{"check": "efficiency <limit>", "verdict": "impossible",
+              "message": "claims 45 % on one junction & more"},
+             {"check": "energy ratio", "verdict": "ok", "message": "within range"}]
+    return dataclasses.replace(study, case=case, extras=dict(study.extras, audit=audit))
+
+
+def test_report_is_self_contained(study):
+    page = report_html(study)
+    assert page.startswith("<!DOCTYPE html>")
+    assert "<script" not in page.lower()
+    srcs = re.findall(r'src="([^"]+)"', page)
+    assert len(srcs) == 5 and all(s.startswith("data:image/png;base64,") for s in srcs)
+    assert not re.search(r'(href|src)="(https?:)?//', page)
+    for text in ("Headline numbers", "LCOE real", "What drives the result", "Cautions",
+                 "concentrated sunlight", "not investment advice", "independent engineer",
+                 study.case.sha256, f"{study.base.cashflow.lcoe_real[0]:.4f}"):
+        assert text.lower() in page.lower(), text
+    assert study.extras["sensitivity"].plain_words() in page
+
+
+def test_user_text_is_escaped(hostile):
+    page = report_html(hostile, figures={})
+    assert "<script>" not in page and "<b>bold</b>" not in page
+    assert "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt;" in page
+    assert "Audit of physical limits" in page and "efficiency &lt;limit&gt;" in page
+    assert 'class="verdict-impossible"' in page
+
+
+@pytest.mark.skipif(chromium_path() is None, reason="Chromium is not installed")
+def test_report_renders_in_chromium(hostile, tmp_path):
+    from matplotlib.image import imread
+
+    path = tmp_path / "report.html"
+    write_report(hostile, path)
+    shown = render(path, tmp_path / "shot")
+    assert "Uncaught" not in shown.log and "ERROR:CONSOLE" not in shown.log
+    assert "Headline numbers" in shown.dom and "Cautions" in shown.dom
+    assert "&lt;script&gt;" in shown.dom  # the hostile name stayed text
+    assert shown.dom.count("data:image/png;base64,") == 5
+    px = imread(shown.screenshot)
+    assert px.shape[0] >= 1000 and px.shape[1] >= 1000
+    grey = px[..., :3].mean(axis=2)
+    assert grey.std() > 0.05  # not a blank page
+    assert np.mean(grey < 0.5) > 0.005  # some dark text and drawing
