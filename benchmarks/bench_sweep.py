@@ -1,0 +1,135 @@
+"""Benchmark of ``lcoe sweep``: serial versus a local dask cluster, in one run.
+
+Default: 20 invented sites x the 3 bundled technologies x 2,000 trials, serial in this process
+and then on 2 local worker processes (127.0.0.1 only). Prints wall times, the speed-up, trials
+per second, whether the two runs are bit-identical, and the cost per trial against the
+single-case engine (:func:`lcoe.uncertainty.engine.monte_carlo`) on one site x technology.
+
+Target: a speed-up of at least 1.6 with 2 workers on a 2-core machine.
+
+    python benchmarks/bench_sweep.py [--sites 20] [--samples 2000] [--workers 2]
+
+The sites are generated here: invented names, monthly climate values made from the
+extraterrestrial irradiation of each latitude times an invented clearness index. They are
+benchmark inputs, not data about any place.
+"""
+
+from __future__ import annotations
+
+import argparse
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+TECHNOLOGIES = ("demo_fixed_tilt.toml", "tech_single_axis.toml", "tech_fixed_dense.toml")
+TARGET_SPEEDUP = 1.6
+
+
+def invented_sites(n: int) -> list[dict]:
+    """``n`` invented northern-hemisphere sites with plausible monthly climate values."""
+    from lcoe.synth_weather import monthly_extraterrestrial_kwh_m2_day
+
+    rng = np.random.default_rng(7)
+    sites = []
+    for i in range(n):
+        lat = float(np.round(5.0 + 55.0 * i / max(n - 1, 1), 2))
+        lon = float(np.round(-150.0 + 300.0 * ((i * 7) % n) / n, 2))
+        clearness = 0.62 - 0.25 * (lat - 5.0) / 55.0 + rng.uniform(-0.04, 0.04)
+        ghi = np.round(clearness * monthly_extraterrestrial_kwh_m2_day(lat), 2)
+        mean_t = 28.0 - 0.45 * lat
+        swing = 2.0 + 0.25 * lat
+        temp = np.round(mean_t - swing * np.cos(2 * np.pi * (np.arange(12) + 0.5) / 12), 1)
+        offset = int(np.clip(np.round(-lon / 15.0), -12, 12))
+        tz = "Etc/GMT" + (f"+{offset}" if offset >= 0 else f"{offset}")
+        sites.append({"name": f"Benchsite {i + 1:02d}", "lat": lat, "lon": lon, "tz": tz,
+                      "ghi": ghi.tolist(), "temp": temp.tolist()})
+    return sites
+
+
+def plan_text(sites: list[dict], samples: int) -> str:
+    """A sweep plan over the invented sites and the bundled technologies."""
+    techs = ", ".join(f'"{(ROOT / "inputs" / t).as_posix()}"' for t in TECHNOLOGIES)
+    lines = ["# Benchmark plan: invented sites and invented climate values.", "[sweep]",
+             f"samples = {samples}", "seed = 424242", "chunk_trials = 250",
+             f"technologies = [{techs}]", "", "[uncertain.energy]", "interannual_cov = 0.04",
+             "resource_sd = 0.06", ""]
+    for s in sites:
+        lines += ["[[sites]]", f'name = "{s["name"]}"', f"latitude_deg = {s['lat']}",
+                  f"longitude_deg = {s['lon']}", "altitude_m = 200.0",
+                  f'timezone = "{s["tz"]}"', "[sites.monthly]",
+                  f"ghi_kwh_m2_day = {s['ghi']}", f"temp_air_c = {s['temp']}", ""]
+    return "\n".join(lines)
+
+
+def identical(a, b) -> bool:
+    """True when two sweep results hold bit-identical trials."""
+    if a.trials.keys() != b.trials.keys():
+        return False
+    return all(np.array_equal(a.trials[k].lcoe_real, b.trials[k].lcoe_real) and
+               np.array_equal(a.trials[k].energy_kwh, b.trials[k].energy_kwh) and
+               np.array_equal(a.trials[k].X, b.trials[k].X) for k in a.trials)
+
+
+def single_case_cost(plan, samples: int) -> float:
+    """Seconds per trial of the single-case engine on the plan's first site x technology."""
+    from lcoe.model import prepare
+    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.uncertainty.spec import read_spec
+
+    case = plan.runs[0].case()
+    site = prepare(case)
+    spec = read_spec(case)
+    t0 = time.perf_counter()
+    monte_carlo(case, site, spec, samples, seed=1)
+    return (time.perf_counter() - t0) / samples
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sites", type=int, default=20)
+    ap.add_argument("--samples", type=int, default=2000)
+    ap.add_argument("--workers", type=int, default=2)
+    args = ap.parse_args(argv)
+
+    from lcoe.sweep import run_sweep
+    from lcoe.sweep_plan import load_plan
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "bench_plan.toml"
+        path.write_text(plan_text(invented_sites(args.sites), args.samples), encoding="utf-8")
+        plan = load_plan(path)
+        n_trials = len(plan.runs) * plan.samples
+        print(f"sweep: {len(plan.sites)} sites x {len(plan.technologies)} technologies x "
+              f"{plan.samples} trials = {n_trials:,} trials in {len(plan.runs) * len(plan.chunks)}"
+              f" tasks")
+
+        t0 = time.perf_counter()
+        serial = run_sweep(plan, workers=1)
+        t_serial = time.perf_counter() - t0
+        print(f"serial:    {t_serial:8.1f} s  {n_trials / t_serial:8.0f} trials/s")
+
+        t0 = time.perf_counter()
+        parallel = run_sweep(plan, workers=args.workers)
+        t_par = time.perf_counter() - t0
+        print(f"{args.workers} workers: {t_par:8.1f} s  {n_trials / t_par:8.0f} trials/s  "
+              f"({parallel.execution}; cluster start-up included)")
+
+        speedup = t_serial / t_par
+        verdict = "meets" if speedup >= TARGET_SPEEDUP else "MISSES"
+        print(f"speed-up:  {speedup:.2f}x ({verdict} the {TARGET_SPEEDUP}x target)")
+        print(f"bit-identical serial vs {args.workers} workers: {identical(serial, parallel)}")
+        print(f"failures:  serial {len(serial.failures)}, parallel {len(parallel.failures)}")
+
+        per_trial_engine = single_case_cost(plan, plan.samples)
+        per_trial_sweep = t_serial / n_trials
+        print(f"per trial: sweep serial {1e3 * per_trial_sweep:.3f} ms (including site "
+              f"preparation) vs single-case engine {1e3 * per_trial_engine:.3f} ms "
+              f"(ratio {per_trial_sweep / per_trial_engine:.2f})")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
