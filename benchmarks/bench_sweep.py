@@ -17,6 +17,7 @@ benchmark inputs, not data about any place.
 from __future__ import annotations
 
 import argparse
+import os
 import tempfile
 import time
 from pathlib import Path
@@ -106,6 +107,8 @@ def main(argv=None) -> int:
               f"{plan.samples} trials = {n_trials:,} trials in {len(plan.runs) * len(plan.chunks)}"
               f" tasks")
 
+        print("load average before: {:.2f} {:.2f} {:.2f} (other work on the machine slows "
+              "the parallel run)".format(*os.getloadavg()))
         t0 = time.perf_counter()
         serial = run_sweep(plan, workers=1)
         t_serial = time.perf_counter() - t0
@@ -117,6 +120,7 @@ def main(argv=None) -> int:
         print(f"{args.workers} workers: {t_par:8.1f} s  {n_trials / t_par:8.0f} trials/s  "
               f"({parallel.execution}; cluster start-up included)")
 
+        print("load average after:  {:.2f} {:.2f} {:.2f}".format(*os.getloadavg()))
         speedup = t_serial / t_par
         verdict = "meets" if speedup >= TARGET_SPEEDUP else "MISSES"
         print(f"speed-up:  {speedup:.2f}x ({verdict} the {TARGET_SPEEDUP}x target)")

@@ -11,6 +11,11 @@ chunk of trials and each chunk's random numbers come from the sweep's seed and t
 position, so the numbers are bit-identical whichever way the sweep runs. A failed task is
 retried once; a site x technology with a chunk that still fails is reported (site, technology,
 error) and left out of the table, while the other results are written.
+
+With ``--scheduler``, the workers must have lcoe installed and see the plan's weather files at
+the same paths (sites given by monthly values need no file). Start them with
+``distributed.worker.profile.enabled: false`` and without ``MALLOC_TRIM_THRESHOLD_`` in their
+environment for full speed (see :func:`local_cluster`).
 """
 
 from __future__ import annotations
@@ -276,8 +281,11 @@ def local_cluster(workers: int):
                                                 {}).items() if k != "MALLOC_TRIM_THRESHOLD_"}
     with dask.config.set({"distributed.nanny.pre-spawn-environ": environ,
                           "distributed.worker.profile.enabled": False}):
+        # The scheduler always serves a small HTTP API: bind it to 127.0.0.1 on a free port
+        # (not the default 8787, which may be taken) and leave the dashboard off.
         return LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                            host="127.0.0.1", dashboard_address=None,
+                            host="127.0.0.1", dashboard_address="127.0.0.1:0",
+                            scheduler_kwargs={"dashboard": False},
                             silence_logs=logging.CRITICAL)
 
 
