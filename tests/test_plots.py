@@ -7,7 +7,7 @@ import sys
 
 import numpy as np
 import pytest
-from conftest import DEMO
+from conftest import DEMO, INPUTS
 
 from lcoe.export.plots import (
     DPI,
@@ -62,6 +62,13 @@ def test_deterministic_run_has_energy_pictures_only(study):
 
     figs = render_figures(dataclasses.replace(study, extras={}))
     assert set(figs) == {"monthly_energy.png", "loss_chain.png"}
+
+
+def test_lender_run_has_a_dscr_fan():
+    lender = run_case(INPUTS / "lender_single_axis.toml", samples=48, sobol_base=0)
+    figs = render_figures(lender)
+    assert "dscr_fan.png" in figs
+    _assert_picture(figs["dscr_fan.png"])
 
 
 def test_dscr_fan_and_cumulative_helpers():

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import DEMO
+from conftest import DEMO, INPUTS
 from helpers.office import recalculate, soffice_path
 
 from lcoe.case import case_from_dict, load_case
@@ -82,13 +82,16 @@ def runs(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("wb")
     full = run_case(_test_case(tmp), samples=256, sobol_base=16)
     hostile = run_case(_hostile_case(tmp), samples=0)
+    lender = run_case(INPUTS / "lender_single_axis.toml", samples=64, sobol_base=0)
     paths = {"full": tmp / "full.xlsx", "hostile": tmp / "hostile.xlsx",
-             "edited": tmp / "edited.xlsx", "comparison": tmp / "comparison.xlsx"}
+             "edited": tmp / "edited.xlsx", "comparison": tmp / "comparison.xlsx",
+             "lender": tmp / "lender.xlsx"}
     write_workbook(full, paths["full"])
     write_workbook(hostile, paths["hostile"])
+    write_workbook(lender, paths["lender"])
     _edit_input(paths["full"], paths["edited"], "costs.capex_per_kw", NEW_CAPEX)
     write_comparison_workbook([full, hostile], paths["comparison"])
-    return {"full": full, "hostile": hostile, "paths": paths, "tmp": tmp}
+    return {"full": full, "hostile": hostile, "lender": lender, "paths": paths, "tmp": tmp}
 
 
 @pytest.fixture(scope="module")
@@ -240,6 +243,46 @@ def test_cashflow_formulas_agree_with_engine(runs, recalculated):
 
 
 @needs_soffice
+def test_debt_sheet_agrees_with_engine(runs, recalculated):
+    """Cross-implementation: the Debt sheet recalculated by LibreOffice vs lcoe.bank; IRRs
+    also vs numpy-financial."""
+    npf = pytest.importorskip("numpy_financial")
+    bank = runs["lender"].extras["bankability"]
+    f = bank.finance
+    wb = recalculated["lender"]
+    assert wb.sheetnames.index("Debt") == wb.sheetnames.index("CashFlow") + 1
+    for name, value in (("min_dscr", f.min_dscr[0]), ("avg_dscr", f.avg_dscr[0]),
+                        ("llcr", f.llcr[0]), ("equity_npv", f.npv_equity[0])):
+        assert _close(_named(wb, name), value), name
+    irrs = bank.irr_results()
+    for name, key, flow in (("equity_irr", "equity", f.equity_flow[0]),
+                            ("project_irr_pre_tax", "project_pre_tax",
+                             f.project_flow_pre_tax[0]),
+                            ("project_irr_post_tax", "project_post_tax",
+                             f.project_flow_post_tax[0])):
+        got = _named(wb, name)
+        # the spreadsheet's root is one of the engine's roots (1e-8) ...
+        assert min(abs(got - r) for r in irrs[key].roots) < 1e-8 * max(1.0, abs(got)), name
+        # ... and the root numpy-financial finds from the engine's flow
+        assert got == pytest.approx(npf.irr(flow), rel=1e-8), name
+    ws = wb["Debt"]
+    labels = {ws.cell(row=r, column=1).value: r for r in range(1, ws.max_row + 1)}
+    n = f.cfads.shape[1] - 1
+
+    def line(label_start):
+        r = next(r for lab, r in labels.items() if lab and lab.startswith(label_start))
+        return np.array([np.nan if v in (None, "") else v for v in
+                         (ws.cell(row=r, column=3 + t).value for t in range(n + 1))], float)
+
+    for label, expected in (("Revenue", f.revenue[0]), ("Interest", f.interest[0]),
+                            ("Tax paid", f.tax[0]), ("CFADS", f.cfads[0]),
+                            ("Closing loan balance", f.debt_balance[0]),
+                            ("Cash flow to equity", f.equity_flow[0]),
+                            ("DSCR = CFADS", f.dscr[0])):
+        np.testing.assert_allclose(line(label), expected, rtol=REL, atol=1e-5, err_msg=label)
+
+
+@needs_soffice
 def test_energy_figures_agree_with_engine(runs, recalculated):
     e = runs["full"].base.energy
     ws = recalculated["full"]["Energy"]
@@ -313,6 +356,13 @@ def test_readback_rebuilds_the_case(runs):
     assert "full.xlsx" in case.source and len(case.sha256) == 64
     again = evaluate(case, full.site)
     assert again.cashflow.lcoe_real[0] == full.base.cashflow.lcoe_real[0]
+
+
+def test_readback_keeps_bankability_tables(runs):
+    lender = runs["lender"].case
+    case = case_from_workbook(runs["paths"]["lender"])
+    assert dict(case.values) == dict(lender.values)
+    assert case.sections == lender.sections and case.debt_sizing == lender.debt_sizing
 
 
 def test_readback_hostile_text_round_trips(runs):

@@ -270,6 +270,23 @@ def fig_dscr_fan(years: np.ndarray, bands: Mapping[float, np.ndarray],
     if lockup is not None:
         ax.axhline(lockup, color=ORANGE, linewidth=1.2, label=f"lock-up {lockup:.2f}x")
     ax.axhline(default, color=RED, linewidth=1.2, label=f"default {default:.2f}x")
+    from matplotlib.ticker import MaxNLocator
+
+    every = np.concatenate([np.ravel(b) for b in bands.values()])
+    every = every[np.isfinite(every)]
+    if every.size:
+        top = max(1.5 * float(np.percentile(every, 90)), (lockup or default) * 1.3)
+        if every.max() > top:  # a year with little debt service would flatten the rest
+            ax.set_ylim(0, top)
+            worst = int(years[int(np.nanargmax(np.nanmax(np.vstack(list(bands.values())),
+                                                         axis=0)))])
+            ax.annotate(f"off scale: up to {every.max():.1f}x (year {worst})",
+                        xy=(worst, top), xytext=(-14, -14), textcoords="offset points",
+                        ha="right", fontsize=8, color="#333333",
+                        bbox={"fc": "white", "ec": "none", "alpha": 0.9})
+        else:
+            ax.set_ylim(0, top)
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_xlabel("Operating year")
     ax.set_ylabel("DSCR = CFADS / debt service [-]")
     ax.set_title("Debt service cover ratio by year across the trials")
@@ -330,23 +347,22 @@ def dscr_bands(result):
     Returns
     -------
     tuple or None
-        ``(years, bands, lockup, deterministic)`` when the block carries per-year DSCR
-        percentiles (attribute or key ``dscr_percentiles``: mapping of probability to (k,)
-        array, with ``dscr_years``).
+        ``(years, bands, lockup, deterministic)`` when the block's Monte Carlo summary
+        (``mc["dscr_fan"]``: ``years`` and percentiles ``q05, q10, ...`` by year) is present:
+        years (k,), bands {probability: (k,) DSCR}, the lock-up DSCR and the deterministic
+        DSCR of those years.
     """
     bank = result.extras.get("bankability")
-    if bank is None:
+    fan = (getattr(bank, "mc", None) or {}).get("dscr_fan") if bank is not None else None
+    if not fan or not fan.get("years"):
         return None
-
-    def get(name):
-        return bank.get(name) if isinstance(bank, Mapping) else getattr(bank, name, None)
-
-    bands, years = get("dscr_percentiles"), get("dscr_years")
-    if not bands or years is None:
+    years = np.asarray(fan["years"], dtype=int)
+    bands = {int(k[1:]) / 100.0: np.asarray(v, dtype=float) for k, v in fan.items()
+             if k.startswith("q") and k[1:].isdigit()}
+    if not bands:
         return None
-    lockup = result.case.values.get("debt.lockup_dscr")
-    return np.asarray(years), {float(k): np.asarray(v) for k, v in bands.items()}, lockup, \
-        get("dscr_deterministic")
+    det = np.asarray(bank.finance.dscr[0], dtype=float)[years]
+    return years, bands, getattr(bank, "lockup_dscr", None), det
 
 
 def render_figures(result) -> dict[str, bytes]:

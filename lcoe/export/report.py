@@ -92,8 +92,32 @@ def _headline_rows(result: RunResult) -> list[str]:
                              f"{ex['p99'] / 1e6:,.2f}", "GWh",
                              "P90 = exceeded with 90 % probability"))
     bank = result.extras.get("bankability")
-    if bank is not None and hasattr(bank, "headline_rows"):
-        rows += [_row(*r) for r in bank.headline_rows()]
+    if bank is not None and hasattr(bank, "to_summary"):
+        rows += _bank_rows(bank.to_summary(), cur)
+    return rows
+
+
+def _pct(x) -> str:
+    return "-" if x is None else f"{100 * x:.2f}"
+
+
+def _bank_rows(b: dict, cur: str) -> list[str]:
+    """Headline rows of the lender's view (from the bankability block's summary)."""
+    rows = [
+        _row("Debt", f"{b['debt']:,.0f}", cur, f"gearing {_pct(b['gearing'])} %; binding: "
+                                               f"{b.get('binding_constraint') or '-'}"),
+        _row("Minimum / average DSCR", f"{b['min_dscr']:.2f} / {b['avg_dscr']:.2f}", "-",
+             f"LLCR {b['llcr']:.2f}"),
+        _row("Equity IRR", _pct(b.get("equity_irr")), "%",
+             f"target {_pct(b.get('target_equity_irr'))} %"),
+        _row("Project IRR after tax", _pct(b.get("project_irr")), "%"),
+        _row("Break-even tariff", f"{b['breakeven_tariff_per_kwh']:.4f}", f"{cur}/kWh",
+             "flat real, equity at its target IRR"),
+    ]
+    if b.get("prob_dscr_below_1") is not None:
+        rows.append(_row("Odds of DSCR below 1.00 in some year",
+                         _pct(b["prob_dscr_below_1"]), "%",
+                         f"lock-up breach {_pct(b.get('prob_lockup'))} %"))
     return rows
 
 

@@ -246,11 +246,11 @@ def write_workbook(result: RunResult, path: Path) -> None:
     about.title = "About"
     names = write_inputs_sheet(wb, result)
     workbook_sheets.write_energy_sheet(wb, result)
-    workbook_sheets.write_cashflow_sheet(wb, result, names)
-    if "bankability" in result.extras:
-        from . import workbook_debt
+    cash_rows = workbook_sheets.write_cashflow_sheet(wb, result, names)
+    from . import workbook_debt
 
-        workbook_debt.write_debt_sheet(wb, result)
+    if workbook_debt.has_debt(result):
+        workbook_debt.write_debt_sheet(wb, result, cash_rows)
     if "uncertainty" in result.extras:
         workbook_stats.write_distribution_sheet(wb, result)
     sens = result.extras.get("sensitivity")
@@ -350,7 +350,8 @@ SHEET_GUIDE = {
               "AC energy (values from the hourly model)",
     "CashFlow": "one column per year; every derived cell is a formula; LCOE, NPV and their "
                 "engine values at the bottom",
-    "Debt": "loan schedule and cover ratios as formulas",
+    "Debt": "revenue, tax, CFADS, loan schedule, DSCR, LLCR, NPV and IRRs as formulas (debt "
+            "amount and scheduled service sized by the engine)",
     "Distribution": "Monte Carlo percentiles, histogram of the LCOE and the listed trials",
     "Sensitivity": "Sobol indices with confidence intervals, tornado swings",
     "Comparison": "several runs side by side",

@@ -1,0 +1,293 @@
+"""Debt sheet of the workbook: revenue, tax, CFADS, the loan waterfall, cover ratios, returns.
+
+Re-expresses :func:`lcoe.bank.metrics.project_finance` for the deterministic case of a run's
+bankability block (:mod:`lcoe.bankability`) as formulas, one column per year like CashFlow
+(C = year 0). Two things stay engine values, because the engine finds them by iteration (debt
+sized on several DSCR constraints, interest and tax made consistent by a fixed point): the
+loan amount and the scheduled debt service; the depreciation schedule is also the engine's.
+Everything else is a formula::
+
+    energy sold_t   = E_t (1 - curtailment)
+    price_t         = tariff (1 + e)^(t-1) while t <= contract years, then merchant price
+    opex_t          = total cost_t - capex_t                       (CashFlow sheet)
+    EBITDA_t        = revenue_t - opex_t
+    interest_t      = opening balance_t x loan rate
+    taxable_t       = EBITDA_t - depreciation_t - interest_t
+    tax before      = rate x max(taxable_t - loss brought forward, 0); losses carried forward
+    tax_t           = tax before - min(credit available, tax before); credits carried forward
+    CFADS_t         = revenue_t - opex_t - tax_t
+    principal_t     = scheduled service_t - interest_t (last tenor year: the opening balance)
+    DSCR_t          = CFADS_t / (interest_t + principal_t)
+    equity_t        = CFADS_t - service_t;  equity_0 = CFADS_0 - (capex - debt + fee)
+
+IRRs use the spreadsheet IRR(); NPV is ``flow_0 + NPV(r, flow_1..flow_N)``.
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+
+from ..results import RunResult
+from .workbook import (
+    FMT_FACTOR,
+    FMT_MONEY,
+    FMT_PRICE,
+    FMT_RATE,
+    define_name,
+    engine_columns,
+    header,
+    put,
+    put_formula,
+    put_text,
+    title,
+    widths,
+)
+from .workbook_sheets import YEAR0_COL, col_letter, year_col
+
+_TOKEN = re.compile(r"\[([A-Za-z_]\w*)(<?)\]")
+
+
+class YearRows:
+    """Rows of yearly formulas on a sheet with year t in column ``YEAR0_COL + t``.
+
+    A template refers to other rows by key: ``[key]`` is the same year's cell of that row,
+    ``[key<]`` the previous year's (0 in year 0); ``{L}`` is this year's column letter.
+    """
+
+    def __init__(self, ws, n_years: int, first_row: int = 1):
+        self.ws, self.n, self.row, self.rows = ws, n_years, first_row - 1, {}
+        self._pending = []
+
+    def _sheet_ref(self, key: str, t: int) -> str:
+        return f"{col_letter(year_col(t))}${self.rows[key]}"
+
+    def formula(self, key, label, unit, template, fmt, year0=None):
+        """Add a row of formulas; ``year0`` replaces the template in year 0.
+
+        Templates may refer to rows added later; they are written by :meth:`finish`.
+        """
+        self.row += 1
+        self.rows[key] = self.row
+        put_text(self.ws, self.row, 1, label)
+        put_text(self.ws, self.row, 2, unit)
+        self._pending.append((self.row, template, year0, fmt))
+        return self.row
+
+    def finish(self) -> None:
+        """Write the formulas of every row added with :meth:`formula`."""
+        for row, template, year0, fmt in self._pending:
+            for t in range(self.n + 1):
+                tpl = year0 if (t == 0 and year0 is not None) else template
+
+                def sub(m, t=t):
+                    if m.group(2):
+                        return "0" if t == 0 else self._sheet_ref(m.group(1), t - 1)
+                    return self._sheet_ref(m.group(1), t)
+
+                text = _TOKEN.sub(sub, tpl).replace("{L}", col_letter(year_col(t)))
+                put_formula(self.ws, row, year_col(t), text, fmt)
+        self._pending = []
+
+    def values(self, key, label, unit, values, fmt):
+        """Add a row of engine values (label says so)."""
+        self.row += 1
+        self.rows[key] = self.row
+        put_text(self.ws, self.row, 1, label)
+        put_text(self.ws, self.row, 2, unit)
+        for t in range(self.n + 1):
+            v = float(values[t])
+            put(self.ws, self.row, year_col(t), v if np.isfinite(v) else None, fmt)
+        return self.row
+
+    def span(self, key: str, first: int = 1) -> str:
+        """``D5:AG5``: the row of ``key`` from year ``first`` to the last year."""
+        r = self.rows[key]
+        return f"{col_letter(year_col(first))}{r}:{col_letter(year_col(self.n))}{r}"
+
+    def cell(self, key: str, t: int) -> str:
+        return f"{col_letter(year_col(t))}{self.rows[key]}"
+
+
+def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
+    """The Debt sheet of a run with a bankability block.
+
+    Parameters
+    ----------
+    wb : openpyxl.Workbook
+    result : RunResult
+        ``extras["bankability"]`` is a :class:`lcoe.bankability.BankabilityBlock`.
+    cash_rows : dict
+        Row numbers of the CashFlow sheet (from
+        :func:`lcoe.export.workbook_sheets.write_cashflow_sheet`).
+    """
+    from openpyxl.chart import LineChart, Reference
+    from openpyxl.styles import Font
+
+    bank = result.extras["bankability"]
+    f = bank.finance
+    case = result.case
+    cur = case["case.currency"]
+    n = int(result.base.cashflow.years[-1])
+    ws = wb.create_sheet("Debt")
+    cf = "CashFlow!"
+
+    r = 1
+    title(ws, r, "Loan, tax and returns of the deterministic case (debt sized by the engine on "
+                 + ", ".join(f"{c} at {m:.2f}x" for c, m in bank.constraints) + ")")
+    r += 2
+    header(ws, r, ("Sized by the engine", "unit", "Value"))
+    r += 1
+    put_text(ws, r, 1, "Debt drawn at financial close")
+    put_text(ws, r, 2, cur)
+    put(ws, r, 3, f.debt[0], FMT_MONEY)
+    define_name(wb, "debt_amount", ws, r, 3)
+    r += 1
+    put_text(ws, r, 1, "Binding sizing constraint")
+    put_text(ws, r, 3, bank.binding or "-")
+    r += 2
+
+    contract = "contract_years" if case.values.get("revenue.contract_years") else \
+        "lifetime_years"
+    y = YearRows(ws, n, first_row=r)
+    y.formula("t", "Year t", "-", f"={cf}{{L}}${cash_rows['t']}", "0")
+    for cell in ws[y.rows["t"]]:
+        cell.font = Font(bold=True)
+    y.formula("tenor", "Year inside the loan tenor (1 = yes)", "-",
+              "=IF(AND([t]>=1,[t]<=tenor_years),1,0)", "0")
+    y.formula("sold", "Energy sold = delivered x (1 - curtailment)", "kWh",
+              f"={cf}{{L}}${cash_rows['E']}*(1-curtailment_fraction)", "#,##0")
+    y.formula("price", "Price: contract, then merchant", f"{cur}/kWh",
+              f"=IF([t]<=0,0,IF([t]<={contract},tariff_per_kwh*(1+tariff_escalation)^([t]-1),"
+              f"merchant_price_per_kwh*(1+merchant_escalation)^([t]-1)))", FMT_PRICE)
+    y.formula("revenue", "Revenue", cur, "=[sold]*[price]", FMT_MONEY)
+    y.formula("opex", "Operating costs = total cost - capex (CashFlow)", cur,
+              f"={cf}{{L}}${cash_rows['total_cost']}-{cf}{{L}}${cash_rows['capex']}", FMT_MONEY)
+    y.formula("ebitda", "EBITDA = revenue - operating costs", cur, "=[revenue]-[opex]",
+              FMT_MONEY)
+    y.values("dep", f"Tax depreciation ({case['tax.depreciation']}; engine schedule)", cur,
+             f.depreciation[0], FMT_MONEY)
+    # loan balance first: interest is needed for tax
+    y.values("sched", "Scheduled debt service (engine sizing)", cur, f.debt_service[0],
+             FMT_MONEY)
+    y.formula("opening", "Opening loan balance", cur,
+              "=IF([tenor]=1,IF([t]=1,debt_amount,[closing<]),0)", FMT_MONEY)
+    y.formula("interest", "Interest = opening balance x loan rate", cur,
+              "=[opening]*interest_rate", FMT_MONEY)
+    y.formula("principal", "Principal repaid (last tenor year: the whole balance)", cur,
+              "=IF([t]=tenor_years,[opening],IF([tenor]=1,[sched]-[interest],0))", FMT_MONEY)
+    y.formula("service", "Debt service paid = interest + principal", cur,
+              "=[interest]+[principal]", FMT_MONEY)
+    y.formula("closing", "Closing loan balance", cur, "=[opening]-[principal]", FMT_MONEY,
+              year0="=debt_amount")
+    capex = f"{cf}$C${cash_rows['capex']}"
+    tax_rows(y, "", "[interest]", cur, capex)
+    y.formula("cfads", "CFADS = revenue - operating costs - tax", cur,
+              "=[revenue]-[opex]-[tax]", FMT_MONEY)
+    y.formula("dscr", "DSCR = CFADS / debt service", "-",
+              "=IF([service]>0,[cfads]/[service],\"\")", "0.000")
+    y.formula("equity", "Cash flow to equity = CFADS - debt service", cur,
+              "=[cfads]-[service]", FMT_MONEY,
+              year0="=[cfads]-(" + f"{cf}C${cash_rows['capex']}-debt_amount"
+                    "+debt_amount*upfront_fee_fraction)")
+    y.formula("pretax", "Project flow before tax = EBITDA - capex", cur,
+              "=[ebitda]", FMT_MONEY, year0=f"=[ebitda]-{cf}C${cash_rows['capex']}")
+    tax_rows(y, "u_", "0", cur, capex, label=" (unlevered: no interest deducted)")
+    y.formula("posttax", "Project flow after unlevered tax", cur, "=[ebitda]-[u_tax]",
+              FMT_MONEY, year0=f"=[ebitda]-[u_tax]-{cf}C${cash_rows['capex']}")
+    y.formula("loan_df", "Discount factor at the loan rate (tenor years)", "-",
+              "=[tenor]/(1+interest_rate)^[t]", FMT_FACTOR)
+    y.values("dscr_engine", "DSCR, engine value (for the chart)", "-", f.dscr[0], "0.000")
+    y.finish()
+
+    # results
+    r = y.row + 2
+    title(ws, r, "Results")
+    r += 1
+    header(ws, r, ("Quantity", "unit", "Workbook formula", "Engine value",
+                   "Relative difference"))
+    irrs = bank.irr_results()
+    c0 = "C"
+    results = (
+        ("min_dscr", "Minimum DSCR over the tenor", "-", f"=MIN({y.span('dscr')})",
+         f.min_dscr[0], "0.0000"),
+        ("avg_dscr", "Average DSCR over the tenor", "-", f"=AVERAGE({y.span('dscr')})",
+         f.avg_dscr[0], "0.0000"),
+        ("llcr", "LLCR = PV of CFADS over the tenor at the loan rate / debt", "-",
+         f"=SUMPRODUCT({y.span('cfads')},{y.span('loan_df')})/debt_amount", f.llcr[0],
+         "0.0000"),
+        ("equity_npv", "NPV of the cash flow to equity at the discount rate", cur,
+         f"={c0}{y.rows['equity']}+NPV(discount_rate,{y.span('equity')})", f.npv_equity[0],
+         FMT_MONEY),
+        ("equity_irr", "Equity IRR", "1/year", f"=IRR({y.span('equity', 0)})",
+         irrs["equity"].value, FMT_RATE),
+        ("project_irr_pre_tax", "Project IRR before tax", "1/year",
+         f"=IRR({y.span('pretax', 0)})", irrs["project_pre_tax"].value, FMT_RATE),
+        ("project_irr_post_tax", "Project IRR after unlevered tax", "1/year",
+         f"=IRR({y.span('posttax', 0)})", irrs["project_post_tax"].value, FMT_RATE),
+    )
+    roots = {"equity_irr": irrs["equity"], "project_irr_pre_tax": irrs["project_pre_tax"],
+             "project_irr_post_tax": irrs["project_post_tax"]}
+    for name, label, unit, formula, value, fmt in results:
+        r += 1
+        put_text(ws, r, 1, label)
+        put_text(ws, r, 2, unit)
+        put_formula(ws, r, 3, formula, fmt)
+        define_name(wb, name, ws, r, 3)
+        if np.isfinite(value):
+            engine_columns(ws, r, 3, value, fmt)
+        else:  # no unique root: list what the engine found
+            found = roots[name]
+            put_text(ws, r, 4, "engine: " + (", ".join(f"{x:.10f}" for x in found.roots)
+                                           or "none") + f" ({found.reason})")
+    r += 1
+    put_text(ws, r, 1, "IRR(): the spreadsheet finds one root near its 10 % guess; the engine "
+                       "finds every root and reports a value only when there is exactly one "
+                       "(a last-year decommissioning cost adds a second sign change).")
+
+    tenor = int(case["debt.tenor_years"])
+    chart = LineChart()
+    chart.title = "DSCR by year (engine values)"
+    chart.y_axis.title = "DSCR [-]"
+    chart.x_axis.title = "Year"
+    dr = y.rows["dscr_engine"]
+    chart.add_data(Reference(ws, min_col=year_col(1), max_col=year_col(tenor), min_row=dr,
+                             max_row=dr), from_rows=True, titles_from_data=False)
+    chart.set_categories(Reference(ws, min_col=year_col(1), max_col=year_col(tenor),
+                                   min_row=y.rows["t"], max_row=y.rows["t"]))
+    chart.legend = None
+    chart.height, chart.width = 8, 18
+    ws.add_chart(chart, f"A{r + 2}")
+    widths(ws, {"A": 58, "B": 12})
+    for t in range(n + 1):
+        ws.column_dimensions[col_letter(year_col(t))].width = 14
+    ws.freeze_panes = ws.cell(row=y.rows["t"] + 1, column=YEAR0_COL).coordinate
+
+
+def tax_rows(y: YearRows, p: str, interest: str, cur: str, capex: str, label: str = "") -> None:
+    """Taxable income, loss carry-forward, tax before credits, credits and tax (prefix ``p``).
+
+    ``interest`` is the template of the deductible interest (``[interest]`` or ``0``);
+    ``capex`` the cell of the year-0 capex (basis of the investment tax credit).
+    """
+    y.formula(f"{p}taxable", f"Taxable income = EBITDA - depreciation - interest{label}", cur,
+              f"=[ebitda]-[dep]-{interest}", FMT_MONEY)
+    y.formula(f"{p}net", f"Taxable income less losses brought forward{label}", cur,
+              f"=[{p}taxable]-[{p}loss<]", FMT_MONEY)
+    y.formula(f"{p}loss", f"Tax losses carried forward{label}", cur, f"=MAX(-[{p}net],0)",
+              FMT_MONEY)
+    y.formula(f"{p}tax_before", f"Tax before credits{label}", cur,
+              f"=tax_rate*MAX([{p}net],0)", FMT_MONEY)
+    y.formula(f"{p}credit", f"Tax credit available (ITC arises in year 1){label}", cur,
+              f"=[{p}credit_left<]+IF([t]=1,itc_fraction*{capex},0)", FMT_MONEY)
+    y.formula(f"{p}tax", f"Tax paid{label}", cur,
+              f"=[{p}tax_before]-MIN([{p}credit],[{p}tax_before])", FMT_MONEY)
+    y.formula(f"{p}credit_left", f"Tax credit carried forward{label}", cur,
+              f"=[{p}credit]-MIN([{p}credit],[{p}tax_before])", FMT_MONEY)
+
+
+def has_debt(result: RunResult) -> bool:
+    """True when the run carries a bankability block with a loan schedule."""
+    bank = result.extras.get("bankability")
+    return bank is not None and hasattr(bank, "finance")
