@@ -140,6 +140,10 @@ def _cmd_new(args) -> int:
 
 
 def _cmd_demo(args) -> int:
+    if getattr(args, "compare", False):
+        from .compare_cli import run_demo_compare
+
+        return run_demo_compare(args)
     if not DEMO_CASE.is_file():
         raise InputError(f"{DEMO_CASE}: bundled demo case not found (install from a clone of "
                          f"the repository with pip install -e .)")
@@ -201,7 +205,14 @@ def build_parser() -> argparse.ArgumentParser:
     n.set_defaults(func=_cmd_new)
     d = sub.add_parser("demo", help="run the bundled demo case")
     out_opts(d, "default outputs/demo")
+    d.add_argument("--compare", action="store_true",
+                   help="run the bundled claim test instead (fixed tilt vs single-axis vs a "
+                        "vendor's rotating columns) into outputs/demo_compare")
+    from .compare_cli import add_options, register
+
+    add_options(d)
     d.set_defaults(func=_cmd_demo)
+    register(sub, _non_negative_int, DEFAULT_SEED)
     from .sweep import register_cli
 
     register_cli(sub)

@@ -200,6 +200,17 @@ FIELDS: tuple[Field, ...] = (
       "the investor's hurdle rate)", low=-1, low_open=True, high=1, typical="0.05-0.10"),
     F("finance.inflation", "float", "1/year", "General inflation; also escalates O&M",
       default=0.02, low=-0.5, high=1, typical="0.02-0.03"),
+    # --- claim (what a vendor states; tested by lcoe compare, never used as an input) ---------
+    F("claim.text", "str", "-", "The claim in the vendor's words, for the report",
+      optional=True),
+    F("claim.energy_per_kw_kwh", "float", "kWh/kW/year", "Claimed energy per kW of nameplate "
+      "in an average year", low=0, low_open=True, optional=True, typical="1100-2200"),
+    F("claim.energy_per_m2_kwh", "float", "kWh/m2/year", "Claimed energy per m2 of cells in an "
+      "average year", low=0, low_open=True, optional=True, typical="150-450"),
+    F("claim.energy_ratio", "float", "-", "Claimed energy per m2 of cells relative to the "
+      "baseline it is compared with", low=0, low_open=True, optional=True),
+    F("claim.lcoe_ratio", "float", "-", "Claimed cost per kWh relative to the baseline it is "
+      "compared with (0.667 = a third cheaper)", low=0, low_open=True, optional=True),
     # --- revenue (bankability; the section's presence switches it on) ------------------------
     F("revenue.tariff_per_kwh", "float", "currency/kWh",
       "Contracted price in year 1, escalating from year 2", low=0, optional=True,
@@ -281,9 +292,13 @@ EXTRA_KEYS: dict[str, tuple[str, ...]] = {
 }
 
 
+#: Sections whose numbers are statements to test, not inputs of the model.
+STATEMENT_SECTIONS: tuple[str, ...] = ("claim",)
+
+
 def numeric_paths() -> list[str]:
     """Dotted paths of every numeric input (candidates for ``[uncertain]``)."""
-    return [f.path for f in FIELDS if f.numeric]
+    return [f.path for f in FIELDS if f.numeric and f.section not in STATEMENT_SECTIONS]
 
 
 #: Inputs that change the plane-of-array irradiance (the geometry); every other energy input

@@ -40,12 +40,15 @@ def _line(f: Field, value, commented: bool = False) -> list[str]:
 
 
 #: Sections written commented out: the bankability layer and the tables of other mounts.
-OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body")
+OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body", "claim")
 OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
                      "site.weather_time_label": "start", "revenue.tariff_per_kwh": 0.055,
                      "revenue.contract_years": 20, "plant.body.shape": "cylinder",
                      "plant.body.radius_m": 0.5, "plant.body.height_m": 3.0,
-                     "plant.body.facets": 24, "plant.body.spacing_m": 3.0}
+                     "plant.body.facets": 24, "plant.body.spacing_m": 3.0,
+                     "claim.text": "a third cheaper power", "claim.energy_per_kw_kwh": 1500.0,
+                     "claim.energy_per_m2_kwh": 300.0, "claim.energy_ratio": 1.2,
+                     "claim.lcoe_ratio": 0.667}
 
 
 def template_text() -> str:
@@ -65,6 +68,9 @@ def template_text() -> str:
             if f.section == "revenue":
                 lines += ["# ---- Bankability (optional): uncomment [revenue] and what follows to "
                           "get tax, debt,", "# ---- DSCR and equity returns."]
+            if f.section == "claim":
+                lines += ["# ---- A vendor's claim (optional), tested by: lcoe compare "
+                          "BASELINE.toml THIS.toml"]
             if f.section == "plant.body":
                 lines += ['# ---- plant.mount = "body": bodies covered with cells (uncomment). '
                           'With shape = "facets"', "# ---- list the pieces instead: "

@@ -24,7 +24,7 @@ import numpy as np
 
 from ..case import Case
 from ..errors import InputError, field_error, unknown_key_error
-from ..schema import FIELD_BY_PATH
+from ..schema import FIELD_BY_PATH, STATEMENT_SECTIONS
 from .distributions import Distribution, parse_distribution
 from .sampling import correlation_matrix
 
@@ -70,7 +70,8 @@ class UncertainSpec:
 
 def valid_paths(case: Case) -> list[str]:
     """Dotted paths that may be made uncertain in ``case``."""
-    paths = [p for p, f in FIELD_BY_PATH.items() if f.numeric and case.values.get(p) is not None]
+    paths = [p for p, f in FIELD_BY_PATH.items() if f.numeric and case.values.get(p) is not None
+             and f.section not in STATEMENT_SECTIONS]
     paths += [f"costs.replacement[{i}].cost_per_kw" for i in range(len(case.replacements))]
     return paths
 

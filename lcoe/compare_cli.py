@@ -1,0 +1,143 @@
+"""Command line of ``lcoe compare`` and ``lcoe demo --compare``. Thin: parses, runs, prints."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from .errors import InputError
+
+#: The bundled comparison demo: baseline first (fixed tilt), then the candidates.
+DEMO_COMPARE = ("demo_fixed_tilt.toml", "compare_single_axis.toml",
+                "compare_rotating_columns.toml")
+
+
+def _claim_ratio(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not 0.0 < value <= 10.0:
+        raise argparse.ArgumentTypeError(f"{value} is outside (0, 10]; e.g. 0.667 for "
+                                         f"'a third cheaper'")
+    return value
+
+
+def add_options(p, samples_default: bool = True) -> None:
+    """Options of a comparison (shared by ``compare`` and ``demo --compare``)."""
+    from .compare import DEFAULT_SOBOL_BASE
+
+    p.add_argument("--claim-ratio", type=_claim_ratio, default=None, metavar="R",
+                   help="test that each candidate's cost per kWh is at most R times the "
+                        "baseline's (e.g. 0.667 = a third cheaper); default: each candidate's "
+                        "claim.lcoe_ratio, else 1")
+    p.add_argument("--sobol-ratio", type=int, default=DEFAULT_SOBOL_BASE, metavar="N",
+                   help=f"Sobol base samples for the drivers of each ratio (default "
+                        f"{DEFAULT_SOBOL_BASE}; 0 = skip)")
+
+
+def register(sub, non_negative_int, default_seed: int) -> None:
+    """Add the ``compare`` subcommand to the CLI's subparsers."""
+    from .compare import DEFAULT_SAMPLES
+
+    p = sub.add_parser("compare", help="compare cases with common random numbers and test a "
+                                       "candidate's claim against the baseline")
+    p.add_argument("cases", nargs="+", metavar="CASE.toml",
+                   help="the baseline first, then one or more candidates")
+    p.add_argument("--out", help="output folder (default outputs/compare_<baseline>)")
+    p.add_argument("--samples", type=non_negative_int, default=DEFAULT_SAMPLES,
+                   help=f"Monte Carlo trials (default {DEFAULT_SAMPLES})")
+    p.add_argument("--seed", type=non_negative_int, default=default_seed,
+                   help=f"seed of the random generator (default {default_seed})")
+    p.add_argument("--force", action="store_true",
+                   help="write into a non-empty output folder, replacing files")
+    p.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    p.add_argument("--method", choices=("lhs", "random"), default="lhs",
+                   help="Monte Carlo sampling: Latin hypercube (default) or random")
+    add_options(p)
+    p.set_defaults(func=cmd_compare, replace_own=False)
+
+
+def cmd_compare(args) -> int:
+    """Run a comparison from parsed arguments and write its outputs."""
+    from .case import load_case
+    from .cli import Progress
+    from .compare import run_comparison
+    from .export.compare_outputs import write_compare_outputs
+    from .runner import provenance
+
+    if len(args.cases) < 2:
+        raise InputError("lcoe compare: expected a baseline and at least one candidate "
+                         "(lcoe compare BASELINE.toml CANDIDATE.toml ...)")
+    from .output import OutputDir
+
+    cases = [load_case(p) for p in args.cases]
+    out = Path(args.out) if args.out else Path("outputs") / f"compare_{Path(args.cases[0]).stem}"
+    OutputDir(out, force=args.force, replace_own=args.replace_own)  # refuse before computing
+    samples = args.samples if args.samples is not None else 2000
+    result = run_comparison(cases, samples=samples, seed=args.seed,
+                            claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
+                            method=getattr(args, "method", "lhs"),
+                            progress=Progress(not args.quiet))
+    write_compare_outputs(result, out, force=args.force, replace_own=args.replace_own,
+                          provenance={"provenance": provenance(args.seed)})
+    if not args.quiet:
+        print(format_comparison(result))
+        print(f"  wrote {out}/")
+    return 0
+
+
+def run_demo_compare(args) -> int:
+    """``lcoe demo --compare``: the bundled claim test into outputs/demo_compare."""
+    from .cli import INPUTS_DIR
+
+    paths = [INPUTS_DIR / name for name in DEMO_COMPARE]
+    for p in paths:
+        if not p.is_file():
+            raise InputError(f"{p}: bundled demo case not found (install from a clone of the "
+                             f"repository with pip install -e .)")
+    args.cases = [str(p) for p in paths]
+    args.replace_own = args.out is None
+    args.out = args.out or str(Path("outputs") / "demo_compare")
+    return cmd_compare(args)
+
+
+def format_comparison(result) -> str:
+    """The table printed by ``lcoe compare``."""
+    from .claims import audit_sentence, claim_sentence
+    from .compare import drivers
+
+    cur = result.currency
+    lines = [f"  Comparison: {result.samples:,} trials ({result.method}, seed {result.seed}), "
+             f"common random numbers; baseline {result.baseline.name}",
+             f"  {'case':<34}{'LCOE real ' + cur + '/kWh (P10 / P50 / P90)':>38}"
+             f"{'kWh/kW':>9}{'kWh/m2 cells':>14}{'kWh/m2 land':>13}"]
+    import numpy as np
+
+    for o in result.cases:
+        t = o.trials
+        q = np.quantile(t.lcoe_real, (0.1, 0.5, 0.9))
+        lines.append(f"  {o.name[:33]:<34}{q[0]:>16.4f} /{q[1]:>8.4f} /{q[2]:>8.4f}"
+                     f"{np.median(t.energy_per_kw_kwh):>11,.0f}"
+                     f"{np.median(t.energy_per_cell_m2_kwh):>14,.1f}"
+                     f"{np.median(t.energy_per_land_m2_kwh):>13,.1f}")
+    for c in result.claims:
+        o = result.cases[c.index]
+        lines += ["", "  " + claim_sentence(o.name, result.baseline.name, c.claim_ratio,
+                                            c.stats, cur)]
+        top = drivers(c, top=4)
+        if top:
+            lines.append("  The ratio depends most on: " + "; ".join(
+                f"{d['input']} (ST {d['ST']:.2f})" for d in top) + ".")
+    for p in result.pairs:
+        lines.append(f"  {p['case']} against {p['reference']}: ratio {p['q50']:.3g} "
+                     f"({p['q10']:.3g}-{p['q90']:.3g}); at most {p['claim_ratio']:.3g} in "
+                     f"{100 * p['prob_claim_holds']:.1f} % of trials")
+    lines += ["", "  Physics audit:"]
+    for o in result.cases:
+        lines.append(f"  {o.name}: {audit_sentence(o.audit)}")
+        lines += [f"    [{f['verdict']}] {f['message']}" for f in o.audit
+                  if f["verdict"] != "ok"]
+        lines += [f"    caution: {c}" for c in o.cautions]
+    lines += [f"  note: {n}" for n in result.notes]
+    return "\n".join(lines)
