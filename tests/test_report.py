@@ -7,7 +7,7 @@ import re
 
 import numpy as np
 import pytest
-from conftest import DEMO
+from conftest import DEMO, INPUTS
 from helpers.browser import chromium_path, render
 
 from lcoe.case import load_case
@@ -72,3 +72,15 @@ def test_report_renders_in_chromium(hostile, tmp_path):
     grey = px[..., :3].mean(axis=2)
     assert grey.std() > 0.05  # not a blank page
     assert np.mean(grey < 0.5) > 0.005  # some dark text and drawing
+
+
+def test_lender_rows_in_the_report():
+    lender = run_case(INPUTS / "lender_single_axis.toml", samples=0)
+    page = report_html(lender, figures={})
+    b = lender.extras["bankability"].to_summary()
+    for text in ("Debt", "Minimum / average DSCR", "Equity IRR", "Break-even tariff",
+                 f"{b['debt']:,.0f}", f"{b['min_dscr']:.2f}"):
+        assert text in page, text
+    roots = b["irr_roots"]["equity"]["roots"]
+    if b["equity_irr"] is None:  # several roots: all are shown
+        assert all(f"{100 * x:.2f}" in page for x in roots)

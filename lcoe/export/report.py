@@ -101,6 +101,17 @@ def _pct(x) -> str:
     return "-" if x is None else f"{100 * x:.2f}"
 
 
+def _irr(b: dict, key: str, roots_key: str) -> tuple[str, str]:
+    """Value and unit of an IRR: the unique root, or every root the engine found."""
+    if b.get(key) is not None:
+        return _pct(b[key]), "%"
+    found = (b.get("irr_roots") or {}).get(roots_key) or {}
+    roots = found.get("roots") or []
+    if roots:
+        return "several roots: " + ", ".join(f"{100 * x:.2f}" for x in roots), "%"
+    return f"none ({found.get('reason', 'no root')})", ""
+
+
 def _bank_rows(b: dict, cur: str) -> list[str]:
     """Headline rows of the lender's view (from the bankability block's summary)."""
     rows = [
@@ -108,9 +119,9 @@ def _bank_rows(b: dict, cur: str) -> list[str]:
                                                f"{b.get('binding_constraint') or '-'}"),
         _row("Minimum / average DSCR", f"{b['min_dscr']:.2f} / {b['avg_dscr']:.2f}", "-",
              f"LLCR {b['llcr']:.2f}"),
-        _row("Equity IRR", _pct(b.get("equity_irr")), "%",
+        _row("Equity IRR", *_irr(b, "equity_irr", "equity"),
              f"target {_pct(b.get('target_equity_irr'))} %"),
-        _row("Project IRR after tax", _pct(b.get("project_irr")), "%"),
+        _row("Project IRR after tax", *_irr(b, "project_irr", "project_post_tax")),
         _row("Break-even tariff", f"{b['breakeven_tariff_per_kwh']:.4f}", f"{cur}/kWh",
              "flat real, equity at its target IRR"),
     ]

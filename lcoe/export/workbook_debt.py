@@ -256,6 +256,9 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
                              max_row=dr), from_rows=True, titles_from_data=False)
     chart.set_categories(Reference(ws, min_col=year_col(1), max_col=year_col(tenor),
                                    min_row=y.rows["t"], max_row=y.rows["t"]))
+    for series in chart.series:  # straight segments: a smoothed line invents values
+        series.smooth = False
+        series.marker.symbol = "circle"
     chart.legend = None
     chart.height, chart.width = 8, 18
     ws.add_chart(chart, f"A{r + 2}")

@@ -248,8 +248,8 @@ def write_sensitivity_sheet(wb, result: RunResult) -> None:
             r += 1
             for j, k in enumerate(keys):
                 put(ws, r, 1 + j, row[k], "0.00000")
-    widths(ws, {"A": 34, "B": 40, "C": 12, "D": 14, "E": 12, "F": 12, "G": 12, "H": 14,
-                "I": 12, "J": 12, "K": 12, "L": 12, "M": 12})
+    widths(ws, {"A": 34, "B": 40, "C": 22, "D": 22, "E": 22, "F": 22, "G": 22, "H": 22,
+                "I": 12, "J": 12, "K": 22, "L": 22, "M": 16})
     ws.freeze_panes = "A2"
 
 
