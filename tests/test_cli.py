@@ -19,7 +19,8 @@ def _run(*args, cwd=None):
 
 def test_run_writes_summary_and_workbook(tmp_path, capsys):
     out = tmp_path / "res"
-    assert main(["run", str(DEMO), "--out", str(out)]) == 0
+    assert main(["run", str(DEMO), "--out", str(out), "--samples", "64",
+                 "--sobol", "16"]) == 0
     printed = capsys.readouterr().out
     assert "LCOE real" in printed and "Performance ratio" in printed
     s = json.loads((out / "summary.json").read_text())
@@ -39,10 +40,10 @@ def test_non_empty_out_refused_without_force(tmp_path):
     out = tmp_path / "res"
     out.mkdir()
     (out / "mine.txt").write_text("user data")
-    r = _run("run", DEMO, "--out", out)
+    r = _run("run", DEMO, "--out", out, "--samples", "0")
     assert r.returncode == 2 and "not empty" in r.stderr and "Traceback" not in r.stderr
     assert sorted(p.name for p in out.iterdir()) == ["mine.txt"]
-    r = _run("run", DEMO, "--out", out, "--force", "--quiet")
+    r = _run("run", DEMO, "--out", out, "--force", "--quiet", "--samples", "0")
     assert r.returncode == 0 and r.stdout == ""
     assert (out / "summary.json").is_file() and (out / "mine.txt").read_text() == "user data"
 
@@ -79,7 +80,7 @@ def test_missing_file(tmp_path):
 
 
 def test_demo_refreshes_its_own_folder(tmp_path):
-    r1 = _run("demo", "--quiet", cwd=tmp_path)
-    r2 = _run("demo", "--quiet", cwd=tmp_path)
+    r1 = _run("demo", "--quiet", "--samples", "16", "--sobol", "8", cwd=tmp_path)
+    r2 = _run("demo", "--quiet", "--samples", "16", "--sobol", "8", cwd=tmp_path)
     assert r1.returncode == 0 and r2.returncode == 0, r2.stderr
     assert (tmp_path / "outputs" / "demo" / "summary.json").is_file()
