@@ -265,6 +265,10 @@ def test_debt_sheet_agrees_with_engine(runs, recalculated):
         assert min(abs(got - r) for r in irrs[key].roots) < 1e-8 * max(1.0, abs(got)), name
         # ... and the root numpy-financial finds from the engine's flow
         assert got == pytest.approx(npf.irr(flow), rel=1e-8), name
+    # CashFlow foot: NPV and IRR of revenue - total cost (numpy-financial on the engine flow)
+    assert _close(_named(wb, "project_npv_pre_tax"),
+                  npf.npv(runs["lender"].case["finance.discount_rate"],
+                          f.project_flow_pre_tax[0]))
     ws = wb["Debt"]
     labels = {ws.cell(row=r, column=1).value: r for r in range(1, ws.max_row + 1)}
     n = f.cfads.shape[1] - 1

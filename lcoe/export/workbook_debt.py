@@ -238,13 +238,13 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
         if np.isfinite(value):
             engine_columns(ws, r, 3, value, fmt)
         else:  # no unique root: list what the engine found
-            found = roots[name]
-            put_text(ws, r, 4, "engine: " + (", ".join(f"{x:.10f}" for x in found.roots)
-                                           or "none") + f" ({found.reason})")
+            put_text(ws, r, 4, roots_text(roots[name]))
     r += 1
     put_text(ws, r, 1, "IRR(): the spreadsheet finds one root near its 10 % guess; the engine "
                        "finds every root and reports a value only when there is exactly one "
                        "(a last-year decommissioning cost adds a second sign change).")
+
+    write_cashflow_returns(wb, y, cash_rows, irrs["project_pre_tax"], cur)
 
     tenor = int(case["debt.tenor_years"])
     chart = LineChart()
@@ -266,6 +266,54 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
     for t in range(n + 1):
         ws.column_dimensions[col_letter(year_col(t))].width = 14
     ws.freeze_panes = ws.cell(row=y.rows["t"] + 1, column=YEAR0_COL).coordinate
+
+
+def roots_text(found) -> str:
+    """The engine's IRR roots when there is no unique one, e.g. ``engine: -0.91, 0.075 (...)``."""
+    return "engine: " + (", ".join(f"{x:.10f}" for x in found.roots) or "none") + \
+        f" ({found.reason})"
+
+
+def write_cashflow_returns(wb, y: YearRows, cash_rows: dict, pre_tax_irr, cur: str) -> None:
+    """Revenue, net cash flow, its NPV and IRR at the foot of the CashFlow sheet.
+
+    The net cash flow before tax and financing is revenue - total cost (capex included), the
+    engine's pre-tax project flow; its NPV is at the nominal discount rate.
+    """
+    ws = wb["CashFlow"]
+    n = y.n
+    last = col_letter(year_col(n))
+    r = ws.max_row + 2
+    title(ws, r, "Revenue and project return before tax and financing (bankability)")
+    r += 1
+    put_text(ws, r, 1, "Revenue (Debt sheet: energy sold x price)")
+    put_text(ws, r, 2, cur)
+    rev = r
+    for t in range(n + 1):
+        L = col_letter(year_col(t))
+        put_formula(ws, r, year_col(t), f"=Debt!{L}${y.rows['revenue']}", FMT_MONEY)
+    r += 1
+    put_text(ws, r, 1, "Net cash flow = revenue - total cost")
+    put_text(ws, r, 2, cur)
+    net = r
+    for t in range(n + 1):
+        L = col_letter(year_col(t))
+        put_formula(ws, r, year_col(t), f"={L}{rev}-{L}{cash_rows['total_cost']}", FMT_MONEY)
+    r += 2
+    header(ws, r, ("Quantity", "unit", "Workbook formula", "Engine value"))
+    r += 1
+    put_text(ws, r, 1, "NPV of the net cash flow at the nominal discount rate")
+    put_text(ws, r, 2, cur)
+    put_formula(ws, r, 3, f"=C{net}+NPV(discount_rate,D{net}:{last}{net})", FMT_MONEY)
+    define_name(wb, "project_npv_pre_tax", ws, r, 3)
+    r += 1
+    put_text(ws, r, 1, "IRR of the net cash flow (project IRR before tax)")
+    put_text(ws, r, 2, "1/year")
+    put_formula(ws, r, 3, f"=IRR(C{net}:{last}{net})", FMT_RATE)
+    if np.isfinite(pre_tax_irr.value):
+        engine_columns(ws, r, 3, pre_tax_irr.value, FMT_RATE)
+    else:
+        put_text(ws, r, 4, roots_text(pre_tax_irr))
 
 
 def tax_rows(y: YearRows, p: str, interest: str, cur: str, capex: str, label: str = "") -> None:
