@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import resource
 import tempfile
 import time
 from pathlib import Path
@@ -65,6 +66,13 @@ def plan_text(sites: list[dict], samples: int) -> str:
     return "\n".join(lines)
 
 
+def cpu_seconds() -> tuple[float, float]:
+    """CPU time [s] of this process and of its finished children (the worker processes)."""
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return me.ru_utime + me.ru_stime, kids.ru_utime + kids.ru_stime
+
+
 def identical(a, b) -> bool:
     """True when two sweep results hold bit-identical trials."""
     if a.trials.keys() != b.trials.keys():
@@ -109,21 +117,32 @@ def main(argv=None) -> int:
 
         print("load average before: {:.2f} {:.2f} {:.2f} (other work on the machine slows "
               "the parallel run)".format(*os.getloadavg()))
+        c0 = cpu_seconds()
         t0 = time.perf_counter()
         serial = run_sweep(plan, workers=1)
         t_serial = time.perf_counter() - t0
-        print(f"serial:    {t_serial:8.1f} s  {n_trials / t_serial:8.0f} trials/s")
+        c1 = cpu_seconds()
+        cpu_serial = c1[0] - c0[0]
+        print(f"serial:    {t_serial:8.1f} s  {n_trials / t_serial:8.0f} trials/s  "
+              f"(CPU {cpu_serial:.1f} s)")
 
         t0 = time.perf_counter()
         parallel = run_sweep(plan, workers=args.workers)
         t_par = time.perf_counter() - t0
+        c2 = cpu_seconds()
+        cpu_workers, cpu_driver = c2[1] - c1[1], c2[0] - c1[0]
         print(f"{args.workers} workers: {t_par:8.1f} s  {n_trials / t_par:8.0f} trials/s  "
-              f"({parallel.execution}; cluster start-up included)")
+              f"({parallel.execution}; cluster start-up included; CPU: workers "
+              f"{cpu_workers:.1f} s, driver {cpu_driver:.1f} s)")
 
         print("load average after:  {:.2f} {:.2f} {:.2f}".format(*os.getloadavg()))
         speedup = t_serial / t_par
         verdict = "meets" if speedup >= TARGET_SPEEDUP else "MISSES"
         print(f"speed-up:  {speedup:.2f}x ({verdict} the {TARGET_SPEEDUP}x target)")
+        print(f"CPU cost of distributing: workers + driver use "
+              f"{(cpu_workers + cpu_driver) / cpu_serial:.2f}x the serial CPU time; with "
+              f"{args.workers} idle cores the wall-time speed-up would be about "
+              f"{args.workers * cpu_serial / max(cpu_workers, cpu_driver * args.workers):.2f}x")
         print(f"bit-identical serial vs {args.workers} workers: {identical(serial, parallel)}")
         print(f"failures:  serial {len(serial.failures)}, parallel {len(parallel.failures)}")
 

@@ -230,7 +230,13 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
             if fut.status == "finished":
                 results[i] = fut.result()
             else:
-                errors[i] = _one_line(fut.exception())
+                try:
+                    exc = fut.exception()
+                except BaseException as cancelled:  # a cancelled task has no exception
+                    if isinstance(cancelled, KeyboardInterrupt):
+                        raise
+                    exc = cancelled
+                errors[i] = _one_line(exc)
             fut.release()
             done += 1
             if progress:

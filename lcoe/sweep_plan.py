@@ -411,6 +411,7 @@ def _build_run(site: SweepSite, tech: Technology, tech_raw: Mapping, plan_unc: M
     overridden = {_pair_key(e) for e in plan_pairs}
     own = [e for e in raw.get("correlation", [])
            if not (isinstance(e, Mapping) and isinstance(e.get("between"), list)
+                   and all(isinstance(b, str) for b in e["between"])
                    and _pair_key(e) in overridden)]
     raw["correlation"] = []
     case0 = case_from_dict(raw, source=source, base_dir=base_dir)

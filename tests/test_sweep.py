@@ -27,7 +27,7 @@ from lcoe.sweep import (
     run_sweep,
 )
 from lcoe.sweep_plan import chunk_bounds, load_plan
-from lcoe.sweep_trials import common_draws, prob_cheapest
+from lcoe.sweep_trials import common_draws, prob_cheapest, yearly_factors
 
 needs_dask = pytest.mark.skipif(importlib.util.find_spec("distributed") is None,
                                 reason="dask.distributed not installed "
@@ -104,6 +104,19 @@ def test_common_draws_depend_only_on_seed_and_chunk():
     assert all(np.array_equal(np.sort(np.floor(u1[:, j] * 50)), np.arange(50)) for j in range(2))
 
 
+def test_yearly_factors_from_common_scores():
+    z = np.random.default_rng(1).standard_normal((20000, 3))
+    f = yearly_factors(z, 0.04, None)
+    assert np.array_equal(f, np.maximum(1.0 + 0.04 * z, 0.05))
+    assert np.array_equal(yearly_factors(z, 0.0, None), np.ones_like(z))
+    # Multi-year weather file: each calendar year picked with probability 1/k via Phi(z).
+    ratios = np.array([0.9, 1.0, 1.05, 1.05])
+    picked = yearly_factors(z, 0.04, ratios)
+    assert set(np.unique(picked)) <= set(ratios)
+    share = np.mean(picked == 0.9)
+    assert share == pytest.approx(0.25, abs=0.01)  # binomial sd 0.0018 for 60000 draws
+
+
 def test_shared_input_same_draw_in_every_site_and_technology(serial_result):
     trials = serial_result.trials
     assert len(trials) == 6
@@ -176,20 +189,28 @@ def test_table_statistics_from_trials(serial_result):
 def test_no_uncertainty_reproduces_the_deterministic_model(tmp_path):
     """Cross-check against lcoe.model.evaluate: without uncertain inputs every trial is the
     deterministic case, bit for bit."""
+    from lcoe.case import load_case
     from lcoe.model import evaluate, prepare
 
     text = DEMO.read_text(encoding="utf-8").split("# ---- What Larkspur is unsure of")[0]
     tech = write_plan(tmp_path, text, "plain.toml")
-    plan = load_plan(write_plan(tmp_path, plan_toml(sites=site_toml("Mossfield", 51.0, 4.0,
-                                                                    CLOUDY),
-                                                    techs=(tech,), samples=6, chunk=3)))
+    # Second site: no weather and no monthly values = the TMY3 file bundled with pvlib.
+    station = ('[[sites]]\nname = "Station"\nlatitude_deg = 36.1\nlongitude_deg = -79.95\n'
+               'altitude_m = 273.0\ntimezone = "Etc/GMT+5"\n')
+    plan = load_plan(write_plan(tmp_path, plan_toml(
+        sites=site_toml("Mossfield", 51.0, 4.0, CLOUDY) + station, techs=(tech,), samples=6,
+        chunk=3)))
     result = run_sweep(plan)
-    case = plan.runs[0].case()
-    base = evaluate(case, prepare(case))
-    t = result.trials[("Mossfield", "plain")]
-    assert np.all(t.lcoe_real == base.cashflow.lcoe_real[0])
-    assert np.all(t.energy_kwh == base.energy.annual_kwh[0])
-    assert result.rows[0].prob_cheapest == 1.0
+    for run in plan.runs:
+        case = run.case()
+        base = evaluate(case, prepare(case))
+        t = result.trials[(run.site, "plain")]
+        assert np.all(t.lcoe_real == base.cashflow.lcoe_real[0])
+        assert np.all(t.energy_kwh == base.energy.annual_kwh[0])
+    assert [r.prob_cheapest for r in result.rows] == [1.0, 1.0]
+    # The bundled-weather site is the demo case's own site: the same LCOE as the demo case.
+    demo = load_case(DEMO)
+    assert result.rows[1].lcoe_real_q50 == evaluate(demo, prepare(demo)).cashflow.lcoe_real[0]
 
 
 def test_sweep_agrees_with_single_case_engine(serial_result):
