@@ -21,6 +21,7 @@ from .schema import (
     EXTRA_KEYS,
     FIELD_BY_PATH,
     FIELDS,
+    MOVING_PART_FIELDS,
     REPLACEMENT_FIELDS,
     REQUIRED,
     SECTIONS,
@@ -72,6 +73,45 @@ class BodyFacet:
 
 
 @dataclass(frozen=True)
+class MovingPart:
+    """Parts that wear out and fail at random (``[[costs.moving_part]]``).
+
+    Parameters
+    ----------
+    item : str
+        What fails.
+    units : float
+        Number of such parts in the plant, or on each body when ``per == "body"``.
+    per : {"plant", "body"}
+    mean_years : float or None
+        Mean life with exponential lives [years].
+    shape, scale_years : float or None
+        Weibull shape [-] and scale [years] of the life.
+    cost_each : float
+        Cost of one replacement in year-0 money [currency].
+    repair_days : float
+        Days a unit delivers nothing after a failure [days].
+    damage_fraction : float
+        Expected share of the capital cost of the equipment a part serves destroyed by a
+        failure [-].
+    """
+
+    item: str
+    units: float
+    per: str
+    mean_years: float | None
+    shape: float | None
+    scale_years: float | None
+    cost_each: float
+    repair_days: float
+    damage_fraction: float
+
+    @property
+    def weibull(self) -> bool:
+        return self.mean_years is None
+
+
+@dataclass(frozen=True)
 class Case:
     """A validated case: flat dotted values with defaults filled in, plus list tables.
 
@@ -101,6 +141,8 @@ class Case:
         1.00x, common practice).
     body_facets : tuple of BodyFacet
         The ``[[plant.body.facet]]`` list (``plant.body.shape = "facets"``).
+    moving_parts : tuple of MovingPart
+        The ``[[costs.moving_part]]`` list.
     """
 
     source: str
@@ -114,6 +156,7 @@ class Case:
     sections: frozenset = frozenset()
     debt_sizing: tuple[tuple[str, float], ...] = ()
     body_facets: tuple[BodyFacet, ...] = ()
+    moving_parts: tuple[MovingPart, ...] = ()
 
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
@@ -137,6 +180,7 @@ class Case:
             vals[path] = _coerce(FIELD_BY_PATH[path], v, self.source)
         _check_cross_fields(vals, self.replacements, self.source)
         _check_body(vals, self.body_facets, self.source)
+        _check_moving_parts(vals, self.moving_parts, self.source)
         return replace(self, values=MappingProxyType(vals))
 
 
@@ -220,6 +264,9 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         raise field_error(source, "plant.mount", values["plant.mount"],
                           '"body" when a [plant.body] table is given (or remove the table)')
     _check_body(values, body_facets, source)
+    moving_parts = _read_list(tables["costs"].get("moving_part", []), "costs.moving_part",
+                              MOVING_PART_FIELDS, MovingPart, source)
+    _check_moving_parts(values, moving_parts, source)
     monthly = _read_monthly(data.get("site", {}).get("monthly"), values, source)
     sections = frozenset(k for k in data if k in SECTIONS)
     if "revenue" in sections and values["revenue.tariff_per_kwh"] is None:
@@ -236,7 +283,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
                 values=MappingProxyType(values), replacements=tuple(replacements),
                 uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
                 monthly=monthly, sections=sections, debt_sizing=sizing,
-                body_facets=tuple(body_facets))
+                body_facets=tuple(body_facets), moving_parts=tuple(moving_parts))
 
 
 def _section_table(data: Mapping[str, Any], section: str, source: str) -> Mapping[str, Any]:
@@ -440,3 +487,20 @@ def _check_body(values: Mapping[str, Any], facets, source: str) -> None:
         raise field_error(source, "plant.body.drive_power_w", values["plant.body.drive_power_w"],
                           "0 unless plant.body.rotating = true (only a rotating body has a "
                           "drive)")
+
+
+def _check_moving_parts(values: Mapping[str, Any], parts, source: str) -> None:
+    """Each moving part has one form of life; parts counted per body need bodies."""
+    for i, part in enumerate(parts):
+        where = f"costs.moving_part[{i}]"
+        weibull = (part.shape is not None, part.scale_years is not None)
+        if part.mean_years is not None and any(weibull):
+            raise InputError(f"{source}: {where}: give the life either as mean_years "
+                             f"(exponential) or as shape and scale_years (Weibull), not both")
+        if part.mean_years is None and not all(weibull):
+            raise InputError(f"{source}: missing key '{where}.mean_years' (mean life [years], "
+                             f"exponential) or both '{where}.shape' and '{where}.scale_years' "
+                             f"(Weibull)")
+        if part.per == "body" and values["plant.mount"] != "body":
+            raise field_error(source, f"{where}.per", part.per,
+                              '"plant" unless plant.mount = "body"')

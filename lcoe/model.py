@@ -147,7 +147,7 @@ def prepare(case: Case, weather: Weather | None = None) -> Site:
 
 
 def base_params(case: Case, n_samples: int = 1) -> dict:
-    """Every numeric case value (and replacement costs) as arrays of shape (n_samples,)."""
+    """Every numeric case value (and those of list tables) as arrays of shape (n_samples,)."""
     out = {}
     for path, value in case.values.items():
         if isinstance(value, (int, float)) and not isinstance(value, bool):
@@ -155,6 +155,11 @@ def base_params(case: Case, n_samples: int = 1) -> dict:
     for i, r in enumerate(case.replacements):
         out[f"costs.replacement[{i}].cost_per_kw"] = np.full(n_samples, r.cost_per_kw)
         out[f"costs.replacement[{i}].every_years"] = np.full(n_samples, float(r.every_years))
+    if case.moving_parts:
+        from .moving_parts import base_values
+
+        for path, value in base_values(case.moving_parts).items():
+            out[path] = np.full(n_samples, value)
     return out
 
 
@@ -258,7 +263,9 @@ def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
     """Lifetime cash flow and LCOE from the energy of :func:`evaluate`, vectorised.
 
     Split from :func:`evaluate` so that the finance can be re-run on the same physics (e.g.
-    at another capex per kW, which LCOE depends on affinely).
+    at another capex per kW, which LCOE depends on affinely). Moving parts
+    (:mod:`lcoe.moving_parts`) add a ``moving_parts`` cost line and take the energy lost while
+    parts are down off each year's energy.
 
     Parameters
     ----------
@@ -277,7 +284,14 @@ def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
     life = int(case["case.lifetime_years"])
     e_by_year = energy_by_year(energy.annual_kwh, params["plant.degradation_per_year"], life,
                                weather_factors)
-    return build_cashflow(params, case.replacements, life, e_by_year)
+    extra = None
+    if case.moving_parts:
+        from .moving_parts import moving_part_lines
+
+        cost, lost, _ = moving_part_lines(case.moving_parts, params, energy.n_bodies, life)
+        e_by_year[:, 1:] *= 1.0 - lost
+        extra = {"moving_parts": cost}
+    return build_cashflow(params, case.replacements, life, e_by_year, extra)
 
 
 def _merge(parts, n_s: int) -> EnergyResult:

@@ -280,11 +280,34 @@ BODY_FACET_FIELDS: tuple[Field, ...] = (
       low_open=True),
 )
 
+#: Keys of each ``[[costs.moving_part]]`` entry: parts that wear out and fail (drives, motors,
+#: bearings, actuators). Give the life as ``mean_years`` (exponential) or as Weibull ``shape``
+#: and ``scale_years``.
+MOVING_PART_FIELDS: tuple[Field, ...] = (
+    F("costs.moving_part.item", "str", "-", "What fails and is replaced (e.g. a column drive)"),
+    F("costs.moving_part.units", "float", "-", "How many such parts: in the plant, or on each "
+      "body (per = \"body\")", low=0, low_open=True),
+    F("costs.moving_part.per", "choice", "-", "Whether units counts parts in the plant or on "
+      "each body", choices=("plant", "body"), default="plant"),
+    F("costs.moving_part.mean_years", "float", "years", "Mean life with exponential lives "
+      "(constant failure rate)", low=0, low_open=True, optional=True, typical="5-20"),
+    F("costs.moving_part.shape", "float", "-", "Weibull shape k of the life (1 = exponential, "
+      "> 1 wear-out)", low=0.2, high=20, optional=True, typical="1.5-4 for wear-out"),
+    F("costs.moving_part.scale_years", "float", "years", "Weibull scale of the life", low=0,
+      low_open=True, optional=True, typical="5-25"),
+    F("costs.moving_part.cost_each", "float", "currency", "Cost of one replacement, parts and "
+      "labour, in year-0 money, escalated with inflation", low=0),
+    F("costs.moving_part.repair_days", "float", "days", "Days a unit delivers nothing after a "
+      "failure", default=0.0, low=0, high=365),
+    F("costs.moving_part.damage_fraction", "float", "-", "Expected share of the capital cost of "
+      "the equipment a part serves that a failure destroys", default=0.0, low=0, high=1),
+)
+
 FIELD_BY_PATH: dict[str, Field] = {f.path: f for f in FIELDS}
 SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(f.section for f in FIELDS))
 #: Sections that hold lists or tables handled outside the scalar schema.
 EXTRA_KEYS: dict[str, tuple[str, ...]] = {
-    "costs": ("replacement",),
+    "costs": ("replacement", "moving_part"),
     "site": ("monthly",),
     "debt": ("sizing",),
     "plant.body": ("facet",),
@@ -294,6 +317,18 @@ EXTRA_KEYS: dict[str, tuple[str, ...]] = {
 
 #: Sections whose numbers are statements to test, not inputs of the model.
 STATEMENT_SECTIONS: tuple[str, ...] = ("claim",)
+
+
+def list_field(path: str) -> Field | None:
+    """The Field of an entry of a list table by indexed path, e.g.
+    ``costs.moving_part[0].mean_years`` -> the ``mean_years`` field; None when unknown."""
+    if "[" not in path or "]." not in path:
+        return None
+    table, key = path.split("[", 1)[0], path.rsplit("].", 1)[1]
+    for f in REPLACEMENT_FIELDS + MOVING_PART_FIELDS + BODY_FACET_FIELDS:
+        if f.path == f"{table}.{key}":
+            return f
+    return None
 
 
 def numeric_paths() -> list[str]:

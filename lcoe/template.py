@@ -7,7 +7,7 @@ bundled weather file.
 
 from __future__ import annotations
 
-from .schema import FIELDS, REPLACEMENT_FIELDS, REQUIRED, Field
+from .schema import FIELDS, MOVING_PART_FIELDS, REPLACEMENT_FIELDS, REQUIRED, Field
 
 #: Example values for keys that have no default (a runnable case at the bundled site).
 EXAMPLES = {
@@ -92,6 +92,15 @@ def template_text() -> str:
                       "[[costs.replacement]]"]
             for rf, v in zip(REPLACEMENT_FIELDS, ("inverters", 12, 60.0)):
                 lines += _line(rf, v)
+            lines += ["", "# Moving parts that fail at random (optional; one table each). Life: "
+                          "mean_years, or Weibull", "# shape and scale_years.",
+                      "# [[costs.moving_part]]"]
+            example = {"item": "tracker motor", "units": 400.0, "per": "plant",
+                       "mean_years": 12.0, "cost_each": 900.0, "repair_days": 5.0,
+                       "damage_fraction": 0.0}
+            for mf in MOVING_PART_FIELDS:
+                if mf.key in example:
+                    lines += _line(mf, example[mf.key], commented=True)
     lines += [
         "",
         "# Uncertain inputs (optional): any numeric key above by its dotted path, e.g.",

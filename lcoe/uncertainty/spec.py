@@ -2,7 +2,9 @@
 
 Any numeric case input can be made uncertain by its dotted path, e.g.
 ``"costs.capex_per_kw" = { dist = "triangular", low = 850, mode = 950, high = 1150 }``;
-scheduled replacement costs by ``"costs.replacement[0].cost_per_kw"``.
+scheduled replacement costs by ``"costs.replacement[0].cost_per_kw"``; moving parts by
+``"costs.moving_part[0].mean_years"`` (and ``units``, ``shape``, ``scale_years``,
+``cost_each``, ``repair_days``, ``damage_fraction``).
 
 Energy uncertainty the way lenders treat it, in ``[uncertain.energy]`` (all fractions, 1 sigma):
 
@@ -24,7 +26,7 @@ import numpy as np
 
 from ..case import Case
 from ..errors import InputError, field_error, unknown_key_error
-from ..schema import FIELD_BY_PATH, STATEMENT_SECTIONS
+from ..schema import FIELD_BY_PATH, STATEMENT_SECTIONS, list_field
 from .distributions import Distribution, parse_distribution
 from .sampling import correlation_matrix
 
@@ -73,6 +75,10 @@ def valid_paths(case: Case) -> list[str]:
     paths = [p for p, f in FIELD_BY_PATH.items() if f.numeric and case.values.get(p) is not None
              and f.section not in STATEMENT_SECTIONS]
     paths += [f"costs.replacement[{i}].cost_per_kw" for i in range(len(case.replacements))]
+    if case.moving_parts:
+        from ..moving_parts import base_values
+
+        paths += list(base_values(case.moving_parts))
     return paths
 
 
@@ -130,8 +136,8 @@ def read_spec(case: Case) -> UncertainSpec:
 
 def _check_support(d: Distribution, src: str) -> None:
     """Refuse a distribution that can leave the input's allowed range (suggest truncation)."""
-    f = FIELD_BY_PATH.get(d.name)
-    if f is None:  # replacement costs: non-negative
+    f = FIELD_BY_PATH.get(d.name) or list_field(d.name)
+    if f is None:  # anything else: non-negative
         lo_allowed, hi_allowed = 0.0, math.inf
     else:
         lo_allowed, hi_allowed = f.low, f.high

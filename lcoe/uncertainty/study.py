@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..case import Case
-from ..model import Site
+from ..model import Site, base_params
 from ..rng import make_rng
 from .engine import (
     OUTPUTS,
@@ -238,5 +238,4 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
 def _case_value(case: Case, path: str) -> float:
     if path in case.values:
         return float(case[path])
-    i = int(path.split("[")[1].split("]")[0])  # costs.replacement[i].cost_per_kw
-    return float(case.replacements[i].cost_per_kw)
+    return float(base_params(case)[path][0])  # list tables, e.g. costs.moving_part[0].units
