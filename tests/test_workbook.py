@@ -369,6 +369,30 @@ def test_readback_keeps_bankability_tables(runs):
     assert case.sections == lender.sections and case.debt_sizing == lender.debt_sizing
 
 
+def test_readback_keeps_nested_tables_and_lists(tmp_path):
+    """A body of facets: the nested [plant.body] table and [[plant.body.facet]] list."""
+    from lcoe.schema import FIELD_BY_PATH
+
+    if "plant.body.shape" not in FIELD_BY_PATH:
+        pytest.skip("this schema has no [plant.body]")
+    data = {
+        "case": {"name": "facets", "lifetime_years": 20},
+        "site": {"latitude_deg": 36.1, "longitude_deg": -79.95, "altitude_m": 273.0},
+        "plant": {"mount": "body", "dc_capacity_kw": 500.0,
+                  "body": {"shape": "facets", "spacing_m": 6.0,
+                           "facet": [{"tilt_deg": 30.0, "azimuth_deg": 135.0, "area_m2": 2.0},
+                                     {"tilt_deg": 30.0, "azimuth_deg": 225.0, "area_m2": 2.0}]}},
+        "costs": {"capex_per_kw": 1500.0},
+        "finance": {"discount_rate": 0.07},
+    }
+    case = case_from_dict(data, source=str(tmp_path / "facets.toml"), base_dir=tmp_path)
+    path = tmp_path / "facets.xlsx"
+    write_workbook(run_case(case, samples=0), path)
+    back = case_from_workbook(path)
+    assert dict(back.values) == dict(case.values)
+    assert back.body_facets == case.body_facets and len(back.body_facets) == 2
+
+
 def test_readback_hostile_text_round_trips(runs):
     case = case_from_workbook(runs["paths"]["hostile"])
     assert case.name == HOSTILE[0] and case["case.description"] == HOSTILE[1]

@@ -19,10 +19,9 @@ from typing import Any
 from ..case import Case, case_from_dict
 from ..errors import InputError
 from ..schema import FIELD_BY_PATH, REQUIRED
-from .workbook import CASE_SHEET
+from .workbook import CASE_SHEET, list_fields
 
-_REPLACEMENT = re.compile(r"^costs\.replacement\[(\d+)\]\.(item|every_years|cost_per_kw)$")
-_REPLACEMENT_KINDS = {"item": "str", "every_years": "int", "cost_per_kw": "float"}
+_LIST_KEY = re.compile(r"^([a-z_.]+)\[(\d+)\]\.(\w+)$")
 
 
 def case_from_workbook(path: str | Path) -> Case:
@@ -65,7 +64,7 @@ def case_from_workbook(path: str | Path) -> Case:
             raise InputError(f"{src}: not a workbook written by lcoe (it needs the sheets "
                              f"'Inputs' and '{CASE_SHEET}')")
         tables = _read_tables(wb[CASE_SHEET], src)
-        entries = _read_inputs(wb["Inputs"], wb_cached["Inputs"], src)
+        entries = _read_inputs(wb["Inputs"], wb_cached["Inputs"], src, list_fields())
     finally:
         wb.close()
         wb_cached.close()
@@ -91,7 +90,7 @@ def _read_tables(ws, src: str) -> dict:
     return tables
 
 
-def _read_inputs(ws, ws_cached, src: str) -> dict[str, Any]:
+def _read_inputs(ws, ws_cached, src: str, lists: dict) -> dict[str, Any]:
     """Key -> value of the rows of the Inputs sheet, down to the first row without a key."""
     out: dict[str, Any] = {}
     rows = ws.iter_rows(min_row=2, max_col=2)
@@ -103,7 +102,7 @@ def _read_inputs(ws, ws_cached, src: str) -> dict[str, Any]:
             break
         key = str(key).strip()
         where = f"{src}: Inputs!B{key_cell.row} ({key})"
-        kind = _kind(key, src, key_cell.row)
+        kind = _kind(key, src, key_cell.row, lists)
         value = None if value_cell is None else value_cell.value
         if value_cell is not None and value_cell.data_type == "f":
             value = values[1] if len(values) > 1 else None
@@ -117,15 +116,25 @@ def _read_inputs(ws, ws_cached, src: str) -> dict[str, Any]:
     return out
 
 
-def _kind(key: str, src: str, row: int) -> str:
+def _kind(key: str, src: str, row: int, lists: dict) -> str:
     f = FIELD_BY_PATH.get(key)
     if f is not None:
         return f.kind
-    m = _REPLACEMENT.match(key)
-    if m:
-        return _REPLACEMENT_KINDS[m.group(2)]
+    m = _LIST_KEY.match(key)
+    if m and m.group(1) in lists:
+        for lf in lists[m.group(1)]:
+            if lf.key == m.group(3):
+                return lf.kind
     raise InputError(f"{src}: Inputs!A{row}: unknown key {key!r}; keys are the dotted names "
                      f"lcoe wrote in column A (e.g. 'costs.capex_per_kw')")
+
+
+def _table(data: dict, dotted: str) -> dict:
+    """The nested table at a dotted section path, created when missing."""
+    table = data
+    for part in dotted.split("."):
+        table = table.setdefault(part, {})
+    return table
 
 
 def _typed(kind: str, value: Any) -> Any:
@@ -162,37 +171,41 @@ def _typed(kind: str, value: Any) -> Any:
 
 
 def _nested(entries: dict[str, Any], tables: dict) -> dict:
-    """The nested tables of a case file from the Inputs rows and the stored list tables."""
-    sections_present = set(tables.get("sections") or ())
-    data: dict[str, dict] = {}
-    replacements: dict[int, dict] = {}
+    """The nested tables of a case file from the Inputs rows and the stored list tables.
+
+    A section that was in the case file is written with all its values; a section that was
+    not (its values are the defaults) only when one of its values now differs from the
+    default, so that an untouched optional section (e.g. ``[revenue]``) stays absent.
+    """
+    present = set(tables.get("sections") or ())
+    chosen: set[str] = set()
+    lists: dict[str, dict[int, dict]] = {}
     for key, value in entries.items():
-        m = _REPLACEMENT.match(key)
+        m = _LIST_KEY.match(key)
         if m:
             if value is not None:
-                replacements.setdefault(int(m.group(1)), {})[m.group(2)] = value
-            continue
-        if value is None:
+                lists.setdefault(m.group(1), {}).setdefault(int(m.group(2)), {})[
+                    m.group(3)] = value
             continue
         f = FIELD_BY_PATH[key]
-        section = f.section
-        non_default = f.default is REQUIRED or value != f.default
-        if section in sections_present or non_default or section in data:
-            data.setdefault(section, {})[f.key] = value
-    # a section that was not in the case file keeps defaults only when nothing in it changed;
-    # once one of its keys differs, all of its listed values are taken
+        # presence is recorded for top-level tables; a nested one (e.g. [plant.body]) is
+        # written when one of its values differs from the default
+        if value is not None and (f.section in present or f.default is REQUIRED
+                                  or value != f.default):
+            chosen.add(f.section)
+    data: dict[str, Any] = {}
     for key, value in entries.items():
         f = FIELD_BY_PATH.get(key)
-        if f is not None and value is not None and f.section in data:
-            data[f.section].setdefault(f.key, value)
-    if replacements:
-        data.setdefault("costs", {})["replacement"] = [replacements[i]
-                                                        for i in sorted(replacements)]
+        if f is not None and value is not None and f.section in chosen:
+            _table(data, f.section)[f.key] = value
+    for path, items in lists.items():
+        parent, _, name = path.rpartition(".")
+        _table(data, parent)[name] = [items[i] for i in sorted(items)]
     if tables.get("monthly"):
-        data.setdefault("site", {})["monthly"] = tables["monthly"]
-    if tables.get("debt_sizing") and "debt" in sections_present:
-        data.setdefault("debt", {})["sizing"] = [{"case": c, "min_dscr": v}
-                                                 for c, v in tables["debt_sizing"]]
+        _table(data, "site")["monthly"] = tables["monthly"]
+    if tables.get("debt_sizing") and "debt" in present:
+        _table(data, "debt")["sizing"] = [{"case": c, "min_dscr": v}
+                                         for c, v in tables["debt_sizing"]]
     if tables.get("uncertain"):
         data["uncertain"] = tables["uncertain"]
     if tables.get("correlation"):

@@ -218,6 +218,31 @@ def input_names(paths) -> dict:
     return out
 
 
+#: Lists of tables of a case: (dotted path, Case attribute, name of the schema's field table).
+LIST_TABLE_SPECS = (("costs.replacement", "replacements", "REPLACEMENT_FIELDS"),
+                    ("plant.body.facet", "body_facets", "BODY_FACET_FIELDS"),
+                    ("costs.moving_part", "moving_parts", "MOVING_PART_FIELDS"))
+
+
+def list_fields() -> dict:
+    """Fields of each list of tables the schema defines, ``{path: (Field, ...)}``."""
+    from .. import schema
+
+    out = {}
+    for path, _, table in LIST_TABLE_SPECS:
+        fields = getattr(schema, table, None)
+        if fields:
+            out[path] = tuple(fields)
+    return out
+
+
+def list_tables(case) -> list:
+    """``(path, entries, fields)`` of every non-empty list of tables of ``case``."""
+    fields = list_fields()
+    return [(path, getattr(case, attr, ()), fields[path]) for path, attr, _ in LIST_TABLE_SPECS
+            if path in fields and getattr(case, attr, ())]
+
+
 def replacement_name(i: int, key: str) -> str:
     """Defined name of replacement ``i`` (0-based) field ``key``."""
     return f"replacement_{i + 1}_{key}"
@@ -414,23 +439,21 @@ def write_inputs_sheet(wb, result: RunResult) -> dict:
         put_text(ws, r, 7, f.doc if f else "")
         put_text(ws, r, 8, note)
         r += 1
-    for i, rep in enumerate(case.replacements):
-        for key, unit, val in (("item", "-", rep.item), ("every_years", "years", rep.every_years),
-                               ("cost_per_kw", f"{cur}/kW", rep.cost_per_kw)):
-            path_ = f"costs.replacement[{i}].{key}"
-            put_text(ws, r, 1, path_)
-            put(ws, r, 2, val)
-            put_text(ws, r, 3, unit)
-            if key != "item":
-                name = replacement_name(i, key)
-                names[path_] = name
-                define_name(wb, name, ws, r, 2)
-                put_text(ws, r, 6, name)
-            _distribution_cells(ws, r, dists.get(path_))
-            put_text(ws, r, 7, {"item": "What is replaced",
-                                "every_years": "Interval between replacements",
-                                "cost_per_kw": "Cost of each replacement in year-0 money"}[key])
-            r += 1
+    for path, entries, fields in list_tables(case):
+        for i, entry in enumerate(entries):
+            for f in fields:
+                key = f"{path}[{i}].{f.key}"
+                put_text(ws, r, 1, key)
+                put(ws, r, 2, getattr(entry, f.key, None))
+                put_text(ws, r, 3, f.unit.replace("currency", cur))
+                if path == "costs.replacement" and f.numeric:
+                    name = replacement_name(i, f.key)
+                    names[key] = name
+                    define_name(wb, name, ws, r, 2)
+                    put_text(ws, r, 6, name)
+                _distribution_cells(ws, r, dists.get(key))
+                put_text(ws, r, 7, f.doc)
+                r += 1
     energy_dists = [d for d in dists.values() if d.name.startswith("energy.")]
     if unc is not None and (energy_dists or unc.spec.interannual_cov):
         r += 1
