@@ -179,7 +179,7 @@ class Case:
                 raise unknown_key_error(self.source, path, FIELD_BY_PATH)
             vals[path] = _coerce(FIELD_BY_PATH[path], v, self.source)
         _check_cross_fields(vals, self.replacements, self.source)
-        _check_body(vals, self.body_facets, self.source)
+        _check_mount(vals, self.body_facets, self.source)
         _check_moving_parts(vals, self.moving_parts, self.source)
         return replace(self, values=MappingProxyType(vals))
 
@@ -260,10 +260,12 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
     _check_cross_fields(values, replacements, source)
     body_facets = _read_list(tables["plant.body"].get("facet", []), "plant.body.facet",
                              BODY_FACET_FIELDS, BodyFacet, source)
-    if "body" in data.get("plant", {}) and values["plant.mount"] != "body":
-        raise field_error(source, "plant.mount", values["plant.mount"],
-                          '"body" when a [plant.body] table is given (or remove the table)')
-    _check_body(values, body_facets, source)
+    for table, mount in (("body", "body"), ("concentrator", "concentrator")):
+        if table in data.get("plant", {}) and values["plant.mount"] != mount:
+            raise field_error(source, "plant.mount", values["plant.mount"],
+                              f'"{mount}" when a [plant.{table}] table is given (or remove '
+                              f'the table)')
+    _check_mount(values, body_facets, source)
     moving_parts = _read_list(tables["costs"].get("moving_part", []), "costs.moving_part",
                               MOVING_PART_FIELDS, MovingPart, source)
     _check_moving_parts(values, moving_parts, source)
@@ -442,8 +444,14 @@ def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) ->
                           "an axis tilt in [0, 45] for a single-axis tracker")
 
 
-def _check_body(values: Mapping[str, Any], facets, source: str) -> None:
-    """Checks of a ``plant.mount = "body"`` case: the shape's keys, spacing, rotation."""
+def _check_mount(values: Mapping[str, Any], facets, source: str) -> None:
+    """Checks of the mount's own tables: a concentrator's keys; a body's shape, spacing, drive."""
+    if values["plant.mount"] == "concentrator":
+        for f in FIELDS:
+            if f.section == "plant.concentrator" and values[f.path] is None:
+                raise InputError(f"{source}: missing key '{f.path}' (plant.mount = "
+                                 f"\"concentrator\" needs it: {f.doc}; {f.allowed()}, unit "
+                                 f"{f.unit})")
     if values["plant.mount"] != "body":
         return
     shape = values["plant.body.shape"]

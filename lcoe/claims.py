@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 
 from .tech.audit import audit, worst_verdict
+from .tech.concentrator_model import rated_efficiency
 
 #: A field of bodies is audited against the light on its land from this many bodies up: the
 #: land check treats the land as the field's aperture, which neglects light entering through
@@ -128,6 +129,53 @@ def breakeven_summary(capex_star: np.ndarray, energy_star: np.ndarray) -> dict:
         "breakeven_energy_per_kw_kwh_median": finite_or_none(np.quantile(energy_star, 0.5)),
         "breakeven_energy_per_kw_kwh_p90": finite_or_none(np.quantile(energy_star, 0.9)),
     }
+
+
+def case_facts(case, site, base) -> dict:
+    """The deterministic year of a case as :func:`audit_case` reads it.
+
+    Parameters
+    ----------
+    case : lcoe.case.Case
+    site : lcoe.model.Site
+    base : lcoe.model.ModelOutput
+        The run at the case's values (one sample).
+
+    Returns
+    -------
+    dict
+        See :func:`audit_case`. For a concentrator the "cells" are its aperture (rated at
+        optical x cell efficiency on direct normal light), as :func:`lcoe.tech.audit.audit`
+        expects.
+    """
+    e = base.energy
+    w = site.weather
+    concentrating = case["plant.mount"] == "concentrator"
+    facts = {"energy_kwh": float(e.annual_kwh[0]), "cell_area_m2": float(e.cell_area_m2[0]),
+             "poa_kwh_m2": float(e.poa_kwh_m2[0]),
+             "module_efficiency": rated_efficiency(case) if concentrating else
+             float(case["plant.module_efficiency"]),
+             "land_area_m2": float(e.land_area_m2[0]),
+             "ghi_kwh_m2": float(w.data["ghi"].sum() / 1000.0 / w.n_years),
+             "dni_kwh_m2": float(w.data["dni"].sum() / 1000.0 / w.n_years),
+             "n_bodies": None if e.n_bodies is None else float(e.n_bodies[0]),
+             "concentrating": concentrating,
+             "aperture_area_m2": float(e.cell_area_m2[0]) if concentrating else None}
+    return facts
+
+
+def claims_of(case) -> dict:
+    """The ``[claim]`` numbers of a case by key (None where not claimed)."""
+    return {k: case[f"claim.{k}"] for k in ("energy_per_kw_kwh", "energy_per_m2_kwh",
+                                             "energy_ratio", "lcoe_ratio")}
+
+
+def audit_run(case, site, base) -> list[dict]:
+    """Audit of a single run (no baseline): its modelled year and its per-kW, per-m2 claims.
+
+    For ``lcoe run`` (e.g. ``RunResult.extras["audit"]``, which the report shows).
+    """
+    return audit_case(case_facts(case, site, base), claims_of(case))
 
 
 def audit_case(facts: dict, claims: dict, baseline: dict | None = None,

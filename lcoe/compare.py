@@ -28,12 +28,15 @@ from .claims import (
     breakeven_capex_per_kw,
     breakeven_energy_scale,
     breakeven_summary,
+    case_facts,
+    claims_of,
     energy_scale_terms,
     ratio_stats,
 )
 from .errors import InputError
 from .model import ModelOutput, Site, cash_flow, evaluate, prepare
 from .rng import make_rng
+from .tech.concentrator_model import cautions
 from .uncertainty.distributions import Distribution
 from .uncertainty.engine import stats
 from .uncertainty.sampling import correlation_matrix, sample_inputs
@@ -354,26 +357,6 @@ def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
             "energy_scale_a": a, "energy_scale_b": b}
 
 
-def case_facts(case: Case, site: Site, base: ModelOutput) -> dict:
-    """The deterministic year of a case as the audit reads it (see claims.audit_case)."""
-    e = base.energy
-    w = site.weather
-    facts = {"energy_kwh": float(e.annual_kwh[0]), "cell_area_m2": float(e.cell_area_m2[0]),
-             "poa_kwh_m2": float(e.poa_kwh_m2[0]),
-             "module_efficiency": float(case["plant.module_efficiency"]),
-             "land_area_m2": float(e.land_area_m2[0]),
-             "ghi_kwh_m2": float(w.data["ghi"].sum() / 1000.0 / w.n_years),
-             "dni_kwh_m2": float(w.data["dni"].sum() / 1000.0 / w.n_years),
-             "n_bodies": None if e.n_bodies is None else float(e.n_bodies[0]),
-             "concentrating": False}
-    return facts
-
-
-def _claims_of(case: Case) -> dict:
-    return {k: case[f"claim.{k}"] for k in ("energy_per_kw_kwh", "energy_per_m2_kwh",
-                                             "energy_ratio", "lcoe_ratio")}
-
-
 def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: int = 1,
                    claim_ratio: float | None = None, sobol_base: int = DEFAULT_SOBOL_BASE,
                    method: str = "lhs", chunk_size: int = 1000,
@@ -455,10 +438,10 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
         if c > 0:
             claim = _claim_test(c, case, trials, outcomes[0][3], claim_ratio)
             claims.append(claim)
-        findings = audit_case(facts, _claims_of(case), None if c == 0 else base_facts,
+        findings = audit_case(facts, claims_of(case), None if c == 0 else base_facts,
                               None if claim is None else claim.stats["q50"])
         results.append(CaseOutcome(case=case, site=site, base=base, trials=trials, facts=facts,
-                                   audit=findings))
+                                   audit=findings, cautions=cautions(case)))
     if sobol_base:
         seqs = sobol_seq.spawn(len(claims))
         claims = [_with_sobol(claim, design, cases, sites, sobol_base, sq, chunk_size, progress)

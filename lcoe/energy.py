@@ -237,14 +237,18 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
 
     Parameters
     ----------
-    poa : PlaneOfArray or FacetIrradiance
+    poa : PlaneOfArray, FacetIrradiance or an object with a ``dc_kw`` method
         Shared irradiance of the geometry: one plane, arrays (n_h,), or k facets of a body,
-        arrays (k, n_h) with area fractions (k,) (incidence-angle loss already applied).
+        arrays (k, n_h) with area fractions (k,) (incidence-angle loss already applied), or a
+        technology with its own DC model, ``dc_kw(chunk_params, temp_air_c, wind_speed_m_s)
+        -> (g_poa, g_eff, pdc_kw)`` (e.g.
+        :class:`lcoe.tech.concentrator_model.ConcentratorBeam`).
     weather : Weather
         Hourly weather (air temperature [C], wind speed [m/s]).
     params : dict of str to array_like
-        Every key of :data:`ENERGY_PARAMS`, each a scalar or shape (n_s,), in the units of the
-        case file (fractions, kW, 1/C, W/m2/K, W s/m3/K).
+        Every key of :data:`ENERGY_PARAMS` (and whatever a ``dc_kw`` model reads), each a
+        scalar or shape (n_s,), in the units of the case file (fractions, kW, 1/C, W/m2/K,
+        W s/m3/K).
     aoi_model : {"physical", "ashrae"}
         Beam incidence-angle modifier (for a plane; a FacetIrradiance carries its own).
     chunk_size : int
@@ -273,7 +277,7 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     if missing:
         raise ValueError(f"missing energy parameters: {', '.join(missing)}")
     n_s = max(np.asarray(params[k]).size for k in ENERGY_PARAMS)
-    cols = {k: _column(params[k], n_s) for k in ENERGY_PARAMS}
+    cols = {k: _column(v, n_s) for k, v in params.items()}
     t_air = weather.data["temp_air"].to_numpy()
     ws = weather.data["wind_speed"].to_numpy()
     months = weather.data.index.month.to_numpy() - 1
@@ -285,7 +289,9 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     year_onehot = (years[:, None] == year_values[None, :]).astype(float)
     if weather.typical_year:
         year_onehot = np.ones((weather.n_hours, 1))
-    direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
+    own_dc = not isinstance(poa, (PlaneOfArray, FacetIrradiance))
+    if not own_dc:
+        direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
     if parasitic_kw is not None:
         parasitic = _column(parasitic_kw, n_s) * np.asarray(parasitic_hours, dtype=float)
     else:
@@ -303,7 +309,9 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         albedo = c["site.albedo"]
         p_stc = c["plant.dc_capacity_kw"]
         g_poa = g_eff = pdc = 0.0
-        for j in range(share.size):  # facets one at a time: memory independent of k
+        if own_dc:  # a technology with its own DC model (a concentrator)
+            g_poa, g_eff, pdc = poa.dc_kw(c, t_air, ws)
+        for j in range(0 if own_dc else share.size):  # facets one at a time: memory bound
             g_j = direct[j] + sky[j] + albedo * ground[j]
             g_eff_j = direct_eff[j] + sky[j] + albedo * ground[j]
             t_cell = faiman_cell_temperature(g_j, t_air, ws, c["plant.thermal_u0"],

@@ -179,7 +179,7 @@ def orientation(geometry: Geometry, sun: SolarPosition) -> tuple[np.ndarray, np.
     n = sun.apparent_zenith_deg.shape[0]
     if geometry.mount == "fixed":
         return np.full(n, geometry.tilt_deg), np.full(n, geometry.azimuth_deg)
-    if geometry.mount == "dual_axis":
+    if geometry.mount in ("dual_axis", "concentrator"):
         up = sun.apparent_zenith_deg < 90.0
         return (np.where(up, sun.apparent_zenith_deg, 0.0),
                 np.where(up, sun.azimuth_deg, 180.0))

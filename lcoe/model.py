@@ -187,22 +187,35 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
                     keep_hourly: bool) -> EnergyResult:
     """Energy of the samples ``idx`` that share one geometry, with areas and body count."""
     geometry = _geometry(case, full, int(idx[0]))
-    poa = site.poa(geometry, case["plant.transposition"], case["plant.aoi_model"])
     sub = {k: full[k][idx] for k in ENERGY_PARAMS}
     dc_kw, eff = full["plant.dc_capacity_kw"][idx], full["plant.module_efficiency"][idx]
     parasitic_kw, n_bodies = None, None
+    cell_area = dc_kw / eff
     if geometry.body is not None:
         from .bodies import count_and_land
 
         n_bodies, land = count_and_land(geometry.body, dc_kw, eff)
         if geometry.body.rotating:
             parasitic_kw = n_bodies * full["plant.body.drive_power_w"][idx] / 1000.0
+    elif geometry.mount == "concentrator":
+        from .tech.concentrator_model import (
+            CONCENTRATOR_PARAMS,
+            concentrator_beam,
+            rated_efficiency,
+        )
+
+        poa = concentrator_beam(case, site.weather, site.sun)
+        sub.update({k: full[k][idx] for k in CONCENTRATOR_PARAMS})
+        cell_area = dc_kw / rated_efficiency(case)  # the aperture, as the audit reads it
+        land = cell_area / full["plant.gcr"][idx]
     else:
-        land = dc_kw / eff / full["plant.gcr"][idx]
+        land = cell_area / full["plant.gcr"][idx]
+    if geometry.mount != "concentrator":
+        poa = site.poa(geometry, case["plant.transposition"], case["plant.aoi_model"])
     energy = simulate(poa, site.weather, sub, case["plant.aoi_model"], chunk_size=chunk_size,
                       keep_hourly=keep_hourly, parasitic_kw=parasitic_kw,
                       parasitic_hours=site.sun.apparent_zenith_deg < 90.0)
-    return replace(energy, cell_area_m2=dc_kw / eff, land_area_m2=land, n_bodies=n_bodies)
+    return replace(energy, cell_area_m2=cell_area, land_area_m2=land, n_bodies=n_bodies)
 
 
 def evaluate(case: Case, site: Site, params: Mapping | None = None,

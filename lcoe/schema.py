@@ -13,7 +13,7 @@ from dataclasses import dataclass
 REQUIRED = object()  # sentinel: the key has no default and must be given
 
 #: Mounting structures of ``plant.mount``.
-MOUNTS: tuple[str, ...] = ("fixed", "single_axis", "dual_axis", "body")
+MOUNTS: tuple[str, ...] = ("fixed", "single_axis", "dual_axis", "body", "concentrator")
 #: Shapes of ``plant.body.shape``.
 BODY_SHAPES: tuple[str, ...] = ("cone", "cylinder", "dome", "pyramid", "facets")
 
@@ -114,7 +114,8 @@ FIELDS: tuple[Field, ...] = (
       typical="0.15-0.30 (grass, soil); 0.6-0.8 fresh snow"),
     # --- plant ------------------------------------------------------------------------------
     F("plant.mount", "choice", "-", "Mounting structure: fixed tilt, single-axis tracker, "
-      "dual-axis tracker (faces the sun), or a 3-D body covered with cells ([plant.body])",
+      "dual-axis tracker (faces the sun), a 3-D body covered with cells ([plant.body]), or "
+      "concentrator optics on dual-axis trackers ([plant.concentrator])",
       choices=MOUNTS, default="fixed"),
     F("plant.tilt_deg", "float", "deg", "Fixed mount: tilt from horizontal; single-axis: "
       "axis tilt", default=20.0, low=0, high=90, typical="10-35 fixed; 0 trackers"),
@@ -178,6 +179,28 @@ FIELDS: tuple[Field, ...] = (
     F("plant.body.drive_power_w", "float", "W", "Power drawn by each rotating body's drive "
       "whenever the sun is above the horizon (subtracted from the AC output)", default=0.0,
       low=0, typical="5-50"),
+    # --- plant.concentrator (plant.mount = "concentrator": on dual-axis trackers) -----------
+    F("plant.concentrator.geometric_concentration", "float", "-", "Aperture area / cell area",
+      low=1, optional=True, typical="300-1000 (high concentration)"),
+    F("plant.concentrator.optical_efficiency", "float", "-", "Share of the direct beam "
+      "entering the aperture that reaches the cells", low=0, high=1, low_open=True,
+      optional=True, typical="0.75-0.90"),
+    F("plant.concentrator.cell_efficiency", "float", "-", "Cell efficiency under "
+      "concentration at 25 C", low=0, high=1, low_open=True, high_open=True, optional=True,
+      typical="0.35-0.45 multi-junction"),
+    F("plant.concentrator.acceptance_half_angle_deg", "float", "deg", "Half-angle within "
+      "which the whole beam is accepted", low=0, high=90, low_open=True, optional=True,
+      typical="0.5-1.5"),
+    F("plant.concentrator.cooling_u_w_m2k", "float", "W/m2/K", "Receiver heat-loss "
+      "coefficient per m2 of cell, still air", low=0, low_open=True, optional=True),
+    F("plant.concentrator.cooling_u_wind_w_m3sk", "float", "W s/m3/K", "Wind-dependent part "
+      "of the heat-loss coefficient per m2 of cell", default=0.0, low=0),
+    F("plant.concentrator.temp_coeff_per_c", "float", "1/C", "Relative change of cell "
+      "efficiency per kelvin", low=-0.05, high=0.05, optional=True,
+      typical="-0.001 to -0.002 multi-junction"),
+    F("plant.concentrator.tracking_error_deg", "float", "deg", "Typical pointing error of the "
+      "trackers (the beam's angle to the optical axis)", default=0.0, low=0, high=90,
+      typical="0.1-0.5"),
     # --- costs ------------------------------------------------------------------------------
     F("costs.capex_per_kw", "float", "currency/kW", "Installed cost at financial close",
       low=0, typical="700-1300 utility scale"),

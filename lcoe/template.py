@@ -40,7 +40,8 @@ def _line(f: Field, value, commented: bool = False) -> list[str]:
 
 
 #: Sections written commented out: the bankability layer and the tables of other mounts.
-OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body", "claim")
+OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body", "plant.concentrator",
+                     "claim")
 OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site.csv",
                      "site.weather_time_label": "start", "revenue.tariff_per_kwh": 0.055,
                      "revenue.contract_years": 20, "plant.body.shape": "cylinder",
@@ -48,7 +49,13 @@ OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site
                      "plant.body.facets": 24, "plant.body.spacing_m": 3.0,
                      "claim.text": "a third cheaper power", "claim.energy_per_kw_kwh": 1500.0,
                      "claim.energy_per_m2_kwh": 300.0, "claim.energy_ratio": 1.2,
-                     "claim.lcoe_ratio": 0.667}
+                     "claim.lcoe_ratio": 0.667,
+                     "plant.concentrator.geometric_concentration": 500.0,
+                     "plant.concentrator.optical_efficiency": 0.85,
+                     "plant.concentrator.cell_efficiency": 0.40,
+                     "plant.concentrator.acceptance_half_angle_deg": 0.8,
+                     "plant.concentrator.cooling_u_w_m2k": 20000.0,
+                     "plant.concentrator.temp_coeff_per_c": -0.0015}
 
 
 def template_text() -> str:
@@ -71,6 +78,12 @@ def template_text() -> str:
             if f.section == "claim":
                 lines += ["# ---- A vendor's claim (optional), tested by: lcoe compare "
                           "BASELINE.toml THIS.toml"]
+            if f.section == "plant.concentrator":
+                lines += ['# ---- plant.mount = "concentrator": optics on dual-axis trackers '
+                          "(uncomment). Concentrated sunlight", "# ---- can destroy the "
+                          "receiver within seconds to minutes on loss of tracking or cooling, "
+                          "and", "# ---- burns skin and eyes: design and maintenance follow "
+                          "local codes and licensed professionals."]
             if f.section == "plant.body":
                 lines += ['# ---- plant.mount = "body": bodies covered with cells (uncomment). '
                           'With shape = "facets"', "# ---- list the pieces instead: "
