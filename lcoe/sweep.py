@@ -211,16 +211,38 @@ def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None):
     return results, errors
 
 
-def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | None = None):
+def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | None = None,
+                  affinity: Callable | None = None):
     """Run ``fn(task)`` for every task on a dask.distributed client, one retry per task.
 
-    Same return values as :func:`run_serial`.
+    Parameters
+    ----------
+    client : distributed.Client
+    tasks : sequence
+    fn : callable
+    progress : callable, optional
+        ``progress(done, total)``.
+    affinity : callable, optional
+        ``affinity(task) -> key``: tasks with the same key prefer the same worker (loosely:
+        any worker may still take them), so that a worker prepares what they share once.
+
+    Returns
+    -------
+    Same as :func:`run_serial`.
     """
     from distributed import as_completed
 
     token = uuid.uuid4().hex[:12]
-    futures = [client.submit(fn, task, key=f"lcoe-sweep-{token}-{i}", retries=ATTEMPTS - 1,
-                             pure=False) for i, task in enumerate(tasks)]
+    workers = sorted(client.scheduler_info().get("workers", {}))
+    groups: dict = {}
+    futures = []
+    for i, task in enumerate(tasks):
+        where = {}
+        if affinity is not None and workers:
+            g = groups.setdefault(affinity(task), len(groups))
+            where = {"workers": [workers[g % len(workers)]], "allow_other_workers": True}
+        futures.append(client.submit(fn, task, key=f"lcoe-sweep-{token}-{i}",
+                                     retries=ATTEMPTS - 1, pure=False, **where))
     position = {f.key: i for i, f in enumerate(futures)}
     results, errors = [None] * len(tasks), {}
     done = 0
@@ -244,6 +266,11 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
     finally:
         client.cancel([f for f in futures if not f.done()])
     return results, errors
+
+
+def _site_of(task):
+    """Affinity key of a chunk: its site (a worker prepares each site's weather once)."""
+    return getattr(getattr(task, "run", None), "site", None)
 
 
 def connect(address: str, timeout_s: float = CONNECT_TIMEOUT_S):
@@ -325,7 +352,7 @@ def execute(tasks: Sequence, fn: Callable = evaluate_chunk, workers: int = 1,
         client = connect(scheduler)
         try:
             n = len(client.scheduler_info().get("workers", {}))
-            results, errors = run_on_client(client, tasks, fn, progress)
+            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
         finally:
             client.close()
         return results, errors, f"dask scheduler {scheduler} ({n} workers)", []
@@ -336,7 +363,7 @@ def execute(tasks: Sequence, fn: Callable = evaluate_chunk, workers: int = 1,
             results, errors = run_serial(tasks, fn, progress)
             return results, errors, "serial (in process)", [DASK_MISSING_NOTE]
         with local_cluster(workers) as cluster, Client(cluster) as client:
-            results, errors = run_on_client(client, tasks, fn, progress)
+            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
         return results, errors, f"local dask cluster, {workers} worker processes", []
     results, errors = run_serial(tasks, fn, progress)
     return results, errors, "serial (in process)", []
