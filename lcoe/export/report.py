@@ -132,6 +132,27 @@ def _bank_rows(b: dict, cur: str) -> list[str]:
     return rows
 
 
+def _case_rows(result: RunResult) -> list[str]:
+    """The inputs a reader asks for first."""
+    v = result.case.values
+    cur = v["case.currency"]
+    rows = [
+        _row("Site", f"{v['site.latitude_deg']:.3f}, {v['site.longitude_deg']:.3f}", "deg",
+             f"altitude {v['site.altitude_m']:g} m"),
+        _row("Plant", f"{v['plant.dc_capacity_kw']:,.0f}", "kW DC",
+             f"{v['plant.mount']}, DC/AC {v['plant.dc_ac_ratio']:g}"),
+        _row("Capex", f"{v['costs.capex_per_kw']:,.0f}", f"{cur}/kW"),
+        _row("Fixed O&M", f"{v['costs.fixed_om_per_kw_year']:,.1f}", f"{cur}/kW/year",
+             "escalated with inflation"),
+        _row("Discount rate (nominal) / inflation",
+             f"{100 * v['finance.discount_rate']:.2f} / {100 * v['finance.inflation']:.2f}",
+             "%"),
+        _row("Life", f"{v['case.lifetime_years']}", "years",
+             f"degradation {100 * v['plant.degradation_per_year']:.2f} %/year"),
+    ]
+    return rows
+
+
 def _audit_html(findings) -> str:
     if not findings:
         return ""
@@ -209,6 +230,8 @@ def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> s
         "<p class=\"sub\">Cost of solar electricity computed by lcoe from hourly physics and a "
         "lifetime cash flow. Case file <code>" + _e(case.source) + "</code>; weather "
         + _e(w.name) + f" ({w.n_hours:,} hours).</p>",
+        "<h2>The case</h2>",
+        "<table>" + "".join(_case_rows(result)) + "</table>",
         "<h2>Headline numbers</h2>",
         "<table class=\"headline\"><tr><th>Quantity</th><th>Value</th><th>Unit</th>"
         "<th></th></tr>" + "".join(_headline_rows(result)) + "</table>",

@@ -71,15 +71,21 @@ def write_distribution_sheet(wb, result: RunResult) -> None:
 
     # ---- trials table (right) -------------------------------------------------------------
     inputs = list(trials.names)
-    hdr = ["Trial"] + [h for _, h, _ in outs] + inputs
+    shown = {k for k, _, _ in outs}
+    extra = [k for k, v in trials.outputs.items()
+             if k not in shown and np.ndim(v) == 1 and len(v) == trials.n]
+    hdr = ["Trial"] + [h for _, h, _ in outs] + inputs + extra
     header(ws, 1, hdr, col=TRIALS_COL)
     first, last = 2, 1 + n_listed
     cols = [np.arange(1, n_listed + 1)] + [trials.outputs[k][:n_listed] for k, _, _ in outs] + \
-        [trials.X[:n_listed, j] for j in range(len(inputs))]
-    fmts = ["0"] + [f for _, _, f in outs] + ["General"] * len(inputs)
+        [trials.X[:n_listed, j] for j in range(len(inputs))] + \
+        [np.asarray(trials.outputs[k][:n_listed], dtype=float) for k in extra]
+    fmts = ["0"] + [f for _, _, f in outs] + ["General"] * (len(inputs) + len(extra))
     for j, (values, fmt) in enumerate(zip(cols, fmts)):
         c = TRIALS_COL + j
         for i, v in enumerate(values.tolist()):
+            if isinstance(v, float) and not np.isfinite(v):
+                continue  # no value (e.g. no unique IRR): an empty cell
             cell = ws.cell(row=first + i, column=c, value=v)
             cell.number_format = fmt
 
