@@ -32,6 +32,10 @@ COLUMN_NOTES = {
 CAUTION = ("Results depend entirely on the inputs; they are not investment advice. Sites built "
            "from monthly climate values use synthetic weather: a screening estimate, not a "
            "bankable energy assessment.")
+CRN_NOTE = ("Common random numbers: an uncertain input of the same name takes the same uniform "
+            "draw in trial i of every site x technology (the same rank, and the same value where "
+            "the distributions agree), and the year-to-year weather scores of trial i are shared "
+            "too; prob_cheapest compares technologies trial by trial.")
 FILES = ("sweep.csv", "sweep.json", "sweep.xlsx", "sweep_ranking.png", "sweep_sites.png")
 
 
@@ -89,7 +93,7 @@ def sweep_dict(result) -> dict:
         "failures": [{"site": f.site, "technology": f.technology, "chunk": f.chunk,
                       "attempts": f.attempts, "error": f.error} for f in result.failures],
         "execution": {"how": result.execution, "elapsed_s": result.elapsed_s},
-        "notes": list(result.notes) + [CAUTION],
+        "notes": list(result.notes) + [CRN_NOTE, CAUTION],
         "versions": result.provenance.get("versions", {}),
         "provenance": {k: v for k, v in result.provenance.items() if k != "versions"},
     })
@@ -150,7 +154,7 @@ def write_sweep_workbook(result, path: Path) -> None:
     about += [(f"Technology {t.label}", f"{t.path} (sha256 {t.sha256})")
               for t in plan.technologies]
     about += [(c, meaning.replace("currency", cur)) for c, meaning in COLUMN_NOTES.items()]
-    about += [("Note", n) for n in result.notes] + [("Caution", CAUTION)]
+    about += [("Note", n) for n in list(result.notes) + [CRN_NOTE]] + [("Caution", CAUTION)]
     for i, (k, v) in enumerate(about, start=2):
         put_text(wa, i, 1, k)
         _put(wa, i, 2, v, "0")
