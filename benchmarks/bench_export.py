@@ -1,8 +1,8 @@
 """Time the exporters on a run of 10,000 Monte Carlo trials (prints seconds and file sizes).
 
-Usage: ``python benchmarks/bench_export.py [--samples N] [--sobol N]``. The study itself is
-timed separately; the figures of interest are the workbook (at most 10,000 trials listed on
-its Distribution sheet), the pictures, report.html and trials.csv.
+Usage: ``python benchmarks/bench_export.py [--samples N] [--sobol N] [--case PATH]``.
+The study itself is timed separately; the figures of interest are the workbook (at most
+10,000 trials listed on its Distribution sheet), the pictures, report.html and trials.csv.
 """
 
 from __future__ import annotations
@@ -26,9 +26,10 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--samples", type=int, default=10_000)
     ap.add_argument("--sobol", type=int, default=64)
+    ap.add_argument("--case", default=str(DEMO), help="case file (default: the demo)")
     args = ap.parse_args()
     t0 = time.perf_counter()
-    result = run_case(DEMO, samples=args.samples, sobol_base=args.sobol)
+    result = run_case(args.case, samples=args.samples, sobol_base=args.sobol)
     print(f"study ({args.samples} trials, Sobol N={args.sobol}): "
           f"{time.perf_counter() - t0:6.2f} s (not part of the export)")
     with tempfile.TemporaryDirectory() as tmp:
