@@ -46,6 +46,12 @@ def format_table(result) -> str:
     for block in result.extras.values():
         if hasattr(block, "table_lines"):
             lines += [""] + block.table_lines()
+    findings = result.extras.get("audit") or []
+    if findings:
+        ok = sum(f["verdict"] == "ok" for f in findings)
+        lines += ["", f"  Physics audit: {ok} of {len(findings)} checks ok"]
+        lines += [f"    {f['verdict'].upper()}: {f['message']}" for f in findings
+                  if f["verdict"] != "ok"]
     for n in result.notes:
         lines.append(f"  note: {n}")
     return "\n".join(lines)

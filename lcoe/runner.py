@@ -85,8 +85,11 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     spec = read_spec(case)
     site = prepare(case)
     base = evaluate(case, site)
-    notes = list(site.notes)
-    extras = {}
+    from .claims import audit_run
+    from .tech.concentrator_model import cautions
+
+    notes = list(site.notes) + cautions(case)
+    extras = {"audit": audit_run(case, site, base)}
     bank = None
     if "revenue" in case.sections:
         from .bankability import run_bankability

@@ -69,7 +69,7 @@ def summary_dict(result: RunResult) -> dict:
     for name, block in result.extras.items():
         if hasattr(block, "to_summary"):
             out[name] = block.to_summary()
-        elif isinstance(block, dict):
+        elif isinstance(block, (dict, list)):
             out[name] = block
     return _clean(out)
 
