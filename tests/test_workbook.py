@@ -124,6 +124,13 @@ def test_sheets_names_and_formulas(runs):
     assert wb.sheetnames == ["About", "Inputs", "Energy", "CashFlow", "Distribution",
                              "Sensitivity", "_case"]
     assert wb["_case"].sheet_state == "hidden"
+    about = [c.value for c in wb["About"]["A"]]
+    for text in ("Cautions", "Provenance", "Headline numbers"):
+        assert text in about
+    findings = runs["full"].extras.get("audit") or []
+    if findings:
+        assert "Audit of physical limits" in about
+        assert all(f["check"] in about for f in findings)
     for name in ("capex_per_kw", "discount_rate", "inflation", "dc_capacity_kw",
                  "degradation_per_year", "fixed_om_per_kw_year", "first_year_energy_kwh",
                  "lcoe_real", "lcoe_nominal", "npv_costs", "replacement_2_every_years"):

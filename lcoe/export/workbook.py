@@ -342,6 +342,17 @@ def write_about_sheet(ws, wb, result: RunResult) -> None:
         put_formula(ws, r, 3, f"={name}", fmt)
         engine_columns(ws, r, 3, value, fmt)
         r += 1
+    findings = result.extras.get("audit") or []
+    if findings:
+        r += 1
+        title(ws, r, "Audit of physical limits")
+        r += 1
+        header(ws, r, ("Check", "Verdict", "Finding"))
+        for f in findings:
+            r += 1
+            for j, key in enumerate(("check", "verdict", "message"), start=1):
+                put_text(ws, r, j, f.get(key, ""))
+        r += 1
     r += 1
     title(ws, r, "Provenance")
     r += 1
