@@ -61,6 +61,9 @@ class CashFlow:
         Discounted energy at the real and the nominal rate [kWh], (n_s,).
     lcoe_real, lcoe_nominal : numpy.ndarray
         Levelised cost [currency/kWh], (n_s,).
+    outage_loss_fraction : numpy.ndarray or None
+        Share of each year's energy lost while moving parts are down [-], (n_s, n_y + 1);
+        None when the case has no moving parts (``energy_kwh`` already includes the loss).
     """
 
     years: np.ndarray
@@ -75,6 +78,7 @@ class CashFlow:
     pv_energy_nominal_kwh: np.ndarray
     lcoe_real: np.ndarray
     lcoe_nominal: np.ndarray
+    outage_loss_fraction: np.ndarray | None = None
 
 
 def energy_by_year(first_year_kwh, degradation_per_year, lifetime_years: int,

@@ -297,14 +297,18 @@ def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
     life = int(case["case.lifetime_years"])
     e_by_year = energy_by_year(energy.annual_kwh, params["plant.degradation_per_year"], life,
                                weather_factors)
-    extra = None
-    if case.moving_parts:
-        from .moving_parts import moving_part_lines
+    if not case.moving_parts:
+        return build_cashflow(params, case.replacements, life, e_by_year)
+    from dataclasses import replace
 
-        cost, lost, _ = moving_part_lines(case.moving_parts, params, energy.n_bodies, life)
-        e_by_year[:, 1:] *= 1.0 - lost
-        extra = {"moving_parts": cost}
-    return build_cashflow(params, case.replacements, life, e_by_year, extra)
+    from .moving_parts import moving_part_lines
+
+    cost, lost, _ = moving_part_lines(case.moving_parts, params, energy.n_bodies, life)
+    e_by_year[:, 1:] *= 1.0 - lost
+    cf = build_cashflow(params, case.replacements, life, e_by_year, {"moving_parts": cost})
+    loss = np.zeros_like(e_by_year)
+    loss[:, 1:] = lost
+    return replace(cf, outage_loss_fraction=loss)
 
 
 def _merge(parts, n_s: int) -> EnergyResult:

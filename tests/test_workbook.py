@@ -83,15 +83,18 @@ def runs(tmp_path_factory):
     full = run_case(_test_case(tmp), samples=256, sobol_base=16)
     hostile = run_case(_hostile_case(tmp), samples=0)
     lender = run_case(INPUTS / "lender_single_axis.toml", samples=64, sobol_base=0)
+    columns = run_case(INPUTS / "compare_rotating_columns.toml", samples=0)
     paths = {"full": tmp / "full.xlsx", "hostile": tmp / "hostile.xlsx",
              "edited": tmp / "edited.xlsx", "comparison": tmp / "comparison.xlsx",
-             "lender": tmp / "lender.xlsx"}
+             "lender": tmp / "lender.xlsx", "columns": tmp / "columns.xlsx"}
+    write_workbook(columns, paths["columns"])
     write_workbook(full, paths["full"])
     write_workbook(hostile, paths["hostile"])
     write_workbook(lender, paths["lender"])
     _edit_input(paths["full"], paths["edited"], "costs.capex_per_kw", NEW_CAPEX)
     write_comparison_workbook([full, hostile], paths["comparison"])
-    return {"full": full, "hostile": hostile, "lender": lender, "paths": paths, "tmp": tmp}
+    return {"full": full, "hostile": hostile, "lender": lender, "columns": columns,
+            "paths": paths, "tmp": tmp}
 
 
 @pytest.fixture(scope="module")
@@ -247,6 +250,15 @@ def test_cashflow_formulas_agree_with_engine(runs, recalculated):
     for row in about.iter_rows(values_only=True):
         if row[0] in ("LCOE real", "LCOE nominal", "NPV of costs", "First-year energy"):
             assert _close(row[2], row[3]) and abs(row[4]) < REL, row
+
+
+def test_moving_parts_case_agrees_with_engine(runs, recalculated):
+    """Cross-implementation: a case with moving parts (failure costs, outage energy loss)."""
+    wb = recalculated["columns"]
+    c = runs["columns"].base.cashflow
+    assert c.outage_loss_fraction is not None
+    assert _close(_named(wb, "lcoe_real"), c.lcoe_real[0])
+    assert _close(_named(wb, "lcoe_nominal"), c.lcoe_nominal[0])
 
 
 @needs_soffice

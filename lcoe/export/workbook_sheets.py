@@ -230,8 +230,19 @@ def write_cashflow_sheet(wb, result: RunResult, names: dict) -> dict:
     yearly("deg", "Degradation factor max(0, 1 - d (t - 1))", "-",
            "={op}*MAX(0,1-degradation_per_year*({t}-1))", FMT_FACTOR)
     deg_row = rows["deg"]
-    yearly("E", "Delivered energy E_t = E1 x degradation factor", "kWh",
-           "=first_year_energy_kwh*{L}$" + str(deg_row), FMT_KWH, bold=True)
+    if c.outage_loss_fraction is None:
+        yearly("E", "Delivered energy E_t = E1 x degradation factor", "kWh",
+               "=first_year_energy_kwh*{L}$" + str(deg_row), FMT_KWH, bold=True)
+    else:
+        r += 1
+        rows["outage"] = r
+        put_text(ws, r, 1, "Moving-part outage loss (engine values, renewal theory)")
+        put_text(ws, r, 2, "-")
+        for t in range(n + 1):
+            put(ws, r, year_col(t), c.outage_loss_fraction[0, t], FMT_FACTOR)
+        yearly("E", "Delivered energy E_t = E1 x degradation factor x (1 - outage loss)", "kWh",
+               "=first_year_energy_kwh*{L}$" + str(deg_row) + "*(1-{L}$" + str(r) + ")",
+               FMT_KWH, bold=True)
     rows["energy"] = rows["E"]
 
     cost_rows = []
