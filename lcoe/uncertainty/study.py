@@ -26,6 +26,13 @@ from .sensitivity import SobolResult, morris_screen, sobol_analyze, sobol_sample
 from .spec import UncertainSpec
 
 
+#: Plain names of the outputs, for sentences.
+OUTPUT_LABELS = {"lcoe_real_per_kwh": "the real cost per kWh (LCOE)",
+                 "lcoe_nominal_per_kwh": "the nominal cost per kWh (LCOE)",
+                 "npv_costs": "the present value of costs",
+                 "energy_first_year_kwh": "the first-year energy"}
+
+
 @dataclass(frozen=True)
 class UncertaintyBlock:
     """Monte Carlo results of a case.
@@ -141,8 +148,9 @@ class SensitivityBlock:
             if share >= 0.6 or len(top) == 3:
                 break
         names = " and ".join([", ".join(top[:-1]), top[-1]] if len(top) > 1 else top)
+        label = OUTPUT_LABELS.get(self.output, self.output.replace("_", " "))
         return (f"{names} explain about {100 * min(share, 1.0):.0f} % of the variance of "
-                f"{self.output.replace('_', ' ')} on their own (first-order Sobol indices).")
+                f"{label} on their own (first-order Sobol indices).")
 
     def table_lines(self) -> list[str]:
         if self.sobol is None:
