@@ -149,6 +149,7 @@ class SensitivityBlock:
                 break
         names = " and ".join([", ".join(top[:-1]), top[-1]] if len(top) > 1 else top)
         label = OUTPUT_LABELS.get(self.output, self.output.replace("_", " "))
+        names = names[:1].upper() + names[1:]
         return (f"{names} explain about {100 * min(share, 1.0):.0f} % of the variance of "
                 f"{label} on their own (first-order Sobol indices).")
 
