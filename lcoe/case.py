@@ -202,21 +202,41 @@ def load_case(path: str | Path) -> Case:
         One line naming the file, key, value and what is allowed.
     """
     p = Path(path)
+    data, raw_bytes = read_toml(p, "case file")
+    src = str(path)
+    return case_from_dict(data, source=src, base_dir=p.resolve().parent,
+                          sha256=hashlib.sha256(raw_bytes).hexdigest())
+
+
+def read_toml(path: Path, what: str) -> tuple[dict, bytes]:
+    """Read a TOML file; every failure is one InputError line naming the file.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+    what : str
+        What the file is, for messages (e.g. ``"case file"``, ``"sweep plan"``).
+
+    Returns
+    -------
+    data : dict
+        The parsed tables.
+    raw : bytes
+        The file's bytes (for its hash).
+    """
     src = str(path)
     try:
-        raw_bytes = p.read_bytes()
+        raw = Path(path).read_bytes()
     except FileNotFoundError:
-        raise InputError(f"{src}: case file not found") from None
+        raise InputError(f"{src}: {what} not found") from None
     except OSError as exc:
-        raise InputError(f"{src}: cannot read case file ({exc.strerror})") from None
+        raise InputError(f"{src}: cannot read {what} ({exc.strerror})") from None
     try:
-        data = tomllib.loads(raw_bytes.decode("utf-8"))
+        return tomllib.loads(raw.decode("utf-8")), raw
     except UnicodeDecodeError:
         raise InputError(f"{src}: not a UTF-8 text file") from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{src}: not valid TOML: {exc}") from None
-    return case_from_dict(data, source=src, base_dir=p.resolve().parent,
-                          sha256=hashlib.sha256(raw_bytes).hexdigest())
 
 
 def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,

@@ -36,7 +36,6 @@ import copy
 import hashlib
 import json
 import math
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -44,7 +43,7 @@ from typing import Any
 
 import numpy as np
 
-from .case import Case, case_from_dict, load_case
+from .case import Case, case_from_dict, load_case, read_toml
 from .errors import InputError, field_error, unknown_key_error
 from .uncertainty.sampling import correlation_matrix
 from .uncertainty.spec import UncertainSpec, read_spec
@@ -223,18 +222,7 @@ def load_plan(path: str | Path) -> SweepPlan:
     """
     p = Path(path)
     src = str(path)
-    try:
-        raw_bytes = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{src}: sweep plan not found") from None
-    except OSError as exc:
-        raise InputError(f"{src}: cannot read sweep plan ({exc.strerror})") from None
-    try:
-        data = tomllib.loads(raw_bytes.decode("utf-8"))
-    except UnicodeDecodeError:
-        raise InputError(f"{src}: not a UTF-8 text file") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    data, raw_bytes = read_toml(p, "sweep plan")
     for key in data:
         if key not in PLAN_KEYS:
             raise unknown_key_error(src, key, PLAN_KEYS)
@@ -333,10 +321,8 @@ def _read_technologies(value: Any, src: str, base_dir: Path):
             raise field_error(src, "sweep.technologies", value,
                               f"case files with different names ('{label}' appears twice)")
         case = load_case(path)  # a technology must be a valid case file on its own
-        raw_bytes = path.read_bytes()
-        raws[label] = tomllib.loads(raw_bytes.decode("utf-8"))
-        techs.append(Technology(label=label, path=str(path),
-                                sha256=hashlib.sha256(raw_bytes).hexdigest(),
+        raws[label], _ = read_toml(path, "case file")
+        techs.append(Technology(label=label, path=str(path), sha256=case.sha256,
                                 case_name=case.name))
     return techs, raws
 
