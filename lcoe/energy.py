@@ -231,7 +231,7 @@ def _facet_rows(poa, aoi_model: str):
 
 
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
-             aoi_model: str = "physical", chunk_size: int = 128, keep_hourly: bool = False,
+             aoi_model: str = "physical", chunk_size: int = 16, keep_hourly: bool = False,
              parasitic_kw=None, parasitic_hours=None) -> EnergyResult:
     """Hourly energy for every sample, reduced to totals.
 
@@ -290,21 +290,38 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     if weather.typical_year:
         year_onehot = np.ones((weather.n_hours, 1))
     own_dc = not isinstance(poa, (PlaneOfArray, FacetIrradiance))
-    if not own_dc:
-        direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
-    if parasitic_kw is not None:
-        parasitic = _column(parasitic_kw, n_s) * np.asarray(parasitic_hours, dtype=float)
+    run_hours = None if parasitic_kw is None else np.asarray(parasitic_hours, dtype=bool)
+    if own_dc:  # its DC model works on every hour of the year
+        day = np.arange(weather.n_hours)
     else:
-        parasitic = None
+        direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
+        # Hours without light on any facet (and no parasitic load) deliver nothing: the hourly
+        # arrays hold only the other hours.
+        busy = (direct + sky + ground > 0).any(axis=0)
+        if run_hours is not None:
+            busy |= run_hours
+        day = np.nonzero(busy)[0] if busy.any() else np.arange(1)  # keep one (dark) hour
+        direct, direct_eff = direct[:, day], direct_eff[:, day]
+        sky, ground = sky[:, day], ground[:, day]
+        t_air, ws = t_air[day], ws[day]
+    parasitic = None
+    if parasitic_kw is not None:
+        parasitic = _column(parasitic_kw, n_s) * run_hours[day].astype(float)
+    # Monthly and yearly totals: sum each run of consecutive hours of one (year, month) with
+    # reduceat, then fold the few runs into months and years (cheaper than an hourly matmul).
+    ym = years[day] * 12 + months[day]
+    starts = np.concatenate(([0], np.nonzero(np.diff(ym))[0] + 1))
+    seg_month, seg_year = month_onehot[day][starts], year_onehot[day][starts]
 
     annual = np.empty(n_s)
     monthly = np.empty((n_s, 12))
     yearly = np.empty((n_s, year_onehot.shape[1]))
     poa_kwh_m2 = np.empty(n_s)
     chain = {k: np.empty(n_s) for k, _ in LOSS_CHAIN}
-    hourly = np.empty((n_s, weather.n_hours)) if keep_hourly else None
+    hourly = np.zeros((n_s, weather.n_hours)) if keep_hourly else None
     for start in range(0, n_s, chunk_size):
         sl = slice(start, min(start + chunk_size, n_s))
+        m = sl.stop - sl.start
         c = {k: v[sl] for k, v in cols.items()}
         albedo = c["site.albedo"]
         p_stc = c["plant.dc_capacity_kw"]
@@ -316,27 +333,39 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
             g_eff_j = direct_eff[j] + sky[j] + albedo * ground[j]
             t_cell = faiman_cell_temperature(g_j, t_air, ws, c["plant.thermal_u0"],
                                              c["plant.thermal_u1"])
-            pdc = pdc + share[j] * dc_power_kw(g_eff_j, t_cell, p_stc,
-                                               c["plant.temp_coeff_per_c"])
+            pdc_j = dc_power_kw(g_eff_j, t_cell, p_stc, c["plant.temp_coeff_per_c"])
+            if share.size == 1:  # a flat plane: no facet sum to build
+                pdc, g_poa, g_eff = pdc_j, g_j, g_eff_j
+                break
+            pdc = pdc + share[j] * pdc_j
             g_poa = g_poa + share[j] * g_j
             g_eff = g_eff + share[j] * g_eff_j
-        pdc_net = pdc * (1.0 - c["plant.dc_loss_fraction"])
+        dc_keep = 1.0 - c["plant.dc_loss_fraction"]
         ac_kw = p_stc / c["plant.dc_ac_ratio"]
-        unclipped, clipped = inverter_ac_kw(pdc_net, ac_kw, c["plant.inverter_efficiency"])
-        after_ac = clipped * (1.0 - c["plant.ac_loss_fraction"])
-        after_avail = after_ac * c["plant.availability"]
-        delivered = after_avail if parasitic is None else after_avail - parasitic[sl]
-        h_poa = np.broadcast_to(g_poa, (sl.stop - sl.start, weather.n_hours)).sum(axis=1)
-        poa_kwh_m2[sl] = h_poa / 1000.0 / n_years
-        stages = (p_stc * g_poa / 1000.0, p_stc * g_eff / 1000.0, pdc, pdc_net, unclipped,
-                  clipped, after_ac, after_avail, delivered)
-        for (name, _), stage in zip(LOSS_CHAIN, stages):
-            chain[name][sl] = stage.sum(axis=1) / n_years
-        annual[sl] = delivered.sum(axis=1) / n_years
-        monthly[sl] = delivered @ month_onehot / n_years
-        yearly[sl] = delivered @ year_onehot
+        unclipped, clipped = inverter_ac_kw(pdc * dc_keep, ac_kw, c["plant.inverter_efficiency"])
+        ac_keep = (1.0 - c["plant.ac_loss_fraction"])[:, 0]
+        avail = c["plant.availability"][:, 0]
+        # Stages after clipping are scalar multiples per sample, so their totals are too.
+        s_poa = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
+        s_eff = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
+        s_pdc = pdc.sum(axis=1)
+        s_clip = clipped.sum(axis=1)
+        s_par = 0.0 if parasitic is None else parasitic[sl].sum(axis=1)
+        sums = (p_stc[:, 0] * s_poa / 1000.0, p_stc[:, 0] * s_eff / 1000.0, s_pdc,
+                s_pdc * dc_keep[:, 0], unclipped.sum(axis=1), s_clip, s_clip * ac_keep,
+                s_clip * ac_keep * avail, s_clip * ac_keep * avail - s_par)
+        for (name, _), total in zip(LOSS_CHAIN, sums):
+            chain[name][sl] = total / n_years
+        poa_kwh_m2[sl] = s_poa / 1000.0 / n_years
+        annual[sl] = chain["delivered_kwh"][sl]
+        factor = (ac_keep * avail)[:, None]
+        seg = np.add.reduceat(clipped, starts, axis=1) * factor
+        if parasitic is not None:
+            seg -= np.add.reduceat(parasitic[sl], starts, axis=1)
+        monthly[sl] = seg @ seg_month / n_years
+        yearly[sl] = seg @ seg_year
         if keep_hourly:
-            hourly[sl] = delivered
+            hourly[sl, day] = clipped * factor - (0.0 if parasitic is None else parasitic[sl])
     return EnergyResult(annual_kwh=annual, monthly_kwh=monthly, yearly_kwh=yearly,
                         loss_chain_kwh=chain, poa_kwh_m2=poa_kwh_m2,
                         dc_capacity_kw=cols["plant.dc_capacity_kw"][:, 0], hourly_ac_kw=hourly)
