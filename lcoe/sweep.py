@@ -211,6 +211,21 @@ def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None):
     return results, errors
 
 
+def run_batch(fn: Callable, batch: Sequence) -> list:
+    """Run ``fn`` on each task of a batch in one worker call, each tried up to ATTEMPTS times.
+
+    Returns a list of ``(result, None)`` or ``(None, one-line error)`` in batch order.
+    """
+    results, errors = run_serial(batch, fn)
+    return [(r, errors.get(i)) for i, r in enumerate(results)]
+
+
+#: Batches per worker: a dask task carries several chunks, so that scheduling and transfer cost
+#: little next to the model (one chunk takes tens of milliseconds), while the batches still
+#: balance the load.
+BATCHES_PER_WORKER = 4
+
+
 def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | None = None,
                   affinity: Callable | None = None):
     """Run ``fn(task)`` for every task on a dask.distributed client, one retry per task.
@@ -223,8 +238,10 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
     progress : callable, optional
         ``progress(done, total)``.
     affinity : callable, optional
-        ``affinity(task) -> key``: tasks with the same key prefer the same worker (loosely:
-        any worker may still take them), so that a worker prepares what they share once.
+        ``affinity(task) -> key``: tasks with the same key go into the same batches, so that a
+        worker prepares what they share (a site's weather) once. Tasks are sent in batches of
+        several (:data:`BATCHES_PER_WORKER` per worker); a failing task is retried on its own
+        and reported alone.
 
     Returns
     -------
@@ -234,23 +251,29 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
 
     token = uuid.uuid4().hex[:12]
     workers = sorted(client.scheduler_info().get("workers", {}))
-    groups: dict = {}
+    order = sorted(range(len(tasks)), key=lambda i: (str(affinity(tasks[i])), i)) \
+        if affinity is not None else list(range(len(tasks)))
+    size = max(1, -(-len(tasks) // max(1, BATCHES_PER_WORKER * max(1, len(workers)))))
+    batches = [order[a:a + size] for a in range(0, len(order), size)]
     futures = []
-    for i, task in enumerate(tasks):
+    for b, members in enumerate(batches):
         where = {}
-        if affinity is not None and workers:
-            g = groups.setdefault(affinity(task), len(groups))
-            where = {"workers": [workers[g % len(workers)]], "allow_other_workers": True}
-        futures.append(client.submit(fn, task, key=f"lcoe-sweep-{token}-{i}",
-                                     retries=ATTEMPTS - 1, pure=False, **where))
-    position = {f.key: i for i, f in enumerate(futures)}
+        if workers:
+            where = {"workers": [workers[b % len(workers)]], "allow_other_workers": True}
+        futures.append(client.submit(run_batch, fn, [tasks[i] for i in members],
+                                     key=f"lcoe-sweep-{token}-{b}", retries=ATTEMPTS - 1,
+                                     pure=False, **where))
+    position = {f.key: b for b, f in enumerate(futures)}
     results, errors = [None] * len(tasks), {}
     done = 0
     try:
         for fut in as_completed(futures):
-            i = position[fut.key]
+            members = batches[position[fut.key]]
             if fut.status == "finished":
-                results[i] = fut.result()
+                for i, (res, err) in zip(members, fut.result()):
+                    results[i] = res
+                    if err is not None:
+                        errors[i] = err
             else:
                 try:
                     exc = fut.exception()
@@ -258,9 +281,10 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
                     if isinstance(cancelled, KeyboardInterrupt):
                         raise
                     exc = cancelled
-                errors[i] = _one_line(exc)
+                for i in members:
+                    errors[i] = _one_line(exc)
             fut.release()
-            done += 1
+            done += len(members)
             if progress:
                 progress(done, len(tasks))
     finally:
