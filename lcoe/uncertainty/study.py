@@ -223,7 +223,8 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
     base_values = {d.name: (1.0 if d.name.startswith("energy.") else
                             _case_value(case, d.name)) for d in spec.dists}
     torn = tornado(spec.dists, f_tornado, base_values)
-    sens_notes = []
+    sens_notes = ["Sobol indices assume independent inputs; the Monte Carlo applies the "
+                  "correlations, the Sobol design does not."]
     sob = None
     if sobol_base and sobol_base > 0:
         _, x, note = sobol_sample(spec.dists, sobol_base, make_rng(sobol_seq), spec.corr)
