@@ -337,9 +337,6 @@ def _yearly_factors(case: Case, site: Site, spec: UncertainSpec, z: np.ndarray,
 def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
                    persist: np.ndarray) -> dict:
     """Model outputs of one chunk of trials, with the finance probes for break-even values."""
-    n = factors.shape[0]
-    if not params:
-        params = {"plant.dc_capacity_kw": np.full(n, float(case["plant.dc_capacity_kw"]))}
     out = evaluate(case, site, params, weather_factors=factors)
     full, e = out.params, out.energy
     capex = full["costs.capex_per_kw"]
@@ -498,9 +495,7 @@ def ratio_model(design: Design, cases: Sequence[Case], sites: Sequence[Site], c:
             life = int(case["case.lifetime_years"])
             for start in range(0, xs.shape[0], chunk_size):
                 sl = slice(start, min(start + chunk_size, xs.shape[0]))
-                params = {p: v[sl] for p, v in params_all.items()} or \
-                    {"plant.dc_capacity_kw": np.full(sl.stop - sl.start,
-                                                     float(case["plant.dc_capacity_kw"]))}
+                params = {p: v[sl] for p, v in params_all.items()}
                 wf = np.repeat(persist[sl, None], life, axis=1)
                 out[sl] *= evaluate(case, site, params, weather_factors=wf).cashflow.lcoe_real \
                     ** sign

@@ -234,7 +234,7 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
         one sample at the case's values.
     weather_factors : numpy.ndarray, optional
         Energy multiplier per operating year, (n_s, N) (year-to-year weather and persistent
-        energy uncertainty).
+        energy uncertainty); its rows count as samples even when ``params`` is empty.
     chunk_size : int
         Samples per chunk in the hourly model (memory bound).
     keep_hourly : bool
@@ -245,7 +245,10 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     ModelOutput
     """
     params = dict(params or {})
-    n_s = max([np.asarray(v).size for v in params.values()] or [1])
+    sizes = [np.asarray(v).size for v in params.values()]
+    if weather_factors is not None:  # trials whose only uncertainty is the energy factors
+        sizes.append(np.shape(weather_factors)[0])
+    n_s = max(sizes or [1])
     full = base_params(case, n_s)
     for k, v in params.items():
         full[k] = np.broadcast_to(np.asarray(v, dtype=float), (n_s,))

@@ -235,8 +235,6 @@ def evaluate_chunk(task: ChunkTask) -> ChunkResult:
     X = uniforms_to_values(spec.dists, u[:, cols]) if cols else np.empty((n, 0))
     params, persist = _params_from(spec, X)
     yearly = yearly_factors(z[:, :task.run.lifetime_years], spec.interannual_cov, ratios)
-    if not params:
-        params = {"plant.dc_capacity_kw": np.full(n, float(case["plant.dc_capacity_kw"]))}
     out = evaluate(case, site, params, weather_factors=persist[:, None] * yearly)
     energy = out.energy.annual_kwh * persist * yearly[:, 0]
     return ChunkResult(run_index=task.run_index, chunk_index=task.chunk_index,

@@ -171,9 +171,6 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
     for start in range(0, n, chunk_size):
         sl = slice(start, min(start + chunk_size, n))
         params = {k: v[sl] for k, v in params_all.items()}
-        if not params:
-            params = {"plant.dc_capacity_kw": np.full(sl.stop - sl.start,
-                                                      float(case["plant.dc_capacity_kw"]))}
         out = evaluate(case, site, params, weather_factors=factors[sl])
         c = out.cashflow
         chunk = {"lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,
@@ -294,9 +291,7 @@ def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
         y = np.empty(X.shape[0])
         for start in range(0, X.shape[0], chunk_size):
             sl = slice(start, min(start + chunk_size, X.shape[0]))
-            params = {k: v[sl] for k, v in params_all.items()} or \
-                {"plant.dc_capacity_kw": np.full(sl.stop - sl.start,
-                                                 float(case["plant.dc_capacity_kw"]))}
+            params = {k: v[sl] for k, v in params_all.items()}
             wf = np.repeat(persist[sl, None], life, axis=1)
             c = evaluate(case, site, params, weather_factors=wf).cashflow
             y[sl] = {"lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,

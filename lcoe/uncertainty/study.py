@@ -25,7 +25,6 @@ from .engine import (
 from .sensitivity import SobolResult, morris_screen, sobol_analyze, sobol_sample, tornado
 from .spec import UncertainSpec
 
-
 #: Plain names of the outputs, for sentences.
 OUTPUT_LABELS = {"lcoe_real_per_kwh": "the real cost per kWh (LCOE)",
                  "lcoe_nominal_per_kwh": "the nominal cost per kWh (LCOE)",
