@@ -261,9 +261,10 @@ class BankabilityBlock:
                 lines.append(f"    Min DSCR           P10 {m['min_dscr']['q10']:.2f}x, P50 "
                              f"{m['min_dscr']['q50']:.2f}x, P90 {m['min_dscr']['q90']:.2f}x")
         if any(len(r.roots) > 1 for r in irrs.values()):
-            lines.append("    note: cash flows that turn negative again late in life (replacements, "
-                         "decommissioning) give several IRRs; all are shown, none is chosen. "
-                         "Read the NPV, or the IRR nearest the discount rate, with care")
+            lines.append("    note: cash flows that turn negative again late in life "
+                         "(replacements, decommissioning) give several IRRs; all are shown, "
+                         "none is chosen. Read the NPV, or the IRR nearest the discount rate, "
+                         "with care")
         lines += [f"    note: {n}" for n in self.notes]
         return lines
 
