@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .irradiance import FacetIrradiance, PlaneOfArray, iam_beam
+from .irradiance import FacetIrradiance, PlaneOfArray, as_facets
 from .weather import Weather
 
 #: Inputs of :func:`simulate` (dotted case paths) that act per sample.
@@ -222,12 +222,9 @@ def _facet_rows(poa, aoi_model: str):
 
     A flat plane is one row with share 1 (so its result is unchanged by the facet sum).
     """
-    if isinstance(poa, FacetIrradiance):
-        return (poa.direct_w_m2, poa.direct_effective_w_m2, poa.sky_diffuse_w_m2,
-                poa.ground_per_albedo_w_m2, poa.area_fraction)
-    direct_eff = poa.direct_w_m2 * iam_beam(poa.aoi_deg, aoi_model)
-    return (poa.direct_w_m2[None, :], direct_eff[None, :], poa.sky_diffuse_w_m2[None, :],
-            poa.ground_per_albedo_w_m2[None, :], np.ones(1))
+    f = poa if isinstance(poa, FacetIrradiance) else as_facets(poa, aoi_model)
+    return (f.direct_w_m2, f.direct_effective_w_m2, f.sky_diffuse_w_m2,
+            f.ground_per_albedo_w_m2, f.area_fraction)
 
 
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,

@@ -126,6 +126,22 @@ class FacetIrradiance:
         return int(self.area_fraction.size)
 
 
+def as_facets(poa: PlaneOfArray, aoi_model: str = "physical") -> FacetIrradiance:
+    """A plane of array as one facet of share 1, with its incidence-angle loss applied.
+
+    Parameters
+    ----------
+    poa : PlaneOfArray
+    aoi_model : {"physical", "ashrae"}
+        Beam incidence-angle modifier (see :func:`iam_beam`).
+    """
+    return FacetIrradiance(
+        direct_w_m2=poa.direct_w_m2[None, :],
+        direct_effective_w_m2=(poa.direct_w_m2 * iam_beam(poa.aoi_deg, aoi_model))[None, :],
+        sky_diffuse_w_m2=poa.sky_diffuse_w_m2[None, :],
+        ground_per_albedo_w_m2=poa.ground_per_albedo_w_m2[None, :], area_fraction=np.ones(1))
+
+
 def solar_position(weather: Weather, latitude_deg: float, longitude_deg: float,
                    altitude_m: float) -> SolarPosition:
     """Solar position by SPA (Reda & Andreas 2004) at the centre of each hour.

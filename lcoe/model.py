@@ -20,8 +20,8 @@ from .errors import InputError
 from .irradiance import (
     FacetIrradiance,
     Geometry,
-    PlaneOfArray,
     SolarPosition,
+    as_facets,
     orientation,
     plane_of_array,
     solar_position,
@@ -48,24 +48,23 @@ class Site:
     _poa_cache: dict = field(default_factory=dict, repr=False)
 
     def poa(self, geometry: Geometry, transposition: str,
-            aoi_model: str = "physical") -> PlaneOfArray | FacetIrradiance:
+            aoi_model: str = "physical") -> FacetIrradiance:
         """Irradiance for ``geometry`` (computed once, then cached).
 
-        A plane of array for flat mounts; the facets of a body (with their incidence-angle
-        loss, hence ``aoi_model``) for ``mount = "body"``.
+        Rows of facets with their incidence-angle loss (hence ``aoi_model``): one row for a
+        flat mount, the facets of a body for ``mount = "body"``.
         """
-        body = geometry.mount == "body"
-        key = (geometry, transposition, aoi_model if body else None)
+        key = (geometry, transposition, aoi_model)
         if key not in self._poa_cache:
-            if body:
+            if geometry.mount == "body":
                 from .bodies import body_irradiance
 
                 self._poa_cache[key] = body_irradiance(self.weather, self.sun, geometry.body,
                                                        transposition, aoi_model)
-            else:
+            else:  # one facet, incidence-angle loss applied once here, not per model call
                 tilt, az = orientation(geometry, self.sun)
-                self._poa_cache[key] = plane_of_array(self.weather, self.sun, tilt, az,
-                                                      transposition)
+                self._poa_cache[key] = as_facets(plane_of_array(self.weather, self.sun, tilt,
+                                                                az, transposition), aoi_model)
         return self._poa_cache[key]
 
 

@@ -52,9 +52,10 @@ def test_poa_dual_above_single_above_fixed(demo_case, demo_site):
 def test_dual_axis_faces_the_sun(demo_case, demo_site):
     # Analytic: with the normal on the sun the angle of incidence is 0 and the beam on the
     # plane equals DNI (pvlib's beam component is DNI cos(aoi)).
-    from lcoe.irradiance import Geometry
+    from lcoe.irradiance import Geometry, orientation, plane_of_array
 
-    poa = demo_site.poa(Geometry("dual_axis", 0.0, 180.0), "perez")
+    tilt, az = orientation(Geometry("dual_axis", 0.0, 180.0), demo_site.sun)
+    poa = plane_of_array(demo_site.weather, demo_site.sun, tilt, az, "perez")
     up = demo_site.sun.apparent_zenith_deg < 90.0
     dni = demo_site.weather.data["dni"].to_numpy()
     np.testing.assert_allclose(poa.direct_w_m2[up], dni[up], rtol=1e-9, atol=1e-9)
