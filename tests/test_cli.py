@@ -84,3 +84,14 @@ def test_demo_refreshes_its_own_folder(tmp_path):
     r2 = _run("demo", "--quiet", "--samples", "16", "--sobol", "8", cwd=tmp_path)
     assert r1.returncode == 0 and r2.returncode == 0, r2.stderr
     assert (tmp_path / "outputs" / "demo" / "summary.json").is_file()
+
+
+@pytest.mark.parametrize("script", ["quick_lcoe.py", "uncertainty_and_claim.py"])
+def test_examples_run(script):
+    # The examples in examples/ are part of the documentation: they must keep running.
+    from conftest import ROOT
+
+    r = subprocess.run([sys.executable, str(ROOT / "examples" / script)], capture_output=True,
+                       text=True, cwd=ROOT)
+    assert r.returncode == 0, r.stderr
+    assert "LCOE" in r.stdout
