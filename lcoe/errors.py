@@ -41,6 +41,12 @@ def closest(name: str, candidates: Iterable[str]) -> str | None:
     return hits[0] if hits else None
 
 
+def did_you_mean(name, candidates: Iterable[str]) -> str:
+    """``"; did you mean 'x'?"`` for the closest of ``candidates`` to ``name``, or ``""``."""
+    hint = closest(str(name), candidates) if isinstance(name, str) else None
+    return f"; did you mean '{hint}'?" if hint else ""
+
+
 def unknown_key_error(source: str, key: str, candidates: Iterable[str]) -> InputError:
     """One-line error for an unknown key, suggesting the closest valid one."""
     candidates = list(candidates)

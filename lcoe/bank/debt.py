@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lcoe.errors import InputError, closest, field_error
+from lcoe.errors import InputError, did_you_mean, field_error
 from lcoe.finance import as_flows, check_rate, check_years, crf, discount_factors, per_sample
 
 __all__ = [
@@ -239,8 +239,7 @@ def size_debt(
     flows = {name: as_flows(cf, f"cases[{name!r}]") for name, cf in cases.items()}
     for name, target in constraints:
         if name not in flows:
-            hint = closest(str(name), list(flows))
-            suggestion = f"; did you mean '{hint}'?" if hint else ""
+            suggestion = did_you_mean(name, list(flows))
             raise InputError(
                 f"{src}: unknown case {name!r} in constraints{suggestion} "
                 f"(cases: {', '.join(flows)})"

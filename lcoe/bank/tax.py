@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from lcoe.errors import InputError, closest, field_error
+from lcoe.errors import InputError, did_you_mean, field_error
 from lcoe.finance import as_flows, check_years, per_sample
 
 __all__ = [
@@ -129,8 +129,7 @@ def depreciation_schedule(method: str, depreciable_basis, n_years: int, years=No
        Table A-1 (5-year property, half-year convention).
     """
     if method not in DEPRECIATION_METHODS:
-        hint = closest(str(method), DEPRECIATION_METHODS)
-        suggestion = f"; did you mean '{hint}'?" if hint else ""
+        suggestion = did_you_mean(method, DEPRECIATION_METHODS)
         raise InputError(
             f"{_SRC}: method = {method!r}: expected one of {', '.join(DEPRECIATION_METHODS)}"
             f"{suggestion}"

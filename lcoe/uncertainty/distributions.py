@@ -37,7 +37,7 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from lcoe.errors import InputError, closest
+from lcoe.errors import InputError, did_you_mean
 
 #: Required and optional parameter names of each supported distribution.
 DIST_PARAMETERS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
@@ -357,8 +357,7 @@ def _frozen(dist: str, p: dict, low: float | None, high: float | None):
 
 
 def _unknown_dist(source: str, path: str, dist) -> InputError:
-    hint = closest(str(dist), DIST_PARAMETERS) if isinstance(dist, str) else None
-    suggestion = f"; did you mean {hint!r}?" if hint else ""
+    suggestion = did_you_mean(dist, DIST_PARAMETERS)
     return InputError(
         f"{source}: {_key(path, 'dist')} = {dist!r}: expected one of "
         f"{', '.join(DIST_PARAMETERS)}{suggestion}"
@@ -415,8 +414,7 @@ def parse_distribution(path: str, spec: dict, source: str) -> Distribution:
     allowed = set(required) | set(optional) | {"dist", "group"}
     for key, value in spec.items():
         if key not in allowed:
-            hint = closest(str(key), sorted(allowed - {"dist"}))
-            suggestion = f"; did you mean '{hint}'?" if hint else ""
+            suggestion = did_you_mean(str(key), sorted(allowed - {"dist"}))
             raise InputError(
                 f"{source}: {_key(path, str(key))} = {value!r}: unexpected parameter for "
                 f"dist {dist!r} (allowed: {', '.join(sorted(allowed))}){suggestion}"

@@ -17,7 +17,7 @@ import numpy as np
 from scipy import stats
 from scipy.stats import qmc
 
-from lcoe.errors import InputError, closest
+from lcoe.errors import InputError, did_you_mean
 from lcoe.uncertainty.distributions import Distribution, is_real
 
 #: Smallest and largest uniform handed to a ppf: keeps unbounded quantiles finite.
@@ -236,8 +236,7 @@ def correlation_matrix(
         a, b, rho = pair
         for name in (a, b):
             if name not in index:
-                hint = closest(str(name), names)
-                suggestion = f"; did you mean {hint!r}?" if hint else ""
+                suggestion = did_you_mean(name, names)
                 raise InputError(
                     f"{source}: {field} = {list(pair)!r}: {name!r} is not an uncertain input "
                     f"(uncertain inputs: {', '.join(names)}){suggestion}"
