@@ -145,6 +145,39 @@ class BankabilityBlock:
         b = s.binding[0] if isinstance(s.binding, (list, tuple, np.ndarray)) else s.binding
         return str(b).replace(BASE_CASE, "P50")
 
+    @property
+    def no_debt_reason(self) -> str:
+        """Plain sentence saying why the debt is zero ('' when there is debt)."""
+        s = self.finance.sizing
+        if self.finance.debt[0] > 0:
+            return ""
+        if s is None:
+            return "no debt: a zero loan was given"
+        return str(s.reason[0]) or "no debt can be carried under the sizing constraints"
+
+    def sizing_table(self) -> list[dict]:
+        """The debt each sizing constraint and the gearing cap would allow on its own.
+
+        Returns
+        -------
+        list of dict
+            ``constraint`` (e.g. ``"P99_1yr @ 1.00x"``), ``debt`` [currency] the constraint
+            alone allows, ``gearing`` [-] that debt / capex, ``binding`` (bool; exactly one
+            entry is True).
+        """
+        s = self.finance.sizing
+        if s is None:
+            return []
+        capex = -self.finance.project_flow_pre_tax[0, 0]
+        binding = str(s.binding[0])
+        rows = []
+        for label, amount in s.candidates.items():
+            a = float(np.asarray(amount).reshape(-1)[0])
+            rows.append({"constraint": label.replace(BASE_CASE, "P50"), "debt": a,
+                         "gearing": a / capex if capex > 0 else None,
+                         "binding": label == binding})
+        return rows
+
     def irr_results(self) -> dict:
         """IRRs of the deterministic flows with every root (several roots are all reported)."""
         f = self.finance
@@ -203,6 +236,8 @@ class BankabilityBlock:
             "sizing_constraints": [{"case": c, "min_dscr": m} for c, m in self.constraints],
             "sizing_energy_factors": self.factors, "sigma_1yr": self.sigma_1yr,
             "sigma_10yr": self.sigma_10yr,
+            "sizing_table": self.sizing_table(),
+            "no_debt_reason": self.no_debt_reason or None,
             "min_dscr": f.min_dscr[0], "avg_dscr": f.avg_dscr[0], "llcr": f.llcr[0],
             "project_irr": _irr_value(irrs["project_post_tax"]),
             "project_irr_pre_tax": _irr_value(irrs["project_pre_tax"]),
@@ -238,20 +273,33 @@ class BankabilityBlock:
         sizing = ", ".join(f"{c} @ {m:.2f}x" for c, m in self.constraints)
         lines = [f"  Bankability (debt sized on {sizing})",
                  f"    Debt               {f.debt[0]:,.0f} {cur} (gearing "
-                 f"{100 * self.gearing:.1f} %; binding: {self.binding or '-'})",
-                 f"    DSCR               min {f.min_dscr[0]:.2f}x, average {f.avg_dscr[0]:.2f}x, "
-                 f"LLCR {f.llcr[0]:.2f}x",
+                 f"{100 * self.gearing:.1f} %; binding: {self.binding or '-'})"]
+        for row in self.sizing_table():
+            mark = "  <- binds" if row["binding"] else ""
+            lines.append(f"      {row['constraint']:<22} allows {row['debt']:>16,.0f} {cur}"
+                         f"{mark}")
+        if f.debt[0] > 0:
+            lines.append(f"    DSCR               min {f.min_dscr[0]:.2f}x, average "
+                         f"{f.avg_dscr[0]:.2f}x, LLCR {f.llcr[0]:.2f}x")
+        else:
+            lines.append(f"    DSCR               none: {self.no_debt_reason}")
+        payback = "never" if not np.isfinite(f.payback_year[0]) else \
+            f"{f.payback_year[0]:.0f}"
+        lines += [
                  f"    IRR                project {_irr_text(irrs['project_post_tax'])} "
                  f"post-tax ({_irr_text(irrs['project_pre_tax'])} pre-tax)",
                  f"    Equity IRR         {_irr_text(irrs['equity'])} (target "
                  f"{100 * self.target_irr:.1f} %)",
                  f"    Equity NPV         {f.npv_equity[0]:,.0f} {cur} at "
-                 f"{100 * self.discount_rate:.2f} %; payback year {f.payback_year[0]:.0f}",
+                 f"{100 * self.discount_rate:.2f} %; payback year {payback}",
                  f"    Break-even tariff  {self.breakeven_tariff:.4f} {cur}/kWh (flat real, "
                  f"equity at target IRR)",
                  f"    After-tax LCOE     {self.after_tax_lcoe:.4f} {cur}/kWh (flat real, NPV 0 "
                  f"at WACC {100 * self.discount_rate:.2f} %)"]
-        if self.mc:
+        if self.mc and f.debt[0] <= 0:
+            lines.append(f"    Monte Carlo        no debt service in any trial; P(equity IRR < "
+                         f"target) {100 * self.mc['prob_equity_below_target']:.1f} %")
+        elif self.mc:
             m = self.mc
             lines.append(f"    Monte Carlo        P(DSCR < 1.00 in any year) "
                          f"{100 * m['prob_dscr_below_1']:.1f} %, P(lock-up < "
@@ -308,8 +356,15 @@ def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> Banka
                          dscr_constraints=constraints, sizing_revenue=sizing_rev or None,
                          max_gearing=case["debt.max_gearing"], discount_rate=r, **kwargs)
     if fr.debt[0] <= 0:
-        reason = getattr(fr.sizing, "reason", "") or "no positive debt meets the constraints"
-        notes.append(f"no debt: {reason}")
+        reason = str(fr.sizing.reason[0]) if fr.sizing is not None else ""
+        notes.append(reason or "no debt can be carried under the sizing constraints")
+    else:
+        low = np.nonzero(fr.cfads[0, 1:case["debt.tenor_years"] + 1] < 0)[0]
+        if low.size:
+            notes.append(f"CFADS is negative in year {int(low[0]) + 1}"
+                         + (f" and {low.size - 1} more tenor year(s)" if low.size > 1 else "")
+                         + ": no debt service is scheduled there and the shortfall falls on "
+                           "equity")
     infl = case["finance.inflation"]
     sizing_energy = {c: fi["energy_sold_kwh"] * factors[c] for c, _ in case.debt_sizing
                      if c != "P50"}

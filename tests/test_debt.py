@@ -171,7 +171,8 @@ def test_size_debt_annuity_and_zero_debt_reason():
     assert np.allclose(res.service[0, 1:13], 91.0, rtol=1e-12)
     bad = {"P50": np.r_[0.0, np.full(15, -1.0)]}
     zero = size_debt(bad, [("P50", 1.3)], 0.06, 12, "sculpted", capex=100.0, max_gearing=0.8)
-    assert zero.debt[0] == 0.0 and "P50 @ 1.30x" in zero.reason[0]
+    assert zero.debt[0] == 0.0
+    assert "at 1.30x on P50: CFADS in year 1 is negative" in zero.reason[0]
 
 
 def test_size_debt_vectorised_over_samples():

@@ -31,6 +31,7 @@ __all__ = [
     "size_annuity",
     "size_debt",
     "size_sculpted",
+    "zero_debt_reason",
 ]
 
 #: Repayment profiles: ``sculpted`` (service follows CFADS / target DSCR) or ``annuity``
@@ -307,12 +308,54 @@ def size_debt(
     with np.errstate(divide="ignore", invalid="ignore"):
         scale_to_debt = np.where(pv_profile > 0, debt / pv_profile, 0.0)
     service[:, 1 : tenor + 1] = profile * scale_to_debt[:, None]
-    reason = np.where(
-        debt > 0,
-        "",
-        np.array([f"no positive debt service meets {b}" for b in binding], dtype=object),
-    ).astype(object)
+    reason = np.array(
+        [
+            "" if debt[i] > 0 else zero_debt_reason(flows, constraints, int(j_bind[i]), i, tenor,
+                                                     capped[i], cap_label)
+            for i in range(n_s)
+        ],
+        dtype=object,
+    )
     return DebtSizing(debt, binding, candidates, service, shape_case, reason, repayment)
+
+
+def zero_debt_reason(flows, constraints, j_bind: int, sample: int, tenor: int,
+                     capped: bool = False, cap_label: str = "") -> str:
+    """Plain sentence saying why no debt can be carried, for one sample.
+
+    Parameters
+    ----------
+    flows : mapping of str to numpy.ndarray, each (n_samples, n_years + 1)
+        CFADS of each sizing case [currency/year].
+    constraints : sequence of (case_name, min_dscr)
+    j_bind : int
+        Index of the binding constraint in ``constraints``.
+    sample : int
+        Row of ``flows`` to explain.
+    tenor : int
+        Loan tenor [year].
+    capped, cap_label
+        Whether the gearing cap is what binds, and its label.
+
+    Returns
+    -------
+    str
+        E.g. ``"no debt can be carried at 1.30x on P50: CFADS in year 3 is negative
+        (-12,345)"``.
+    """
+    if capped:
+        return f"no debt can be carried: the {cap_label} allows none"
+    name, target = constraints[j_bind]
+    shown = "P50" if name == "base" else name
+    cf = np.asarray(flows[name])[sample, 1 : tenor + 1]
+    head = f"no debt can be carried at {float(target):.2f}x on {shown}"
+    low = np.nonzero(cf <= 0)[0]
+    if low.size == 0:
+        return f"{head}: no debt service profile meets every constraint"
+    year = int(low[0]) + 1
+    sign = "negative" if cf[low[0]] < 0 else "zero"
+    more = "" if low.size == 1 else f" ({low.size} of the {tenor} tenor years have CFADS <= 0)"
+    return f"{head}: CFADS in year {year} is {sign} ({cf[low[0]]:,.0f}){more}"
 
 
 # --------------------------------------------------------------------------------------------

@@ -118,7 +118,8 @@ def _bank_rows(b: dict, cur: str) -> list[str]:
         _row("Debt", f"{b['debt']:,.0f}", cur, f"gearing {_pct(b['gearing'])} %; binding: "
                                                f"{b.get('binding_constraint') or '-'}"),
         _row("Minimum / average DSCR", f"{b['min_dscr']:.2f} / {b['avg_dscr']:.2f}", "-",
-             f"LLCR {b['llcr']:.2f}"),
+             f"LLCR {b['llcr']:.2f}") if b.get("debt") else
+        _row("Minimum / average DSCR", "none", "-", b.get("no_debt_reason") or ""),
         _row("Equity IRR", *_irr(b, "equity_irr", "equity"),
              f"target {_pct(b.get('target_equity_irr'))} %"),
         _row("Project IRR after tax", *_irr(b, "project_irr", "project_post_tax")),

@@ -237,8 +237,10 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
         define_name(wb, name, ws, r, 3)
         if np.isfinite(value):
             engine_columns(ws, r, 3, value, fmt)
-        else:  # no unique root: list what the engine found
+        elif name in roots:  # no unique root: list what the engine found
             put_text(ws, r, 4, roots_text(roots[name]))
+        else:  # a cover ratio without debt service
+            put_text(ws, r, 4, "engine: none (no debt service)")
     r += 1
     put_text(ws, r, 1, "IRR(): the spreadsheet finds one root near its 10 % guess; the engine "
                        "finds every root and reports a value only when there is exactly one "
