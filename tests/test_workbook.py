@@ -270,6 +270,9 @@ def test_debt_sheet_agrees_with_engine(runs, recalculated):
     f = bank.finance
     wb = recalculated["lender"]
     assert wb.sheetnames.index("Debt") == wb.sheetnames.index("CashFlow") + 1
+    # the debt itself is a live formula: the binding case's CFADS / target DSCR discounted at
+    # the loan rate, scaled to what the other constraints allow, capped by gearing
+    assert _close(_named(wb, "debt_amount"), f.debt[0])
     for name, value in (("min_dscr", f.min_dscr[0]), ("avg_dscr", f.avg_dscr[0]),
                         ("llcr", f.llcr[0]), ("equity_npv", f.npv_equity[0])):
         assert _close(_named(wb, name), value), name
@@ -301,7 +304,8 @@ def test_debt_sheet_agrees_with_engine(runs, recalculated):
                             ("Tax paid", f.tax[0]), ("CFADS", f.cfads[0]),
                             ("Closing loan balance", f.debt_balance[0]),
                             ("Cash flow to equity", f.equity_flow[0]),
-                            ("DSCR = CFADS", f.dscr[0])):
+                            ("DSCR = CFADS", f.dscr[0]),
+                            ("Scheduled debt service", f.sizing.service[0])):
         np.testing.assert_allclose(line(label), expected, rtol=REL, atol=1e-5, err_msg=label)
 
 

@@ -168,6 +168,9 @@ class DebtSizing:
         Why the debt is zero (empty where it is positive).
     repayment : str
         ``"sculpted"`` or ``"annuity"``.
+    cfads : dict of str to numpy.ndarray, shape (n_samples, n_years + 1)
+        The CFADS of each case the debt was sized on [currency/year] (for audit: the
+        workbook re-derives the debt from them).
     """
 
     debt: np.ndarray
@@ -177,6 +180,7 @@ class DebtSizing:
     shape_case: np.ndarray
     reason: np.ndarray
     repayment: str
+    cfads: dict | None = None
 
 
 def size_debt(
@@ -316,7 +320,8 @@ def size_debt(
         ],
         dtype=object,
     )
-    return DebtSizing(debt, binding, candidates, service, shape_case, reason, repayment)
+    return DebtSizing(debt, binding, candidates, service, shape_case, reason, repayment,
+                      {name: np.array(cf) for name, cf in flows.items()})
 
 
 def zero_debt_reason(flows, constraints, j_bind: int, sample: int, tenor: int,

@@ -46,14 +46,16 @@ from .workbook import (
 )
 from .workbook_sheets import YEAR0_COL, col_letter, year_col
 
-_TOKEN = re.compile(r"\[([A-Za-z_]\w*)(<?)\]")
+_TOKEN = re.compile(r"\[([A-Za-z_]\w*)([<>]?)\]")
 
 
 class YearRows:
     """Rows of yearly formulas on a sheet with year t in column ``YEAR0_COL + t``.
 
     A template refers to other rows by key: ``[key]`` is the same year's cell of that row,
-    ``[key<]`` the previous year's (0 in year 0); ``{L}`` is this year's column letter.
+    ``[key<]`` the previous year's (0 in year 0), ``[key>]`` the next year's (0 in the last
+    year); ``{L}`` is this year's column letter. A template may also be a function of the
+    year t returning such a text.
     """
 
     def __init__(self, ws, n_years: int, first_row: int = 1):
@@ -80,10 +82,13 @@ class YearRows:
         for row, template, year0, fmt in self._pending:
             for t in range(self.n + 1):
                 tpl = year0 if (t == 0 and year0 is not None) else template
+                tpl = tpl(t) if callable(tpl) else tpl
 
                 def sub(m, t=t):
-                    if m.group(2):
+                    if m.group(2) == "<":
                         return "0" if t == 0 else self._sheet_ref(m.group(1), t - 1)
+                    if m.group(2) == ">":
+                        return "0" if t == self.n else self._sheet_ref(m.group(1), t + 1)
                     return self._sheet_ref(m.group(1), t)
 
                 text = _TOKEN.sub(sub, tpl).replace("{L}", col_letter(year_col(t)))
@@ -137,16 +142,8 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
     title(ws, r, "Loan, tax and returns of the deterministic case (debt sized by the engine on "
                  + ", ".join(f"{c} at {m:.2f}x" for c, m in bank.constraints) + ")")
     r += 2
-    header(ws, r, ("Sized by the engine", "unit", "Value"))
-    r += 1
-    put_text(ws, r, 1, "Debt drawn at financial close")
-    put_text(ws, r, 2, cur)
-    put(ws, r, 3, f.debt[0], FMT_MONEY)
-    define_name(wb, "debt_amount", ws, r, 3)
-    r += 1
-    put_text(ws, r, 1, "Binding sizing constraint")
-    put_text(ws, r, 3, bank.binding or "-")
-    r += 2
+    sizing_top = r
+    r += len(bank.constraints) + 8
 
     contract = "contract_years" if case.values.get("revenue.contract_years") else \
         "lifetime_years"
@@ -168,9 +165,11 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
               FMT_MONEY)
     y.values("dep", f"Tax depreciation ({case['tax.depreciation']}; engine schedule)", cur,
              f.depreciation[0], FMT_MONEY)
+    y.formula("loan_df", "Discount factor at the loan rate (tenor years)", "-",
+              "=[tenor]/(1+interest_rate)^[t]", FMT_FACTOR)
+    write_sizing = sizing_rows(wb, ws, y, bank, sizing_top, cf + f"$C${cash_rows['capex']}",
+                               cur, int(case["debt.tenor_years"]))
     # loan balance first: interest is needed for tax
-    y.values("sched", "Scheduled debt service (engine sizing)", cur, f.debt_service[0],
-             FMT_MONEY)
     y.formula("opening", "Opening loan balance", cur,
               "=IF([tenor]=1,IF([t]=1,debt_amount,[closing<]),0)", FMT_MONEY)
     y.formula("interest", "Interest = opening balance x loan rate", cur,
@@ -196,10 +195,9 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
     tax_rows(y, "u_", "0", cur, capex, label=" (unlevered: no interest deducted)")
     y.formula("posttax", "Project flow after unlevered tax", cur, "=[ebitda]-[u_tax]",
               FMT_MONEY, year0=f"=[ebitda]-[u_tax]-{cf}C${cash_rows['capex']}")
-    y.formula("loan_df", "Discount factor at the loan rate (tenor years)", "-",
-              "=[tenor]/(1+interest_rate)^[t]", FMT_FACTOR)
     y.values("dscr_engine", "DSCR, engine value (for the chart)", "-", f.dscr[0], "0.000")
     y.finish()
+    write_sizing()
 
     # results
     r = y.row + 2
@@ -268,6 +266,107 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
     for t in range(n + 1):
         ws.column_dimensions[col_letter(year_col(t))].width = 14
     ws.freeze_panes = ws.cell(row=y.rows["t"] + 1, column=YEAR0_COL).coordinate
+
+
+def sizing_rows(wb, ws, y: YearRows, bank, top: int, capex: str, cur: str,
+                tenor_years: int):
+    """Debt sizing as live formulas: what each constraint allows, the debt, the service.
+
+    Writes the table at row ``top`` (``len(constraints) + 7`` rows) and, in ``y``, one row of
+    engine CFADS per sizing case, the service each constraint allows
+    (``MAX(CFADS_t, 0) / target`` in tenor years) and the scheduled service. The CFADS of the
+    sizing cases are engine values: with interest deductible they depend on the loan, which
+    depends on them (the engine's fixed point); everything after them is a formula.
+
+    Sculpted: the service follows the profile of one case s (the engine tries each case's
+    profile and keeps the one that carries the most debt), scaled by
+    ``k = MIN(1, lim_c,t / lim_s,t)`` over the other constraints c; debt =
+    ``MIN(k x PV(lim_s), gearing cap)``. Annuity: each constraint allows
+    ``MIN_t lim_c,t / CRF``; debt = the smallest, capped.
+    """
+    from ..bank.metrics import BASE_CASE
+
+    sizing = bank.finance.sizing
+    names = [BASE_CASE if c == "P50" else c for c, _ in bank.constraints]
+    nc = len(names)
+    sculpted = sizing.repayment == "sculpted"
+    shape = names.index(str(sizing.shape_case[0])) if sculpted else 0
+    table = {j: top + 1 + j for j in range(nc)}
+    cap_row, k_row, crf_row = top + nc + 1, top + nc + 2, top + nc + 3
+    debt_row, bind_row = top + nc + 4, top + nc + 5
+    for j, (case, target) in enumerate(bank.constraints):
+        y.values(f"cf_{j}", f"Sizing case {case}: CFADS (engine, fixed point of tax and "
+                            f"interest)", cur, sizing.cfads[names[j]][0], FMT_MONEY)
+        y.formula(f"lim_{j}", f"Sizing case {case}: service it allows = MAX(CFADS, 0) / "
+                              f"{target:.2f}", cur, f"=[tenor]*MAX([cf_{j}],0)/$C${table[j]}",
+                  FMT_MONEY)
+    if sculpted:
+        for j in range(nc):
+            if j != shape:
+                y.formula(f"ratio_{j}", f"Room under {bank.constraints[j][0]} for the "
+                                        f"{bank.constraints[shape][0]} profile = ratio of "
+                                        "allowed services", "-",
+                          f'=IF([lim_{shape}]>0,[lim_{j}]/[lim_{shape}],"")', "0.000000")
+        y.formula("sched", f"Scheduled debt service = {bank.constraints[shape][0]} profile x "
+                           "debt / its PV", cur,
+                  f"=[lim_{shape}]*IF($D${table[shape]}>0,debt_amount/$D${table[shape]},0)",
+                  FMT_MONEY)
+    else:
+        y.formula("sched", "Scheduled debt service = debt x CRF (annuity)", cur,
+                  f"=[tenor]*debt_amount*$C${crf_row}", FMT_MONEY)
+
+    def write() -> None:
+        header(ws, top, ("Debt sizing: constraint", "target DSCR", "x", "Debt it alone "
+                         "allows", "Engine value", "Relative difference"))
+        put_text(ws, top, 3, "x")
+        first, end = col_letter(year_col(1)), col_letter(year_col(tenor_years))
+        for j, (case, target) in enumerate(bank.constraints):
+            row = table[j]
+            put_text(ws, row, 1, f"{case} @ {target:.2f}x (DSCR constraint)")
+            put(ws, row, 3, float(target), "0.00")
+            lim = y.rows[f"lim_{j}"]
+            if sculpted:
+                formula = f"=SUMPRODUCT({y.span(f'lim_{j}')},{y.span('loan_df')})"
+            else:
+                formula = f"=MIN({first}{lim}:{end}{lim})/$C${crf_row}"
+            put_formula(ws, row, 4, formula, FMT_MONEY)
+            label = constraint_label_of(names[j], target)
+            engine_columns(ws, row, 4, float(sizing.candidates[label][0]), FMT_MONEY)
+        put_text(ws, cap_row, 1, "Gearing cap = max_gearing x capex")
+        put_formula(ws, cap_row, 4, f"=max_gearing*{capex}", FMT_MONEY)
+        cap_label = next(k for k in sizing.candidates if k.startswith("gearing cap"))
+        engine_columns(ws, cap_row, 4, float(sizing.candidates[cap_label][0]), FMT_MONEY)
+        put_text(ws, crf_row, 1, "Capital recovery factor CRF(loan rate, tenor)")
+        put_formula(ws, crf_row, 4, "=IF(interest_rate=0,1/tenor_years,interest_rate/"
+                                    "(1-(1+interest_rate)^(-tenor_years)))", FMT_FACTOR)
+        if sculpted:
+            ratios = [y.span(f"ratio_{j}") for j in range(nc) if j != shape]
+            put_text(ws, k_row, 1, f"Scale k of the {bank.constraints[shape][0]} profile "
+                                   "that every other constraint allows")
+            put_formula(ws, k_row, 4, "=MIN(1," + ",".join(f"MIN({a})" for a in ratios) + ")"
+                        if ratios else "=1", "0.000000")
+            debt = f"=MIN($D${k_row}*$D${table[shape]},$D${cap_row})"
+        else:
+            put_text(ws, k_row, 1, "Annuity: the smallest payment allowed sets the debt")
+            debt = "=MIN(" + ",".join(f"$D${table[j]}" for j in range(nc)) + \
+                f",$D${cap_row})"
+        put_text(ws, debt_row, 1, "Debt drawn at financial close")
+        put_text(ws, debt_row, 2, cur)
+        put_formula(ws, debt_row, 4, debt, FMT_MONEY)
+        engine_columns(ws, debt_row, 4, float(bank.finance.debt[0]), FMT_MONEY)
+        define_name(wb, "debt_amount", ws, debt_row, 4)
+        put_text(ws, bind_row, 1, "Binding (engine)")
+        put_text(ws, bind_row, 4, bank.binding or "-")
+        if bank.no_debt_reason:
+            put_text(ws, bind_row + 1, 1, bank.no_debt_reason)
+
+    return write
+
+
+def constraint_label_of(case: str, target: float) -> str:
+    from ..bank.debt import constraint_label
+
+    return constraint_label(case, float(target))
 
 
 def roots_text(found) -> str:
