@@ -87,13 +87,17 @@ class Progress:
 
 
 def _cmd_run(args) -> int:
-    from .runner import run_case, write_outputs
+    from .output import publish
+    from .runner import read_case, run_case, write_outputs
 
-    result = run_case(args.case, samples=args.samples, seed=args.seed, sobol_base=args.sobol,
-                      sobol_output=args.sobol_output, screen=args.screen, method=args.method,
-                      progress=Progress(not args.quiet))
+    case = read_case(args.case)  # bad input is refused before the output folder is touched
     out = Path(args.out) if args.out else Path("outputs") / Path(args.case).stem
-    write_outputs(result, out, force=args.force, replace_own=args.replace_own)
+    with publish(out, force=args.force, replace_own=args.replace_own) as stage:
+        result = run_case(case, samples=args.samples, seed=args.seed,
+                          sobol_base=args.sobol, sobol_output=args.sobol_output,
+                          screen=args.screen, method=args.method,
+                          progress=Progress(not args.quiet))
+        write_outputs(result, stage)
     if not args.quiet:
         print(format_table(result))
         print(f"  wrote {out}/")
@@ -134,13 +138,10 @@ def _cmd_check(args) -> int:
 def _cmd_new(args) -> int:
     from .template import template_text
 
+    from .output import publish_file
+
     path = Path(args.path)
-    if path.exists() and not args.force:
-        raise InputError(f"{path}: file exists; add --force to replace it")
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(template_text(), encoding="utf-8")
-    tmp.replace(path)
+    publish_file(path, template_text().encode("utf-8"), force=args.force)
     print(f"wrote {path} (edit it, then: lcoe check {path})")
     return 0
 
@@ -179,7 +180,7 @@ def build_parser() -> argparse.ArgumentParser:
     def out_opts(sp, default_help):
         sp.add_argument("--out", help=f"output folder ({default_help})")
         sp.add_argument("--force", action="store_true",
-                        help="write into a non-empty output folder, replacing files")
+                        help="replace an output folder written by lcoe before, as a whole")
         sp.add_argument("--quiet", action="store_true", help="print nothing but errors")
         sp.add_argument("--samples", type=_non_negative_int, default=None,
                         help=f"Monte Carlo trials (default {DEFAULT_SAMPLES} when the case has "

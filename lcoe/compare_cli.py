@@ -50,7 +50,7 @@ def register(sub, non_negative_int, default_seed: int) -> None:
     p.add_argument("--seed", type=non_negative_int, default=default_seed,
                    help=f"seed of the random generator (default {default_seed})")
     p.add_argument("--force", action="store_true",
-                   help="write into a non-empty output folder, replacing files")
+                   help="replace an output folder written by lcoe before, as a whole")
     p.add_argument("--quiet", action="store_true", help="print nothing but errors")
     p.add_argument("--method", choices=("lhs", "random"), default="lhs",
                    help="Monte Carlo sampling: Latin hypercube (default) or random")
@@ -69,18 +69,17 @@ def cmd_compare(args) -> int:
     if len(args.cases) < 2:
         raise InputError("lcoe compare: expected a baseline and at least one candidate "
                          "(lcoe compare BASELINE.toml CANDIDATE.toml ...)")
-    from .output import OutputDir
+    from .output import publish
 
     cases = [load_case(p) for p in args.cases]
     out = Path(args.out) if args.out else Path("outputs") / f"compare_{Path(args.cases[0]).stem}"
-    OutputDir(out, force=args.force, replace_own=args.replace_own)  # refuse before computing
     samples = args.samples if args.samples is not None else 2000
-    result = run_comparison(cases, samples=samples, seed=args.seed,
-                            claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
-                            method=getattr(args, "method", "lhs"),
-                            progress=Progress(not args.quiet))
-    write_compare_outputs(result, out, force=args.force, replace_own=args.replace_own,
-                          provenance={"provenance": provenance(args.seed)})
+    with publish(out, force=args.force, replace_own=args.replace_own) as stage:
+        result = run_comparison(cases, samples=samples, seed=args.seed,
+                                claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
+                                method=getattr(args, "method", "lhs"),
+                                progress=Progress(not args.quiet))
+        write_compare_outputs(result, stage, provenance={"provenance": provenance(args.seed)})
     if not args.quiet:
         print(format_comparison(result))
         print(f"  wrote {out}/")

@@ -11,7 +11,7 @@ from pathlib import Path
 from . import __version__
 from .case import Case, load_case
 from .model import evaluate, prepare
-from .output import OutputDir
+from .output import staged
 from .results import RunResult
 
 #: Libraries whose versions are stored with every result.
@@ -39,6 +39,17 @@ def provenance(seed=None) -> dict:
 DEFAULT_SAMPLES = 2000
 DEFAULT_SEED = 20261201
 DEFAULT_SOBOL_BASE = 1024
+
+
+def read_case(case: Case | str | Path) -> Case:
+    """A validated case from a case file or an edited workbook (``.xlsx``); a Case as is."""
+    if isinstance(case, Case):
+        return case
+    if str(case).lower().endswith(".xlsx"):
+        from .export.readback import case_from_workbook
+
+        return case_from_workbook(case)
+    return load_case(case)
 
 
 def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DEFAULT_SEED,
@@ -75,13 +86,7 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     """
     from .uncertainty.spec import read_spec
 
-    if not isinstance(case, Case):
-        if str(case).lower().endswith(".xlsx"):
-            from .export.readback import case_from_workbook
-
-            case = case_from_workbook(case)
-        else:
-            case = load_case(case)
+    case = read_case(case)
     spec = read_spec(case)
     site = prepare(case)
     base = evaluate(case, site)
@@ -112,19 +117,20 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
                      provenance=provenance(seed if n else None))
 
 
-def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
+def write_outputs(result: RunResult, out_dir, force: bool = False,
                   replace_own: bool = False) -> Path:
     """Write ``summary.json``, ``workbook.xlsx``, the pictures (PNG) and ``report.html``.
 
-    With an uncertainty study also ``trials.csv``. Files are staged under temporary names and
-    renamed into ``out_dir``; a non-empty ``out_dir`` is refused unless ``force``.
+    With an uncertainty study also ``trials.csv``. ``out_dir`` is a folder, published whole
+    in one rename (:func:`lcoe.output.publish`; a non-empty folder is refused unless
+    ``force``), or the :class:`lcoe.output.Stage` of a command that already holds it.
     """
     from .export.plots import render_figures
     from .export.report import write_report
     from .export.summary import summary_json
     from .export.workbook import write_workbook
 
-    with OutputDir(out_dir, force=force, replace_own=replace_own) as out:
+    with staged(out_dir, force=force, replace_own=replace_own) as out:
         out.write_text("summary.json", summary_json(result))
         out.write_with("workbook.xlsx", lambda p: write_workbook(result, p))
         if "uncertainty" in result.extras:
@@ -135,4 +141,4 @@ def write_outputs(result: RunResult, out_dir: str | Path, force: bool = False,
         for name, png in figures.items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
         out.write_with("report.html", lambda p: write_report(result, p, figures))
-    return Path(out_dir)
+    return out.target

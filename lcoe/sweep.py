@@ -520,15 +520,15 @@ def format_table(result: SweepResult) -> str:
 def _cmd_sweep(args) -> int:
     from .cli import Progress
     from .export.sweep_outputs import write_sweep_outputs
-    from .output import OutputDir
+    from .output import publish
 
     plan = load_plan(args.plan)
     out_path = Path(args.out) if args.out else Path("outputs") / Path(args.plan).stem
-    out = OutputDir(out_path, force=args.force)  # refuses a non-empty folder before the run
     bar = Progress(not args.quiet)
-    result = run_sweep(plan, workers=args.workers, scheduler=args.scheduler,
-                       progress=lambda done, total: bar("sweep", done, total))
-    write_sweep_outputs(result, out)
+    with publish(out_path, force=args.force) as stage:  # refuses or locks before the run
+        result = run_sweep(plan, workers=args.workers, scheduler=args.scheduler,
+                           progress=lambda done, total: bar("sweep", done, total))
+        write_sweep_outputs(result, stage)
     if not args.quiet:
         print(format_table(result))
         for note in result.notes:
@@ -558,6 +558,6 @@ def register_cli(sub) -> None:
     how.add_argument("--scheduler", metavar="ADDRESS",
                      help="submit to an existing dask scheduler, e.g. tcp://127.0.0.1:8786")
     s.add_argument("--force", action="store_true",
-                   help="write into a non-empty output folder, replacing files")
+                   help="replace an output folder written by lcoe before, as a whole")
     s.add_argument("--quiet", action="store_true", help="print nothing but errors")
     s.set_defaults(func=_cmd_sweep)

@@ -13,7 +13,7 @@ import numpy as np
 
 from ..claims import audit_sentence, claim_sentence
 from ..compare import ComparisonResult, drivers
-from ..output import OutputDir
+from ..output import staged
 from ..tech.audit import worst_verdict
 from .summary import _clean
 
@@ -302,13 +302,13 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
                           replace_own: bool = False, provenance: dict | None = None) -> Path:
     """Write ``comparison.json``, the pictures and ``comparison.xlsx`` into ``out_dir``.
 
-    Files are staged and renamed (:class:`lcoe.output.OutputDir`); a non-empty folder is
-    refused unless ``force``.
+    ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.output.publish`; a
+    non-empty folder is refused unless ``force``), or the stage of a command that holds it.
     """
-    with OutputDir(out_dir, force=force, replace_own=replace_own) as out:
+    with staged(out_dir, force=force, replace_own=replace_own) as out:
         out.write_text("comparison.json", comparison_json(result, provenance))
         for name, png in render_figures(result).items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
         out.write_with("comparison.xlsx",
                        lambda p: write_comparison_workbook(result, p, provenance))
-    return Path(out_dir)
+    return out.target

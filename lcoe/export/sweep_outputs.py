@@ -298,9 +298,12 @@ def _place_labels(fig, ax, points) -> None:
         taken.append(best[2])
 
 
-def write_sweep_outputs(result, out) -> None:
-    """Write every sweep file through an :class:`lcoe.output.OutputDir` (staged, renamed)."""
-    with out:
+def write_sweep_outputs(result, out_dir, force: bool = False) -> None:
+    """Write every sweep file into a folder published whole (:func:`lcoe.output.publish`) or
+    into the :class:`lcoe.output.Stage` of a command that holds it."""
+    from ..output import staged
+
+    with staged(out_dir, force=force) as out:
         out.write_with("sweep.csv", lambda p: write_sweep_csv(result, p))
         out.write_text("sweep.json", sweep_json(result))
         out.write_with("sweep.xlsx", lambda p: write_sweep_workbook(result, p))
