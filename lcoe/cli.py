@@ -1,6 +1,10 @@
-"""Command line: ``lcoe run | check | new | demo``. Thin: parses, calls the runner, prints.
+"""Command line: ``lcoe run | check | new | demo | compare | sweep``. Thin: parses, calls, prints.
 
 Bad input of any kind ends with one line on stderr and exit status 2, without a traceback.
+
+Start-up is kept fast: this module imports nothing from the scientific stack, and only the
+subcommand being run gets its options (and their imports); ``lcoe --help``, ``--version`` and
+``lcoe new`` never import numpy, pandas, scipy, pvlib, SALib, matplotlib or openpyxl.
 """
 
 from __future__ import annotations
@@ -9,7 +13,10 @@ import argparse
 import sys
 from pathlib import Path
 
+from . import __version__
+from .defaults import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE
 from .errors import InputError
+from .progress import Progress, phase
 
 #: Folder of the bundled case files (the repository's ``inputs/``).
 INPUTS_DIR = Path(__file__).resolve().parent.parent / "inputs"
@@ -57,36 +64,9 @@ def format_table(result) -> str:
     return "\n".join(lines)
 
 
-class Progress:
-    """A progress bar on stderr, shown only once a stage has run for a couple of seconds."""
-
-    def __init__(self, enabled: bool, delay_s: float = 2.0):
-        import time
-
-        self.enabled, self.delay_s, self._time = enabled, delay_s, time.monotonic
-        self._start: dict[str, float] = {}
-        self._shown: set[str] = set()
-
-    def __call__(self, stage: str, done: int, total: int) -> None:
-        if not self.enabled:
-            return
-        now = self._time()
-        start = self._start.setdefault(stage, now)
-        if now - start < self.delay_s and done < total and stage not in self._shown:
-            return
-        if done >= total and stage not in self._shown:
-            return
-        self._shown.add(stage)
-        width = 30
-        filled = int(width * done / max(total, 1))
-        sys.stderr.write(f"\r  {stage:<12} [{'#' * filled}{'.' * (width - filled)}] "
-                         f"{done}/{total}")
-        if done >= total:
-            sys.stderr.write("\n")
-        sys.stderr.flush()
-
-
 def _cmd_run(args) -> int:
+    progress = Progress(not args.quiet)
+    phase(progress, "reading case")
     from .output import publish
     from .runner import read_case, run_case, write_outputs
 
@@ -95,9 +75,9 @@ def _cmd_run(args) -> int:
     with publish(out, force=args.force, replace_own=args.replace_own) as stage:
         result = run_case(case, samples=args.samples, seed=args.seed,
                           sobol_base=args.sobol, sobol_output=args.sobol_output,
-                          screen=args.screen, method=args.method,
-                          progress=Progress(not args.quiet))
-        write_outputs(result, stage)
+                          screen=args.screen, method=args.method, progress=progress)
+        write_outputs(result, stage, progress=progress)
+    progress.close()
     if not args.quiet:
         print(format_table(result))
         print(f"  wrote {out}/")
@@ -105,44 +85,33 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_check(args) -> int:
-    from .case import load_case
-    from .model import load_weather_for
+    from .check import check_case
 
-    case = load_case(args.case)
-    weather = load_weather_for(case)
-    print(f"{args.case}: valid")
-    print(f"  case     {case.name} ({case['case.lifetime_years']} years, "
-          f"{case['case.currency']})")
-    print(f"  site     {case['site.latitude_deg']:.4f}, {case['site.longitude_deg']:.4f}, "
-          f"{case['site.altitude_m']:.0f} m")
-    print(f"  weather  {weather.source} ({weather.fmt}, {weather.n_hours} hours, "
-          f"UTC{weather.utc_offset_h:+g} h)")
-    print(f"  plant    {case['plant.dc_capacity_kw']:,.0f} kW DC, {case['plant.mount']}, "
-          f"{case['plant.transposition']} transposition")
-    from .uncertainty.spec import read_spec
-
-    spec = read_spec(case)
-    steps = ["hourly energy", f"{case['case.lifetime_years']}-year cash flow", "LCOE"]
-    if "revenue" in case.sections:
-        steps.append("tax, debt sizing on " + ", ".join(f"{c} @ {m:.2f}x"
-                                                         for c, m in case.debt_sizing))
-    print(f"  would run: {', '.join(steps)}")
-    if not spec.is_empty:
-        print(f"  uncertain: {len(spec.case_paths)} inputs, energy components "
-              f"{', '.join(spec.energy_components) or 'none'}, year-to-year CoV "
-              f"{spec.interannual_cov:g}, {0 if spec.corr is None else 'with'} correlations"
-              .replace(", 0 correlations", ", no correlations"))
+    for line in check_case(args.case):
+        print(line)
     return 0
 
 
 def _cmd_new(args) -> int:
-    from .template import template_text
-
     from .output import publish_file
+    from .template import KINDS, sweep_files, sweep_plan_text, template_text
 
     path = Path(args.path)
-    publish_file(path, template_text().encode("utf-8"), force=args.force)
-    print(f"wrote {path} (edit it, then: lcoe check {path})")
+    files = {path: template_text(args.kind)}
+    if args.kind == "sweep":
+        files = {path: sweep_plan_text(path.stem)}
+        files.update({path.with_name(n): t for n, t in sweep_files(path.stem).items()})
+    for p in files:  # refuse before writing anything
+        if p.exists() and not args.force:
+            raise InputError(f"{p}: file exists; add --force to replace it")
+    for p, text in files.items():
+        publish_file(p, text.encode("utf-8"), force=args.force)
+    if args.kind == "sweep":
+        print(f"wrote {', '.join(map(str, files))} (sweep plan and its technologies; edit "
+              f"them, then: lcoe sweep {path})")
+    else:
+        print(f"wrote {path} ({KINDS[args.kind]}; edit it, then: "
+              f"lcoe check {path} && lcoe run {path})")
     return 0
 
 
@@ -170,64 +139,119 @@ def _non_negative_int(text: str) -> int:
     return value
 
 
-def build_parser() -> argparse.ArgumentParser:
+def _run_options(sp, default_help: str) -> None:
+    """Options shared by ``run`` and ``demo``."""
+    sp.add_argument("--out", help=f"output folder ({default_help})")
+    sp.add_argument("--force", action="store_true",
+                    help="replace an output folder written by lcoe before, as a whole")
+    sp.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    sp.add_argument("--samples", type=_non_negative_int, default=None,
+                    help=f"Monte Carlo trials (default {DEFAULT_SAMPLES} when the case has "
+                         f"[uncertain] tables; 0 = deterministic only)")
+    sp.add_argument("--seed", type=_non_negative_int, default=DEFAULT_SEED,
+                    help=f"seed of the random generator (default {DEFAULT_SEED})")
+    sp.add_argument("--sobol", type=_non_negative_int, default=DEFAULT_SOBOL_BASE,
+                    metavar="N", help=f"Sobol base samples, rounded up to a power of two "
+                                      f"(default {DEFAULT_SOBOL_BASE}; 0 = skip)")
+    sp.add_argument("--sobol-output", default="lcoe_real_per_kwh",
+                    choices=("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
+                             "energy_first_year_kwh"),
+                    help="output whose drivers are ranked (default lcoe_real_per_kwh)")
+    sp.add_argument("--screen", action="store_true",
+                    help="also run Morris screening (useful with many inputs)")
+    sp.add_argument("--method", choices=("lhs", "random"), default="lhs",
+                    help="Monte Carlo sampling: Latin hypercube (default) or random")
+
+
+def _add_run(sp) -> None:
+    sp.add_argument("case", help="case file (.toml) or an edited workbook (.xlsx)")
+    _run_options(sp, "default outputs/<case name>")
+    sp.set_defaults(func=_cmd_run, replace_own=False)
+
+
+def _add_check(sp) -> None:
+    sp.add_argument("case", help="case file (.toml)")
+    sp.set_defaults(func=_cmd_check)
+
+
+def _add_new(sp) -> None:
+    from .template import KINDS
+
+    sp.add_argument("path", help="file to write (.toml)")
+    sp.add_argument("--kind", choices=tuple(KINDS), default="fixed",
+                    help="what the template describes: " + "; ".join(
+                        f"{k} = {v}" for k, v in KINDS.items()) + " (default fixed)")
+    sp.add_argument("--force", action="store_true", help="replace an existing file")
+    sp.set_defaults(func=_cmd_new)
+
+
+def _add_demo(sp) -> None:
+    _run_options(sp, "default outputs/demo")
+    sp.add_argument("--compare", action="store_true",
+                    help="run the bundled claim test instead (fixed tilt vs single-axis vs a "
+                         "vendor's rotating columns) into outputs/demo_compare")
+    from .compare_cli import add_options
+
+    add_options(sp)
+    sp.set_defaults(func=_cmd_demo)
+
+
+def _add_compare(sp) -> None:
+    from .compare_cli import add_compare_options
+
+    add_compare_options(sp, _non_negative_int, DEFAULT_SEED)
+
+
+def _add_sweep(sp) -> None:
+    from .sweep import add_sweep_options
+
+    add_sweep_options(sp)
+
+
+#: The subcommands: name, one-line help, function adding its options. Only the subcommand
+#: being run gets its options, so ``lcoe --help`` and ``lcoe new`` import nothing heavy.
+COMMANDS = (
+    ("run", "run a case file and write results", _add_run),
+    ("check", "validate a case file (and its weather, uncertainties, debt) and say what would "
+              "run", _add_check),
+    ("new", "write a commented case-file template of a chosen kind", _add_new),
+    ("demo", "run the bundled demo case (--compare: the bundled claim test)", _add_demo),
+    ("compare", "compare cases with common random numbers and test a candidate's claim "
+                "against the baseline", _add_compare),
+    ("sweep", "run many sites x technologies (common random numbers)", _add_sweep),
+)
+
+
+def _chosen_command(argv) -> str | None:
+    """The subcommand named in ``argv`` (the first word that is one), or None."""
+    names = {name for name, _, _ in COMMANDS}
+    for word in argv:
+        if word in names:
+            return word
+        if not word.startswith("-"):
+            return None
+    return None
+
+
+def build_parser(argv=None) -> argparse.ArgumentParser:
+    """The argument parser; with ``argv``, only the subcommand named there gets its options."""
     p = argparse.ArgumentParser(
-        prog="lcoe", description="Cost of solar electricity under uncertainty.")
-    sub = p.add_subparsers(dest="command", required=True)
-
-    from .runner import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE
-
-    def out_opts(sp, default_help):
-        sp.add_argument("--out", help=f"output folder ({default_help})")
-        sp.add_argument("--force", action="store_true",
-                        help="replace an output folder written by lcoe before, as a whole")
-        sp.add_argument("--quiet", action="store_true", help="print nothing but errors")
-        sp.add_argument("--samples", type=_non_negative_int, default=None,
-                        help=f"Monte Carlo trials (default {DEFAULT_SAMPLES} when the case has "
-                             f"[uncertain] tables; 0 = deterministic only)")
-        sp.add_argument("--seed", type=_non_negative_int, default=DEFAULT_SEED,
-                        help=f"seed of the random generator (default {DEFAULT_SEED})")
-        sp.add_argument("--sobol", type=_non_negative_int, default=DEFAULT_SOBOL_BASE,
-                        metavar="N", help=f"Sobol base samples, rounded up to a power of two "
-                                          f"(default {DEFAULT_SOBOL_BASE}; 0 = skip)")
-        sp.add_argument("--sobol-output", default="lcoe_real_per_kwh",
-                        choices=("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
-                                 "energy_first_year_kwh"),
-                        help="output whose drivers are ranked (default lcoe_real_per_kwh)")
-        sp.add_argument("--screen", action="store_true",
-                        help="also run Morris screening (useful with many inputs)")
-        sp.add_argument("--method", choices=("lhs", "random"), default="lhs",
-                        help="Monte Carlo sampling: Latin hypercube (default) or random")
-
-    r = sub.add_parser("run", help="run a case file and write results")
-    r.add_argument("case", help="case file (.toml)")
-    out_opts(r, "default outputs/<case name>")
-    r.set_defaults(func=_cmd_run, replace_own=False)
-    c = sub.add_parser("check", help="validate a case file and say what would run")
-    c.add_argument("case")
-    c.set_defaults(func=_cmd_check)
-    n = sub.add_parser("new", help="write a commented case-file template")
-    n.add_argument("path")
-    n.add_argument("--force", action="store_true", help="replace an existing file")
-    n.set_defaults(func=_cmd_new)
-    d = sub.add_parser("demo", help="run the bundled demo case")
-    out_opts(d, "default outputs/demo")
-    d.add_argument("--compare", action="store_true",
-                   help="run the bundled claim test instead (fixed tilt vs single-axis vs a "
-                        "vendor's rotating columns) into outputs/demo_compare")
-    from .compare_cli import add_options, register
-
-    add_options(d)
-    d.set_defaults(func=_cmd_demo)
-    register(sub, _non_negative_int, DEFAULT_SEED)
-    from .sweep import register_cli
-
-    register_cli(sub)
+        prog="lcoe", description="What a solar kilowatt-hour really costs, and how sure that "
+                                 "number is. Start with: lcoe demo")
+    p.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    chosen = _chosen_command(argv) if argv is not None else None
+    for name, help_text, add in COMMANDS:
+        sp = sub.add_parser(name, help=help_text, description=help_text[0].upper() +
+                            help_text[1:] + ".")
+        if argv is None or name == chosen:
+            add(sp)
     return p
 
 
 def main(argv=None) -> int:
-    parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(argv)
     args = parser.parse_args(argv)
     try:
         return args.func(args)

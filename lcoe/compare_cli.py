@@ -36,12 +36,10 @@ def add_options(p, samples_default: bool = True) -> None:
                         f"{DEFAULT_SOBOL_BASE}; 0 = skip)")
 
 
-def register(sub, non_negative_int, default_seed: int) -> None:
-    """Add the ``compare`` subcommand to the CLI's subparsers."""
+def add_compare_options(p, non_negative_int, default_seed: int) -> None:
+    """Arguments and options of ``lcoe compare`` on its subparser ``p``."""
     from .compare import DEFAULT_SAMPLES
 
-    p = sub.add_parser("compare", help="compare cases with common random numbers and test a "
-                                       "candidate's claim against the baseline")
     p.add_argument("cases", nargs="+", metavar="CASE.toml",
                    help="the baseline first, then one or more candidates")
     p.add_argument("--out", help="output folder (default outputs/compare_<baseline>)")

@@ -32,7 +32,7 @@ ENERGY_PARAMS: tuple[str, ...] = (
     "plant.inverter_efficiency", "plant.ac_loss_fraction", "plant.availability",
 )
 
-#: PVWatts inverter reference efficiency (Dobos 2014), as in pvlib.inverter.pvwatts.
+#: Reference efficiency of the inverter part-load curve (Dobos 2014), as in pvlib.inverter.pvwatts.
 ETA_INV_REF = 0.9637
 
 #: Names of the loss-chain stages, in order [kWh per year].
@@ -97,7 +97,7 @@ def dc_power_kw(effective_irradiance_w_m2, cell_temp_c, dc_capacity_kw, temp_coe
 
 
 def inverter_ac_kw(pdc_kw, ac_capacity_kw, eta_nom):
-    """Inverter output before and after clipping [kW] with the PVWatts part-load curve.
+    """Inverter output before and after clipping [kW] with the part-load curve of Dobos (2014).
 
     ``eta = eta_nom / 0.9637 * (-0.0162 z - 0.0059 / z + 0.9858)``, ``z = P_dc / P_dc0``,
     ``P_dc0 = P_ac0 / eta_nom``; output is floored at 0 and clipped at ``P_ac0``.

@@ -55,3 +55,16 @@ def unknown_key_error(source: str, key: str, candidates: Iterable[str]) -> Input
     suggestion = f"; did you mean '{prefix}{hint}'?" if hint else ""
     valid = ", ".join(sorted(c.rsplit(".", 1)[-1] for c in candidates))
     return InputError(f"{source}: unknown key '{key}'{suggestion} (valid here: {valid})")
+
+
+def unknown_path_error(source: str, table: str, path: str, candidates: Iterable[str]) -> InputError:
+    """One-line error for an unknown dotted input path in ``table`` (e.g. ``[uncertain]``).
+
+    The suggestion is the closest full dotted path, quoted as it would be written in the file.
+    """
+    candidates = list(candidates)
+    hint = closest(path, candidates)
+    suggestion = f'; did you mean "{hint}"?' if hint else ""
+    return InputError(f'{source}: [{table}] "{path}" is not a numeric input of this case'
+                      f"{suggestion} (give the full dotted path of a key, e.g. "
+                      f'"costs.capex_per_kw"; lcoe new writes every key)')

@@ -18,7 +18,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq
 
 from lcoe.errors import field_error
 
@@ -391,6 +390,8 @@ def irr(cashflows) -> IrrResult:
     g = _scaled_npv(u, cf)
     sg = np.sign(g)
     roots = [float(np.expm1(u[k])) for k in np.flatnonzero(sg[1:] == 0) + 1]
+    from scipy.optimize import brentq  # imported here: slow to import
+
     for k in np.flatnonzero(sg[:-1] * sg[1:] < 0):
         a, b = np.expm1(u[k]), np.expm1(u[k + 1])
         root = brentq(lambda r: float(_scaled_npv(np.log1p(r), cf)), a, b, xtol=1e-14)

@@ -10,6 +10,7 @@ from pathlib import Path
 
 from . import __version__
 from .case import Case, load_case
+from .defaults import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE  # noqa: F401 (re-export)
 from .model import evaluate, prepare
 from .output import staged
 from .results import RunResult
@@ -34,11 +35,6 @@ def provenance(seed=None) -> dict:
     return {"versions": versions(), "seed": seed, "command": " ".join(sys.argv),
             "date_utc": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")}
 
-
-#: Defaults of an uncertainty study when the case has an ``[uncertain]`` table.
-DEFAULT_SAMPLES = 2000
-DEFAULT_SEED = 20261201
-DEFAULT_SOBOL_BASE = 1024
 
 
 def read_case(case: Case | str | Path) -> Case:
@@ -78,17 +74,23 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     chunk_size : int
         Trials per model call (memory bound; results do not depend on it).
     progress : callable, optional
-        ``progress(stage, done, total)``.
+        ``progress(stage, done, total)``; ``total == 0`` names a phase as it starts.
 
     Returns
     -------
     RunResult
     """
+    from .model import load_weather_for
+    from .progress import phase
     from .uncertainty.spec import read_spec
 
     case = read_case(case)
     spec = read_spec(case)
-    site = prepare(case)
+    phase(progress, "reading weather")
+    weather = load_weather_for(case)
+    phase(progress, "sun positions")
+    site = prepare(case, weather)
+    phase(progress, "energy and cash flow")
     base = evaluate(case, site)
     from .claims import audit_run
     from .tech.concentrator_model import cautions
@@ -99,6 +101,7 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     if "revenue" in case.sections:
         from .bankability import run_bankability
 
+        phase(progress, "tax and debt")
         bank = run_bankability(case, base, spec)
         extras["bankability"] = bank
     n = (DEFAULT_SAMPLES if not spec.is_empty else 0) if samples is None else samples
@@ -118,13 +121,16 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
 
 
 def write_outputs(result: RunResult, out_dir, force: bool = False,
-                  replace_own: bool = False) -> Path:
+                  replace_own: bool = False, progress=None) -> Path:
     """Write ``summary.json``, ``workbook.xlsx``, the pictures (PNG) and ``report.html``.
 
     With an uncertainty study also ``trials.csv``. ``out_dir`` is a folder, published whole
     in one rename (:func:`lcoe.output.publish`; a non-empty folder is refused unless
     ``force``), or the :class:`lcoe.output.Stage` of a command that already holds it.
     """
+    from .progress import phase
+
+    phase(progress, "writing outputs")
     from .export.plots import render_figures
     from .export.report import write_report
     from .export.summary import summary_json

@@ -541,14 +541,13 @@ def _cmd_sweep(args) -> int:
     return 1 if result.failures else 0
 
 
-def register_cli(sub) -> None:
-    """Add the ``sweep`` subcommand to the ``lcoe`` argument parser's subparsers."""
+def add_sweep_options(s) -> None:
+    """Arguments and options of ``lcoe sweep`` on its subparser ``s``."""
     from .cli import _non_negative_int
 
-    s = sub.add_parser("sweep", help="run many sites x technologies (common random numbers)",
-                       description="Run every site x technology of a sweep plan with its full "
-                                   "Monte Carlo. Exit status 2 for bad input (nothing "
-                                   "written), 1 when some runs failed (the rest is written).")
+    s.description = ("Run every site x technology of a sweep plan with its full Monte Carlo. "
+                     "Exit status 2 for bad input (nothing written), 1 when some runs failed "
+                     "(the rest is written).")
     s.add_argument("plan", help="sweep plan (.toml)")
     s.add_argument("--out", help="output folder (default outputs/<plan name>)")
     how = s.add_mutually_exclusive_group()

@@ -32,10 +32,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
 import numpy as np
-from scipy import stats
 
 from lcoe.errors import InputError, did_you_mean
 
@@ -218,7 +218,11 @@ class Distribution:
         object.__setattr__(self, "params", params)
         object.__setattr__(self, "low", low)
         object.__setattr__(self, "high", high)
-        object.__setattr__(self, "_rv", _frozen(self.dist, params, low, high))
+
+    @cached_property
+    def _rv(self):
+        """The frozen scipy law, built on first use (scipy.stats is slow to import)."""
+        return _frozen(self.dist, self.params, self.low, self.high)
 
     # -- quantiles ---------------------------------------------------------------------------
     def ppf(self, u: np.ndarray) -> np.ndarray:
@@ -293,6 +297,8 @@ class Distribution:
         mu, s = math.log(self.params["median"]), self.params["sigma"]
         alpha = -math.inf if self.low is None else (math.log(self.low) - mu) / s
         beta = math.inf if self.high is None else (math.log(self.high) - mu) / s
+        from scipy import stats
+
         phi = stats.norm.cdf
         mass = phi(beta) - phi(alpha)
         part = phi(beta - k * s) - phi(alpha - k * s)
@@ -332,6 +338,8 @@ def _frozen(dist: str, p: dict, low: float | None, high: float | None):
     """
     if dist == "discrete":
         return None
+    from scipy import stats
+
     if dist == "lognormal":  # work on log(X) ~ normal(log(median), sigma)
         loc, scale = math.log(p["median"]), p["sigma"]
         low = None if low is None else math.log(low)

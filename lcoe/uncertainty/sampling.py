@@ -14,8 +14,6 @@ import inspect
 from collections.abc import Sequence
 
 import numpy as np
-from scipy import stats
-from scipy.stats import qmc
 
 from lcoe.errors import InputError, did_you_mean
 from lcoe.uncertainty.distributions import Distribution, is_real
@@ -27,7 +25,12 @@ U_MAX = 1.0 - np.finfo(float).eps / 2.0
 #: Smallest eigenvalue for a correlation matrix to count as positive definite.
 PD_TOL = 1e-10
 
-_QMC_RNG_KEYWORD = "rng" if "rng" in inspect.signature(qmc.LatinHypercube).parameters else "seed"
+
+def _qmc():
+    """scipy.stats.qmc and the name of its random-generator keyword ("rng" or "seed")."""
+    from scipy.stats import qmc
+
+    return qmc, "rng" if "rng" in inspect.signature(qmc.LatinHypercube).parameters else "seed"
 
 
 def seed_from(rng: np.random.Generator) -> int:
@@ -78,7 +81,8 @@ def latin_hypercube(n: int, d: int, rng: np.random.Generator) -> np.ndarray:
     """
     _check_size(n, d)
     seed = seed_from(rng)
-    engine = qmc.LatinHypercube(d=d, **{_QMC_RNG_KEYWORD: np.random.default_rng(seed)})
+    qmc, rng_keyword = _qmc()
+    engine = qmc.LatinHypercube(d=d, **{rng_keyword: np.random.default_rng(seed)})
     return np.clip(engine.random(n), U_MIN, U_MAX)
 
 
@@ -168,6 +172,8 @@ def iman_conover(
         return x.copy()
     if n <= d:
         raise ValueError(f"u has {n} rows for {d} columns: expected more rows than columns")
+
+    from scipy import stats
 
     scores = stats.norm.ppf(np.arange(1, n + 1) / (n + 1.0))
     m = np.column_stack([rng.permutation(scores) for _ in range(d)])

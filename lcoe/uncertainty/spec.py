@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..case import Case
-from ..errors import InputError, field_error, unknown_key_error
+from ..errors import InputError, field_error, unknown_key_error, unknown_path_error
 from ..schema import FIELD_BY_PATH, STATEMENT_SECTIONS, list_field
 from .distributions import Distribution, parse_distribution
 from .sampling import correlation_matrix
@@ -99,7 +99,7 @@ def read_spec(case: Case) -> UncertainSpec:
     dists: list[Distribution] = []
     for path, spec in table.items():
         if path not in allowed:
-            raise unknown_key_error(src, f'uncertain."{path}"', allowed) if path not in \
+            raise unknown_path_error(src, "uncertain", path, allowed) if path not in \
                 FIELD_BY_PATH else field_error(src, f'uncertain."{path}"', spec,
                                                "a numeric input of the case")
         if not isinstance(spec, Mapping):

@@ -221,6 +221,8 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
     f_tornado = model_function(case, site, spec, sobol_output, chunk_size)
     base_values = {d.name: (1.0 if d.name.startswith("energy.") else
                             _case_value(case, d.name)) for d in spec.dists}
+    if progress:
+        progress("tornado (one input at a time)", 0, 0)
     torn = tornado(spec.dists, f_tornado, base_values)
     sens_notes = ["Sobol indices assume independent inputs; the Monte Carlo applies the "
                   "correlations, the Sobol design does not."]
@@ -237,6 +239,8 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
                           "its mean); persistent energy components are included.")
     morris = None
     if screen:
+        if progress:
+            progress("Morris screening", 0, 0)
         morris = morris_screen(spec.dists, model_function(case, site, spec, sobol_output,
                                                           chunk_size),
                                20, make_rng(morris_seq), num_levels=6)
