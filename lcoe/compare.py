@@ -277,6 +277,10 @@ class ComparisonResult:
         LCOE_case / LCOE_reference.
     notes : list of str
     provenance : dict
+    inputs : numpy.ndarray or None
+        (n, D) design rows the trials were run with (columns of ``design``).
+    voi : VoiBlock or None
+        Value of information of the choice between the cases (:mod:`lcoe.compare_voi`).
     """
 
     cases: list
@@ -289,6 +293,8 @@ class ComparisonResult:
     pairs: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+    inputs: np.ndarray | None = None
+    voi: object = None
 
     @property
     def baseline(self) -> CaseOutcome:
@@ -357,8 +363,8 @@ def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
 def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: int = 1,
                    claim_ratio: float | None = None, sobol_base: int = DEFAULT_SOBOL_BASE,
                    method: str = "lhs", chunk_size: int = 1000,
-                   progress: Callable[[str, int, int], None] | None = None
-                   ) -> ComparisonResult:
+                   progress: Callable[[str, int, int], None] | None = None,
+                   voi_bootstrap: int = 100) -> ComparisonResult:
     """Compare cases with common random numbers and test each candidate's claim.
 
     Parameters
@@ -380,6 +386,8 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
         Trials per model call (memory bound; results do not depend on it).
     progress : callable, optional
         ``progress(stage, done, total)``.
+    voi_bootstrap : int
+        Bootstrap resamples of the value-of-information step (0 skips it).
 
     Returns
     -------
@@ -451,9 +459,14 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
                           "claim_ratio": claim.claim_ratio,
                           **ratio_stats(ratio, claim.claim_ratio)})
     notes = _design_notes(design, cases)
-    return ComparisonResult(cases=results, claims=claims, design=design, samples=samples,
-                            seed=seed, method=method, currency=cases[0]["case.currency"],
-                            pairs=pairs, notes=notes)
+    result = ComparisonResult(cases=results, claims=claims, design=design, samples=samples,
+                              seed=seed, method=method, currency=cases[0]["case.currency"],
+                              pairs=pairs, notes=notes, inputs=x)
+    if voi_bootstrap:  # value of information: a separate step on the trials already run
+        from .compare_voi import comparison_voi
+
+        result = replace(result, voi=comparison_voi(result, voi_bootstrap))
+    return result
 
 
 def _claim_test(c: int, case: Case, trials: CaseTrials, base: CaseTrials,
