@@ -330,6 +330,32 @@ def _irr_text(r: IrrResult) -> str:
     return f"none ({r.reason})"
 
 
+def sized_finance(case: Case, base: ModelOutput, factors: dict) -> FinanceResult:
+    """The deterministic finance with debt sized on the case's constraints.
+
+    Parameters
+    ----------
+    case : Case
+        With ``[revenue]`` and ``[debt]`` tables.
+    base : ModelOutput
+        The deterministic run (one sample).
+    factors : dict
+        Energy multipliers of the sizing cases (:func:`sizing_factors`).
+
+    Returns
+    -------
+    FinanceResult
+        One sample; ``debt`` is the sized loan [currency].
+    """
+    fi = finance_inputs(case, base)
+    constraints = [(BASE_CASE if c == "P50" else c, m) for c, m in case.debt_sizing]
+    sizing_rev = {c: fi["revenue"] * factors[c] for c, _ in case.debt_sizing if c != "P50"}
+    return project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                           dscr_constraints=constraints, sizing_revenue=sizing_rev or None,
+                           max_gearing=case["debt.max_gearing"],
+                           discount_rate=case["finance.discount_rate"], **_tax_debt_kwargs(case))
+
+
 def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> BankabilityBlock:
     """Size the debt on the case's constraints and compute the deterministic metrics.
 
@@ -349,12 +375,9 @@ def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> Banka
     notes.append("sizing cases scale energy and revenue; operating costs are those of P50")
     fi = finance_inputs(case, base)
     constraints = [(BASE_CASE if c == "P50" else c, m) for c, m in case.debt_sizing]
-    sizing_rev = {c: fi["revenue"] * factors[c] for c, _ in case.debt_sizing if c != "P50"}
     kwargs = _tax_debt_kwargs(case)
     r = case["finance.discount_rate"]
-    fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
-                         dscr_constraints=constraints, sizing_revenue=sizing_rev or None,
-                         max_gearing=case["debt.max_gearing"], discount_rate=r, **kwargs)
+    fr = sized_finance(case, base, factors)
     if fr.debt[0] <= 0:
         reason = str(fr.sizing.reason[0]) if fr.sizing is not None else ""
         notes.append(reason or "no debt can be carried under the sizing constraints")

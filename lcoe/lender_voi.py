@@ -4,7 +4,8 @@ Lenders size debt on downside energy cases (P90/P99) whose distance from P50 gro
 energy sigma (:func:`lcoe.bankability.sizing_factors`). An on-site measurement campaign
 narrows the long-term resource uncertainty ``resource_sd``; the debt the project can carry,
 and so the value to its equity, change with it. This module re-sizes the debt with the
-project's own sizing (:func:`lcoe.bankability.run_bankability`) for ``resource_sd`` from its
+project's own sizing (:func:`lcoe.bankability.sized_finance`, the one
+:func:`lcoe.bankability.run_bankability` uses) for ``resource_sd`` from its
 value down to a target, and reports the debt capacity and equity value gained in total and
 per 0.01 of sigma. Orchestration only: it computes nothing but differences.
 
@@ -19,7 +20,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .bankability import run_bankability
+from .bank.metrics import BASE_CASE
+from .bankability import sized_finance, sizing_factors
 from .case import Case
 from .errors import InputError
 from .finance import npv
@@ -158,15 +160,19 @@ def resource_information_value(case: Case, base: ModelOutput, spec: UncertainSpe
     debt, value, at_rate, binding, s1 = [], [], [], [], []
     irr = float(case["equity.target_irr"])
     for s in sigmas:
-        bank = run_bankability(case, base, replace(spec, energy_components={**comps,
-                                                                            "resource": s}))
-        f = bank.finance
+        factors, sigma_1yr, _ = sizing_factors(replace(spec, energy_components={
+            **comps, "resource": s}))
+        f = sized_finance(case, base, factors)
         debt.append(float(f.debt[0]))
         value.append(float(npv(irr, f.equity_flow[0])))
         at_rate.append(float(f.npv_equity[0]))
-        binding.append(bank.binding or "-")
-        s1.append(bank.sigma_1yr)
+        b = "" if f.sizing is None else str(np.asarray(f.sizing.binding).reshape(-1)[0])
+        binding.append(b.replace(BASE_CASE, "P50") or "-")
+        s1.append(sigma_1yr)
     notes = []
+    if all(b.startswith("P50") for b in binding):
+        notes.append("the P50 cover ratio binds at every sigma: narrowing the resource "
+                     "uncertainty barely changes the debt this case can carry")
     if len(set(binding)) > 1:
         notes.append("the binding constraint changes along the way: the gain is not "
                      "proportional to the reduction in sigma")

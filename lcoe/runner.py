@@ -104,6 +104,10 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
         phase(progress, "tax and debt")
         bank = run_bankability(case, base, spec)
         extras["bankability"] = bank
+        if spec.energy_components.get("resource", 0.0) > 0:  # lender's value of information
+            from .lender_voi import resource_information_value
+
+            extras["resource_information"] = resource_information_value(case, base, spec)
     n = (DEFAULT_SAMPLES if not spec.is_empty else 0) if samples is None else samples
     if n:
         from .uncertainty.study import run_study
