@@ -137,4 +137,6 @@ def format_comparison(result) -> str:
                   if f["verdict"] != "ok"]
         lines += [f"    caution: {c}" for c in o.cautions]
     lines += [f"  note: {n}" for n in result.notes]
+    if result.voi is not None:
+        lines += [""] + result.voi.table_lines()
     return "\n".join(lines)

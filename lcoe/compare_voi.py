@@ -105,19 +105,33 @@ class VoiBlock:
             "top_sentence": self.top_sentence(), "caution": CAUTION, "notes": self.notes,
         }
 
-    def table_lines(self) -> list[str]:
+    def table_lines(self, top: int = 10) -> list[str]:
         cur, e = self.currency, self.energy_ref_kwh
         lines = [f"  Worth up to ... to learn before deciding ({self.n_trials:,} trials; choice "
                  f"now: {self.options[self.best]})",
                  f"    {'input or group':<46}{'value ' + cur:>16}{'+/- se':>12}"
                  f"{cur + '/MWh':>11}"]
-        for r in [self.evpi] + self.rows:
+        shown = [self.evpi] + self.rows[:top]
+        for r in shown:
             flag = "  (below its error)" if r.below_se else ""
-            lines.append(f"    {r.name[:45]:<46}{r.value:>16,.0f}{r.se:>12,.0f}"
-                         f"{1000 * r.value / e:>11.3f}{flag}")
+            v = r.value if abs(r.value) >= 0.5 else 0.0  # print no "-0" for rounding noise
+            lines.append(f"    {_clip(r.name, 45):<46}{v:>16,.0f}{r.se:>12,.0f}"
+                         f"{1000 * v / e:>11.3f}{flag}")
+        if len(self.rows) > top:
+            lines.append(f"    ... {len(self.rows) - top} more inputs and groups, each worth at "
+                         f"most {max(self.rows[top].value, 0.0):,.0f} {cur} (all in the JSON "
+                         f"and the workbook)")
         lines += ["    " + self.top_sentence(), f"    note: {CAUTION}"]
         lines += [f"    note: {n}" for n in self.notes]
         return lines
+
+
+def _clip(text: str, n: int) -> str:
+    """``text`` cut to n characters with an ellipsis in the middle (keeps the case name)."""
+    if len(text) <= n:
+        return text
+    half = (n - 3) // 2
+    return text[:half] + "..." + text[-(n - 3 - half):]
 
 
 def _money(x: float, cur: str) -> str:

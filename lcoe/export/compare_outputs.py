@@ -96,6 +96,7 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
         "baseline": cases[0], "candidates": candidates, "pairs": result.pairs,
         "inputs": shared, "notes": result.notes,
         "cautions": _cautions(result), **(provenance or {}),
+        **({"value_of_information": result.voi.to_summary()} if result.voi else {}),
     })
 
 
@@ -146,12 +147,17 @@ def render_figures(result: ComparisonResult) -> dict[str, bytes]:
     pad = 0.05 * (right - left)
     ax.set_xlim(left - pad, right + pad)
     out["lcoe_ratio.png"] = figure_png(fig)
+    if result.voi is not None:
+        from .voi_outputs import PICTURE, voi_png
+
+        out[PICTURE] = voi_png(result.voi)
     return out
 
 
 def write_comparison_workbook(result: ComparisonResult, path: Path,
                               provenance: dict | None = None) -> None:
-    """``comparison.xlsx``: About, Comparison, Audit, Drivers, Inputs and Trials sheets."""
+    """``comparison.xlsx``: About, Comparison, Audit, Drivers, Inputs, Trials (and Value of
+    information) sheets."""
     from openpyxl import Workbook
 
     from .workbook import header, put, put_text, title, widths
@@ -295,6 +301,10 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
         put(ws, t + 2, 1, t + 1)
         for j, col in enumerate(cols, start=2):
             put(ws, t + 2, j, float(col[t]), "0.00000")
+    if result.voi is not None:
+        from .voi_outputs import write_voi_sheet
+
+        write_voi_sheet(wb, result.voi)
     wb.save(path)
 
 
@@ -307,8 +317,13 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
     """
     with staged(out_dir, force=force, replace_own=replace_own) as out:
         out.write_text("comparison.json", comparison_json(result, provenance))
-        for name, png in render_figures(result).items():
+        figures = render_figures(result)
+        for name, png in figures.items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
+        if result.voi is not None:
+            from .voi_outputs import PAGE, PICTURE, voi_page_html
+
+            out.write_text(PAGE, voi_page_html(result.voi, figures[PICTURE]))
         out.write_with("comparison.xlsx",
                        lambda p: write_comparison_workbook(result, p, provenance))
     return out.target

@@ -1,0 +1,59 @@
+"""The lender's value of narrowing the resource uncertainty."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import INPUTS, write_case
+
+from lcoe.case import load_case
+from lcoe.errors import InputError
+from lcoe.lender_voi import resource_information_value
+from lcoe.model import evaluate, prepare
+from lcoe.uncertainty.spec import read_spec
+
+LENDER = INPUTS / "lender_single_axis.toml"
+
+
+@pytest.fixture(scope="module")
+def lender():
+    case = load_case(LENDER)
+    return case, evaluate(case, prepare(case)), read_spec(case)
+
+
+def test_demo_reports_halving_resource_sd(lender):
+    block = resource_information_value(*lender)
+    assert block.sigma[0] == pytest.approx(0.05) and block.sigma[-1] == pytest.approx(0.025)
+    g = block.gains()
+    assert g["debt_per_0_01_sigma"] == pytest.approx(g["debt"] / 2.5)
+    s = block.to_summary()
+    assert s["resource_sd_to"] == pytest.approx(0.025) and len(s["curve"]) == 6
+    # the 1-year sigma used for sizing is the root-sum-square of the components
+    # (DOMAIN.md section 4, normal method): sqrt(0.025^2 + 0.03^2 + 0.045^2)
+    assert block.sigma_1yr[-1] == pytest.approx(np.sqrt(0.025**2 + 0.03**2 + 0.045**2))
+
+
+def test_downside_sizing_gains_debt_when_sigma_narrows(tmp_path):
+    # Sized on P99 alone at 1.00x, the debt must grow as sigma narrows (P99 = P50 (1 - 2.326
+    # sigma), DOMAIN.md section 4), and the equity, borrowing more below its target return,
+    # gains value.
+    text = LENDER.read_text().replace(
+        'sizing = [{ case = "P50", min_dscr = 1.30 }, { case = "P99_1yr", min_dscr = 1.00 }]',
+        'sizing = [{ case = "P99_1yr", min_dscr = 1.00 }]').replace(
+        "max_gearing = 0.80", "max_gearing = 0.95")
+    case = load_case(write_case(tmp_path, text, "p99.toml"))
+    block = resource_information_value(case, evaluate(case, prepare(case)), read_spec(case),
+                                       target_sd=0.02)
+    assert np.all(np.diff(block.debt) > 0)
+    assert block.gains()["debt"] > 0 and block.gains()["equity_value"] > 0
+    assert all(b.startswith("P99_1yr") for b in block.binding)
+
+
+def test_bad_targets_are_refused(lender):
+    case, base, spec = lender
+    with pytest.raises(InputError, match="resource_sd target"):
+        resource_information_value(case, base, spec, target_sd=0.2)
+    from dataclasses import replace
+
+    with pytest.raises(InputError, match="resource_sd is not set"):
+        resource_information_value(case, base, replace(spec, energy_components={}))
