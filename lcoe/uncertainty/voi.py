@@ -58,6 +58,8 @@ N_SEGMENTS = 20
 N_SEGMENTS_GROUP = 8
 #: Largest group whose pairwise products enter the smoother (beyond it: additive only).
 MAX_PAIRWISE = 5
+#: Fewest bootstrap resamples of a group larger than MAX_PAIRWISE.
+LARGE_GROUP_MIN_BOOT = 25
 #: Bootstrap resamples for standard errors.
 DEFAULT_BOOTSTRAP = 100
 #: Smoothing parameters tried by GCV, relative to trace(B'B) / trace(P).
@@ -424,7 +426,7 @@ def _bootstrap_losses(d: _Design, b, lam, inb: np.ndarray, w: np.ndarray) -> np.
 
 
 def evppi(values, x, name: str = "", members=(), n_boot: int = DEFAULT_BOOTSTRAP,
-          seed=None) -> InfoValue:
+          seed=None, weights: np.ndarray | None = None) -> InfoValue:
     """EVPPI of one input or a group, by regression on the trials (Strong et al. 2014).
 
     Parameters
@@ -440,6 +442,9 @@ def evppi(values, x, name: str = "", members=(), n_boot: int = DEFAULT_BOOTSTRAP
     n_boot : int
         Bootstrap resamples for the standard error.
     seed : int, Generator or None
+    weights : numpy.ndarray, optional
+        (n_boot, n) bootstrap counts to use instead of drawing them (``n_boot`` and ``seed``
+        are then ignored), so that several estimates share their resamples.
 
     Returns
     -------
@@ -472,9 +477,10 @@ def evppi(values, x, name: str = "", members=(), n_boot: int = DEFAULT_BOOTSTRAP
     with _one_blas_thread():
         d, b, lam, edf, fitted = _fit(inb, rank_transform(xs[:, keep]))
         est = _decision_loss(np.column_stack([np.zeros(n), fitted]))
-        reps = _bootstrap_losses(d, b, lam, inb, _bootstrap_weights(n, n_boot,
-                                                                     make_rng(seed))) \
-            if n_boot > 1 else np.array([])
+        if weights is None and n_boot > 1:
+            weights = _bootstrap_weights(n, n_boot, make_rng(seed))
+        reps = _bootstrap_losses(d, b, lam, inb, weights) \
+            if weights is not None and weights.shape[0] > 1 else np.array([])
     return _summary(name, members, est, reps, n, edf.sum())
 
 
@@ -494,8 +500,10 @@ def evppi_table(values, x, names, groups: dict | None = None, n_boot: int = DEFA
         Group name -> member input names (groups of one input are skipped: the input's row
         already covers it).
     n_boot : int
+        Bootstrap resamples, shared by every estimate (common resamples); groups of more than
+        :data:`MAX_PAIRWISE` inputs use the first quarter of them (at least
+        :data:`LARGE_GROUP_MIN_BOOT`), as their refits cost far more.
     seed : int, Generator or None
-        One generator for all estimates (each gets its own spawned stream).
 
     Returns
     -------
@@ -505,13 +513,13 @@ def evppi_table(values, x, names, groups: dict | None = None, n_boot: int = DEFA
     x = np.asarray(x, dtype=float)
     names = list(names)
     groups = {k: list(m) for k, m in (groups or {}).items() if len(m) > 1}
-    streams = np.random.SeedSequence(make_rng(seed).integers(2 ** 63)).spawn(
-        len(names) + len(groups))
-    rows = [evppi(values, x[:, j], name, (name,), n_boot, streams[j])
-            for j, name in enumerate(names)]
-    for i, (gname, members) in enumerate(groups.items()):
+    w = _bootstrap_weights(x.shape[0], n_boot, make_rng(seed)) if n_boot > 1 else None
+    w_large = None if w is None else w[:max(LARGE_GROUP_MIN_BOOT, n_boot // 4)]
+    rows = [evppi(values, x[:, j], name, (name,), weights=w) for j, name in enumerate(names)]
+    for gname, members in groups.items():
         cols = [names.index(m) for m in members]
-        rows.append(evppi(values, x[:, cols], gname, members, n_boot, streams[len(names) + i]))
+        rows.append(evppi(values, x[:, cols], gname, members,
+                          weights=w if len(cols) <= MAX_PAIRWISE else w_large))
     return rows
 
 
