@@ -266,8 +266,8 @@ def diffuse_view_factors(spec: BodySpec, facets: tb.Facets) -> tuple[np.ndarray,
 
 
 def body_irradiance(weather: Weather, sun: SolarPosition, spec: BodySpec,
-                    transposition: str = "perez", aoi_model: str = "physical"
-                    ) -> FacetIrradiance:
+                    transposition: str = "perez", aoi_model: str = "physical",
+                    diffuse_loss: bool = False) -> FacetIrradiance:
     """Irradiance on every facet of a body in a field, ready for the hourly model.
 
     Parameters
@@ -277,6 +277,9 @@ def body_irradiance(weather: Weather, sun: SolarPosition, spec: BodySpec,
     spec : BodySpec
     transposition : {"perez", "haydavies", "isotropic"}
     aoi_model : {"physical", "ashrae"}
+    diffuse_loss : bool
+        Apply the diffuse incidence-angle modifiers of Marion (2017) for each facet's tilt
+        (:func:`lcoe.rows.diffuse_iam`) to its sky and ground parts.
 
     Returns
     -------
@@ -292,7 +295,7 @@ def body_irradiance(weather: Weather, sun: SolarPosition, spec: BodySpec,
     incidence-angle loss on the
     beam of each facet; for a rotating body, ring averages of every component (linear, so the
     body's total is unchanged: the check of :func:`lcoe.tech.body.ring_average`).
-    Memory: five (k, n_h) arrays, e.g. 24 facets x 8760 h x 8 bytes x 5 = 8 MB.
+    Memory: up to nine (k, n_h) arrays, e.g. 24 facets x 8760 h x 8 bytes x 9 = 15 MB.
     """
     facets = spec.facets()
     d = weather.data
@@ -304,8 +307,15 @@ def body_irradiance(weather: Weather, sun: SolarPosition, spec: BodySpec,
     direct = clean["poa_direct"] * shading_beam_factor(spec, sun)[None, :]
     direct_eff = direct * iam_beam(np.nan_to_num(poa["aoi"], nan=90.0), aoi_model)
     sky_share, ground_share = diffuse_view_factors(spec, facets)
-    rows = [direct, direct_eff, clean["poa_sky_diffuse"] * sky_share[:, None],
-            clean["poa_ground_diffuse"] * ground_share[:, None]]
+    sky = clean["poa_sky_diffuse"] * sky_share[:, None]
+    ground = clean["poa_ground_diffuse"] * ground_share[:, None]
+    rows = [direct, direct_eff, sky, ground, clean["poa_direct"], clean["poa_sky_diffuse"],
+            clean["poa_ground_diffuse"]]
+    if diffuse_loss:
+        from .rows import diffuse_iam
+
+        sky_iam, ground_iam = diffuse_iam(facets.tilt_deg, aoi_model)
+        rows += [sky * sky_iam[:, None], ground * ground_iam[:, None]]
     share = facets.area_m2 / facets.total_area_m2
     if spec.rotating:
         rows = [tb.ring_average(facets, r) for r in rows]
@@ -313,9 +323,15 @@ def body_irradiance(weather: Weather, sun: SolarPosition, spec: BodySpec,
                                    return_inverse=True)
         share = np.bincount(ring.ravel(), weights=share)
         rows = [r[first] for r in rows]
+    effective = {}
+    if diffuse_loss:
+        effective = {"sky_effective_w_m2": rows[7],
+                     "ground_effective_per_albedo_w_m2": rows[8]}
     return FacetIrradiance(direct_w_m2=rows[0], direct_effective_w_m2=rows[1],
                            sky_diffuse_w_m2=rows[2], ground_per_albedo_w_m2=rows[3],
-                           area_fraction=share)
+                           area_fraction=share, open_direct_w_m2=rows[4],
+                           open_sky_w_m2=rows[5], open_ground_per_albedo_w_m2=rows[6],
+                           shading="bodies", **effective)
 
 
 def count_and_land(spec: BodySpec, dc_capacity_kw, module_efficiency):

@@ -24,6 +24,7 @@ from .schema import (
     MOVING_PART_FIELDS,
     REPLACEMENT_FIELDS,
     REQUIRED,
+    ROW_MOUNTS,
     SECTIONS,
     SIZING_CASES,
     Field,
@@ -143,6 +144,8 @@ class Case:
         The ``[[plant.body.facet]]`` list (``plant.body.shape = "facets"``).
     moving_parts : tuple of MovingPart
         The ``[[costs.moving_part]]`` list.
+    soiling_monthly : tuple of 12 float or None
+        ``plant.soiling.monthly_loss``: soiling loss fraction of each month, January first.
     """
 
     source: str
@@ -157,6 +160,7 @@ class Case:
     debt_sizing: tuple[tuple[str, float], ...] = ()
     body_facets: tuple[BodyFacet, ...] = ()
     moving_parts: tuple[MovingPart, ...] = ()
+    soiling_monthly: tuple[float, ...] | None = None
 
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
@@ -178,6 +182,7 @@ class Case:
             if path not in FIELD_BY_PATH:
                 raise unknown_key_error(self.source, path, FIELD_BY_PATH)
             vals[path] = _coerce(FIELD_BY_PATH[path], v, self.source)
+        _apply_orientation_rules(vals)
         _check_cross_fields(vals, self.replacements, self.source)
         _check_mount(vals, self.body_facets, self.source)
         _check_moving_parts(vals, self.moving_parts, self.source)
@@ -277,6 +282,12 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         else:
             values[f.path] = None if f.default is REQUIRED else f.default
     replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
+    for rule, key, what in (("plant.tilt_rule", "tilt_deg", "latitude"),
+                            ("plant.azimuth_rule", "azimuth_deg", "equator")):
+        if values[rule] == what and key in tables["plant"]:
+            raise field_error(source, f"plant.{key}", tables["plant"][key],
+                              f'no value when {rule} = "{what}" (the rule sets it; remove one)')
+    _apply_orientation_rules(values)
     _check_cross_fields(values, replacements, source)
     body_facets = _read_list(tables["plant.body"].get("facet", []), "plant.body.facet",
                              BODY_FACET_FIELDS, BodyFacet, source)
@@ -290,6 +301,8 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
                               MOVING_PART_FIELDS, MovingPart, source)
     _check_moving_parts(values, moving_parts, source)
     monthly = _read_monthly(data.get("site", {}).get("monthly"), values, source)
+    soiling_monthly = _read_soiling_profile(tables["plant.soiling"].get("monthly_loss"),
+                                            values, source)
     sections = frozenset(k for k in data if k in SECTIONS)
     if "revenue" in sections and values["revenue.tariff_per_kwh"] is None:
         raise InputError(f"{source}: missing required key 'revenue.tariff_per_kwh' (contracted "
@@ -305,7 +318,8 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
                 values=MappingProxyType(values), replacements=tuple(replacements),
                 uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
                 monthly=monthly, sections=sections, debt_sizing=sizing,
-                body_facets=tuple(body_facets), moving_parts=tuple(moving_parts))
+                body_facets=tuple(body_facets), moving_parts=tuple(moving_parts),
+                soiling_monthly=soiling_monthly)
 
 
 def _section_table(data: Mapping[str, Any], section: str, source: str) -> Mapping[str, Any]:
@@ -439,6 +453,42 @@ def _read_monthly(table: Any, values: Mapping[str, Any], source: str):
                              "wind_speed_m_s": tuple(wind), "seed": seed})
 
 
+def _apply_orientation_rules(values: dict) -> None:
+    """Set tilt and azimuth from ``plant.tilt_rule`` / ``plant.azimuth_rule`` (in place).
+
+    ``latitude``: tilt = |latitude| (a common screening rule for fixed tilt); ``equator``:
+    azimuth 180 deg (south) north of the equator, 0 deg (north) south of it.
+    """
+    lat = values["site.latitude_deg"]
+    if values["plant.tilt_rule"] == "latitude":
+        values["plant.tilt_deg"] = abs(float(lat))
+    if values["plant.azimuth_rule"] == "equator":
+        values["plant.azimuth_deg"] = 180.0 if lat >= 0 else 0.0
+
+
+def _read_soiling_profile(profile: Any, values: Mapping[str, Any], source: str):
+    """Check ``plant.soiling.monthly_loss`` (12 fractions in [0, 1)) against the model."""
+    model = values["plant.soiling.model"]
+    allowed = "a list of 12 loss fractions in [0, 1), January to December"
+    if profile is None:
+        if model == "monthly":
+            raise InputError(f"{source}: missing key 'plant.soiling.monthly_loss' "
+                             f"(plant.soiling.model = \"monthly\"; {allowed})")
+        return None
+    if model != "monthly":
+        raise field_error(source, "plant.soiling.model", model,
+                          '"monthly" when plant.soiling.monthly_loss is given (or remove it)')
+    if not isinstance(profile, list) or len(profile) != 12:
+        n = len(profile) if isinstance(profile, list) else "not a list of"
+        raise field_error(source, "plant.soiling.monthly_loss", f"{n} values", allowed)
+    out = []
+    for i, v in enumerate(profile):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 <= v < 1:
+            raise field_error(source, f"plant.soiling.monthly_loss[{i}]", v, allowed)
+        out.append(float(v))
+    return tuple(out)
+
+
 def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) -> None:
     """Checks that involve several keys at once."""
     life = values["case.lifetime_years"]
@@ -465,7 +515,21 @@ def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) ->
 
 
 def _check_mount(values: Mapping[str, Any], facets, source: str) -> None:
-    """Checks of the mount's own tables: a concentrator's keys; a body's shape, spacing, drive."""
+    """Checks of the mount's own tables: a concentrator's keys; a body's shape, spacing, drive;
+    rows whose lower edge stays above the ground."""
+    if values["plant.rows"] and values["plant.mount"] in ROW_MOUNTS:
+        from .rows import lowest_row_height_m
+
+        fixed = values["plant.mount"] == "fixed"
+        tilt = values["plant.tilt_deg"] if fixed else values["plant.max_rotation_deg"]
+        width, height = values["plant.row_width_m"], values["plant.row_height_m"]
+        lowest = lowest_row_height_m(width, tilt)
+        if height < lowest:
+            what = "tilt" if fixed else "largest rotation"
+            raise field_error(source, "plant.row_height_m", height,
+                              f">= {lowest:.3g} m: rows {width:g} m wide at a {what} of "
+                              f"{tilt:g} deg reach the ground (width/2 x sin(tilt)); raise "
+                              f"the rows, narrow them or lower the tilt")
     if values["plant.mount"] == "concentrator":
         for f in FIELDS:
             if f.section == "plant.concentrator" and values[f.path] is None:

@@ -30,23 +30,55 @@ ENERGY_PARAMS: tuple[str, ...] = (
     "site.albedo", "plant.dc_capacity_kw", "plant.dc_ac_ratio", "plant.temp_coeff_per_c",
     "plant.thermal_u0", "plant.thermal_u1", "plant.dc_loss_fraction",
     "plant.inverter_efficiency", "plant.ac_loss_fraction", "plant.availability",
+    "plant.bifaciality", "plant.rear_loss_fraction",
 )
+
+#: Values of the rear-side parameters when :func:`simulate` is not given them (monofacial).
+MONOFACIAL: dict[str, float] = {"plant.bifaciality": 0.0, "plant.rear_loss_fraction": 0.0}
 
 #: Reference efficiency of the inverter part-load curve (Dobos 2014), as in pvlib.inverter.pvwatts.
 ETA_INV_REF = 0.9637
 
-#: Names of the loss-chain stages, in order [kWh per year].
+#: Names of the loss-chain stages, in order [kWh per year]. Each stage is the energy after
+#: one more effect; a step that does not apply to a plant (e.g. body shading for rows) leaves
+#: the energy unchanged. ``after_outages_kwh`` is set by :func:`lcoe.model.evaluate`.
 LOSS_CHAIN = (
-    ("poa_kwh", "Nameplate x plane-of-array irradiation / 1 kW/m2"),
-    ("after_iam_kwh", "after angle-of-incidence loss"),
+    ("poa_kwh", "Nameplate x plane-of-array irradiation in an open field / 1 kW/m2"),
+    ("after_row_shading_kwh", "after shading and the narrower sky and ground view between "
+     "rows"),
+    ("after_body_shading_kwh", "after shading between bodies in the field"),
+    ("after_iam_kwh", "after angle-of-incidence loss (beam, sky and ground diffuse)"),
+    ("after_soiling_kwh", "after soiling"),
+    ("after_bifacial_kwh", "plus the rear side (bifacial gain net of rear structure and "
+     "mismatch loss)"),
     ("after_temperature_kwh", "after cell temperature (DC at module terminals)"),
     ("after_dc_losses_kwh", "after DC losses"),
     ("after_inverter_kwh", "after inverter efficiency (before clipping)"),
     ("after_clipping_kwh", "after clipping at the AC rating"),
     ("after_ac_losses_kwh", "after AC losses"),
     ("after_availability_kwh", "after availability"),
-    ("delivered_kwh", "delivered, after the plant's own consumption (drives)"),
+    ("delivered_kwh", "after the plant's own consumption (drives)"),
+    ("after_outages_kwh", "delivered, after moving-part outages (mean over the life)"),
 )
+
+#: Hourly arrays of :attr:`EnergyResult.hourly` (``keep_hourly=True``), each (n_s, n_h):
+#: name -> (unit, meaning). Irradiance is the area-weighted mean over the cells.
+HOURLY_FIELDS: dict[str, tuple[str, str]] = {
+    "poa_front_direct_w_m2": ("W/m2", "front beam after shading by neighbours"),
+    "poa_front_sky_w_m2": ("W/m2", "front sky diffuse after the neighbours' obstruction"),
+    "poa_front_ground_w_m2": ("W/m2", "front ground-reflected light (x albedo)"),
+    "poa_rear_direct_w_m2": ("W/m2", "rear beam (row model)"),
+    "poa_rear_sky_w_m2": ("W/m2", "rear sky diffuse (row model)"),
+    "poa_rear_ground_w_m2": ("W/m2", "rear ground-reflected light (row model, x albedo)"),
+    "soiling_loss_fraction": ("-", "share of the front light lost to soiling"),
+    "effective_irradiance_w_m2": ("W/m2", "light reaching the cells after angle, soiling "
+                                  "losses, plus bifaciality x net rear light"),
+    "cell_temperature_c": ("C", "cell temperature (Faiman, front irradiance)"),
+    "dc_kw": ("kW", "DC power after DC losses"),
+    "ac_before_clipping_kw": ("kW", "inverter output before the AC limit"),
+    "ac_kw": ("kW", "inverter output after clipping"),
+    "delivered_kw": ("kW", "after AC losses, availability and the plant's own consumption"),
+}
 
 
 def faiman_cell_temperature(poa_global_w_m2, temp_air_c, wind_speed_m_s, u0, u1):
@@ -161,6 +193,9 @@ class EnergyResult:
     n_bodies : numpy.ndarray or None
         Number of bodies (nameplate / body nameplate, not rounded) [-], (n_s,); None for flat
         mounts.
+    hourly : dict of str to numpy.ndarray or None
+        With ``keep_hourly``: every array of :data:`HOURLY_FIELDS`, (n_s, n_h) (irradiance
+        components, soiling, cell temperature, DC, AC before and after clipping, delivered).
     """
 
     annual_kwh: np.ndarray
@@ -173,6 +208,7 @@ class EnergyResult:
     cell_area_m2: np.ndarray | None = None
     land_area_m2: np.ndarray | None = None
     n_bodies: np.ndarray | None = None
+    hourly: dict | None = None
 
     @property
     def energy_per_cell_m2_kwh(self) -> np.ndarray:
@@ -217,26 +253,51 @@ def _column(values, n: int) -> np.ndarray:
     return a[:, None]
 
 
-def _facet_rows(poa, aoi_model: str):
-    """(direct, effective direct, sky, ground per albedo) as (k, n_h) arrays and shares (k,).
+def _facet_stages(f: FacetIrradiance) -> dict:
+    """The facet arrays the hourly model needs, (k, n_h), by stage of the loss chain."""
+    out = {
+        "open_n": f.stage("open_direct") + f.stage("open_sky"), "open_g": f.stage("open_ground"),
+        "shaded_n": f.direct_w_m2 + f.sky_diffuse_w_m2, "shaded_g": f.ground_per_albedo_w_m2,
+        "eff_n": f.direct_effective_w_m2 + f.stage("sky_effective"),
+        "eff_g": f.stage("ground_effective"),
+    }
+    if f.has_rear:
+        out["rear_n"] = f.rear_effective_w_m2
+        out["rear_g"] = f.rear_ground_effective_per_albedo_w_m2
+    return out
 
-    A flat plane is one row with share 1 (so its result is unchanged by the facet sum).
-    """
-    f = poa if isinstance(poa, FacetIrradiance) else as_facets(poa, aoi_model)
-    return (f.direct_w_m2, f.direct_effective_w_m2, f.sky_diffuse_w_m2,
-            f.ground_per_albedo_w_m2, f.area_fraction)
+
+def _hourly_components(f: FacetIrradiance, day: np.ndarray, albedo: np.ndarray) -> dict:
+    """Area-weighted irradiance components for :data:`HOURLY_FIELDS`, (m, n_day) each."""
+    w = f.area_fraction[:, None]
+
+    def mean(a, per_albedo=False):
+        v = (w * a[:, day]).sum(axis=0)[None, :]
+        return albedo * v if per_albedo else np.repeat(v, albedo.shape[0], axis=0)
+
+    zero = np.zeros((albedo.shape[0], day.size))
+    rear = f.has_rear
+    return {
+        "poa_front_direct_w_m2": mean(f.direct_w_m2),
+        "poa_front_sky_w_m2": mean(f.sky_diffuse_w_m2),
+        "poa_front_ground_w_m2": mean(f.ground_per_albedo_w_m2, True),
+        "poa_rear_direct_w_m2": mean(f.rear_direct_w_m2) if rear else zero,
+        "poa_rear_sky_w_m2": mean(f.rear_sky_w_m2) if rear else zero,
+        "poa_rear_ground_w_m2": mean(f.rear_ground_per_albedo_w_m2, True) if rear else zero,
+    }
 
 
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
              aoi_model: str = "physical", chunk_size: int = 16, keep_hourly: bool = False,
-             parasitic_kw=None, parasitic_hours=None) -> EnergyResult:
+             parasitic_kw=None, parasitic_hours=None, soiling=None) -> EnergyResult:
     """Hourly energy for every sample, reduced to totals.
 
     Parameters
     ----------
     poa : PlaneOfArray, FacetIrradiance or an object with a ``dc_kw`` method
-        Shared irradiance of the geometry: one plane, arrays (n_h,), or k facets of a body,
-        arrays (k, n_h) with area fractions (k,) (incidence-angle loss already applied), or a
+        Shared irradiance of the geometry: one plane, arrays (n_h,), or k facets (a row of
+        modules, or the facets of a body), arrays (k, n_h) with area fractions (k,)
+        (incidence-angle losses, shading and the rear side already applied), or a
         technology with its own DC model, ``dc_kw(chunk_params, temp_air_c, wind_speed_m_s)
         -> (g_poa, g_eff, pdc_kw)`` (e.g.
         :class:`lcoe.tech.concentrator_model.ConcentratorBeam`).
@@ -245,20 +306,24 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     params : dict of str to array_like
         Every key of :data:`ENERGY_PARAMS` (and whatever a ``dc_kw`` model reads), each a
         scalar or shape (n_s,), in the units of the case file (fractions, kW, 1/C, W/m2/K,
-        W s/m3/K).
+        W s/m3/K); the rear-side keys default to :data:`MONOFACIAL`.
     aoi_model : {"physical", "ashrae"}
         Beam incidence-angle modifier (for a plane; a FacetIrradiance carries its own).
     chunk_size : int
-        Samples evaluated together; bounds peak memory at about 12 x chunk_size x n_h x 8
+        Samples evaluated together; bounds peak memory at about 14 x chunk_size x n_h x 8
         bytes, whatever the number of facets (facets are summed one at a time).
     keep_hourly : bool
-        Also return the hourly delivered AC power (n_s, n_h) [kW].
+        Also return the hourly delivered AC power (n_s, n_h) [kW] and the arrays of
+        :data:`HOURLY_FIELDS`.
     parasitic_kw : array_like, optional
         The plant's own consumption (drives) [kW], scalar or (n_s,), drawn in every hour of
         ``parasitic_hours`` and subtracted after availability. Where it exceeds the output, the
         difference is drawn from the grid and counts as negative delivered energy.
     parasitic_hours : numpy.ndarray of bool, optional
         (n_h,) hours in which the consumption runs (e.g. the sun above the horizon).
+    soiling : tuple (history, coef, cap), optional
+        Front soiling loss ``min(coef x history, cap)`` (:mod:`lcoe.soiling`): history (n_h,),
+        coef and cap scalar or (n_s,). None: no soiling step.
 
     Returns
     -------
@@ -266,10 +331,16 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
 
     Notes
     -----
-    For facet j with area fraction a_j, ``P_dc = sum_j a_j P_stc G_eff,j / 1000 (1 + gamma
-    (T_j - 25))`` with ``T_j`` from Faiman with the facet's own plane-of-array irradiance. The
-    plane-of-array irradiation reported is the area-weighted mean over the cells.
+    For facet j with area fraction a_j, front irradiance after angle losses ``F_j``, soiling
+    ``s``, rear irradiance after angle losses ``R_j``, bifaciality ``phi`` and rear loss
+    ``l_r``: ``G_eff,j = F_j (1 - s) + phi (1 - l_r) R_j`` and ``P_dc = sum_j a_j P_stc
+    G_eff,j / 1000 (1 + gamma (T_j - 25))``, with ``T_j`` from Faiman driven by the facet's
+    front plane-of-array irradiance (as the model was fitted). The loss chain's irradiance
+    stages are sums of linear functions of albedo, so they cost no hourly work per sample
+    except soiling. The plane-of-array irradiation reported is the area-weighted front mean
+    after shading.
     """
+    params = {**MONOFACIAL, **params}
     missing = [k for k in ENERGY_PARAMS if k not in params]
     if missing:
         raise ValueError(f"missing energy parameters: {', '.join(missing)}")
@@ -288,22 +359,32 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         year_onehot = np.ones((weather.n_hours, 1))
     own_dc = not isinstance(poa, (PlaneOfArray, FacetIrradiance))
     run_hours = None if parasitic_kw is None else np.asarray(parasitic_hours, dtype=bool)
+    facets = None
     if own_dc:  # its DC model works on every hour of the year
         day = np.arange(weather.n_hours)
     else:
-        direct, direct_eff, sky, ground, share = _facet_rows(poa, aoi_model)
+        facets = poa if isinstance(poa, FacetIrradiance) else as_facets(poa, aoi_model)
+        st = _facet_stages(facets)
+        share = facets.area_fraction
         # Hours without light on any facet (and no parasitic load) deliver nothing: the hourly
         # arrays hold only the other hours.
-        busy = (direct + sky + ground > 0).any(axis=0)
+        busy = (st["open_n"] + st["open_g"] > 0).any(axis=0)
+        if facets.has_rear:
+            busy |= (st["rear_n"] + st["rear_g"] > 0).any(axis=0)
         if run_hours is not None:
             busy |= run_hours
         day = np.nonzero(busy)[0] if busy.any() else np.arange(1)  # keep one (dark) hour
-        direct, direct_eff = direct[:, day], direct_eff[:, day]
-        sky, ground = sky[:, day], ground[:, day]
+        st = {k: v[:, day] for k, v in st.items()}
+        # Totals over the hours of each stage, per facet (k,), weighted by the facet shares.
+        tot = {k: share @ v.sum(axis=1) for k, v in st.items()}
         t_air, ws = t_air[day], ws[day]
     parasitic = None
     if parasitic_kw is not None:
         parasitic = _column(parasitic_kw, n_s) * run_hours[day].astype(float)
+    soil_hist = None
+    if soiling is not None and not own_dc:
+        soil_hist = np.asarray(soiling[0], dtype=float)[day]
+        soil_coef, soil_cap = _column(soiling[1], n_s), _column(soiling[2], n_s)
     # Monthly and yearly totals: sum each run of consecutive hours of one (year, month) with
     # reduceat, then fold the few runs into months and years (cheaper than an hourly matmul).
     ym = years[day] * 12 + months[day]
@@ -316,27 +397,40 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     poa_kwh_m2 = np.empty(n_s)
     chain = {k: np.empty(n_s) for k, _ in LOSS_CHAIN}
     hourly = np.zeros((n_s, weather.n_hours)) if keep_hourly else None
+    extra = {k: np.zeros((n_s, weather.n_hours)) for k in HOURLY_FIELDS} if keep_hourly else None
     for start in range(0, n_s, chunk_size):
         sl = slice(start, min(start + chunk_size, n_s))
         m = sl.stop - sl.start
         c = {k: v[sl] for k, v in cols.items()}
         albedo = c["site.albedo"]
         p_stc = c["plant.dc_capacity_kw"]
-        g_poa = g_eff = pdc = 0.0
+        rear_k = c["plant.bifaciality"] * (1.0 - c["plant.rear_loss_fraction"])
+        with_rear = facets is not None and facets.has_rear and bool(np.any(rear_k != 0.0))
+        soil = None if soil_hist is None else np.minimum(soil_coef[sl] * soil_hist,
+                                                         soil_cap[sl])
+        g_poa = g_eff = pdc = t_mean = 0.0
+        s_soiled = 0.0
         if own_dc:  # a technology with its own DC model (a concentrator)
             g_poa, g_eff, pdc = poa.dc_kw(c, t_air, ws)
+            t_mean = np.nan  # its own thermal model; not reported hourly
         for j in range(0 if own_dc else share.size):  # facets one at a time: memory bound
-            g_j = direct[j] + sky[j] + albedo * ground[j]
-            g_eff_j = direct_eff[j] + sky[j] + albedo * ground[j]
+            g_j = st["shaded_n"][j] + albedo * st["shaded_g"][j]
+            g_eff_j = st["eff_n"][j] + albedo * st["eff_g"][j]
+            if soil is not None:
+                g_eff_j = g_eff_j * (1.0 - soil)
+                s_soiled = s_soiled + share[j] * g_eff_j.sum(axis=1)
+            if with_rear:
+                g_eff_j = g_eff_j + rear_k * (st["rear_n"][j] + albedo * st["rear_g"][j])
             t_cell = faiman_cell_temperature(g_j, t_air, ws, c["plant.thermal_u0"],
                                              c["plant.thermal_u1"])
             pdc_j = dc_power_kw(g_eff_j, t_cell, p_stc, c["plant.temp_coeff_per_c"])
             if share.size == 1:  # a flat plane: no facet sum to build
-                pdc, g_poa, g_eff = pdc_j, g_j, g_eff_j
+                pdc, g_poa, g_eff, t_mean = pdc_j, g_j, g_eff_j, t_cell
                 break
             pdc = pdc + share[j] * pdc_j
             g_poa = g_poa + share[j] * g_j
             g_eff = g_eff + share[j] * g_eff_j
+            t_mean = t_mean + share[j] * t_cell
         dc_keep = 1.0 - c["plant.dc_loss_fraction"]
         ac_kw = p_stc / c["plant.dc_ac_ratio"]
         unclipped, clipped = inverter_ac_kw(pdc * dc_keep, ac_kw, c["plant.inverter_efficiency"])
@@ -344,13 +438,28 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         avail = c["plant.availability"][:, 0]
         # Stages after clipping are scalar multiples per sample, so their totals are too.
         s_poa = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
-        s_eff = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
         s_pdc = pdc.sum(axis=1)
         s_clip = clipped.sum(axis=1)
         s_par = 0.0 if parasitic is None else parasitic[sl].sum(axis=1)
-        sums = (p_stc[:, 0] * s_poa / 1000.0, p_stc[:, 0] * s_eff / 1000.0, s_pdc,
-                s_pdc * dc_keep[:, 0], unclipped.sum(axis=1), s_clip, s_clip * ac_keep,
-                s_clip * ac_keep * avail, s_clip * ac_keep * avail - s_par)
+        if own_dc:
+            s_eff = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
+            irr = (s_poa, s_poa, s_poa, s_eff, s_eff, s_eff)
+        else:
+            a = albedo[:, 0]
+            s_open = tot["open_n"] + a * tot["open_g"]
+            s_shaded = tot["shaded_n"] + a * tot["shaded_g"]
+            s_iam = tot["eff_n"] + a * tot["eff_g"]
+            s_soil = s_iam if soil is None else s_soiled
+            s_rear = s_soil
+            if facets.has_rear:
+                s_rear = s_soil + rear_k[:, 0] * (tot["rear_n"] + a * tot["rear_g"])
+            rows = facets.shading == "rows"
+            irr = (s_open, s_shaded if rows else s_open, s_shaded, s_iam, s_soil, s_rear)
+        kw_per_w = p_stc[:, 0] / 1000.0
+        delivered = s_clip * ac_keep * avail - s_par
+        sums = tuple(kw_per_w * x for x in irr) + (
+            s_pdc, s_pdc * dc_keep[:, 0], unclipped.sum(axis=1), s_clip, s_clip * ac_keep,
+            s_clip * ac_keep * avail, delivered, delivered)
         for (name, _), total in zip(LOSS_CHAIN, sums):
             chain[name][sl] = total / n_years
         poa_kwh_m2[sl] = s_poa / 1000.0 / n_years
@@ -363,6 +472,17 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         yearly[sl] = seg @ seg_year
         if keep_hourly:
             hourly[sl, day] = clipped * factor - (0.0 if parasitic is None else parasitic[sl])
+            rows_h = {} if own_dc else _hourly_components(facets, day, albedo)
+            rows_h.update({
+                "soiling_loss_fraction": 0.0 if soil is None else soil,
+                "effective_irradiance_w_m2": g_eff, "cell_temperature_c": t_mean,
+                "dc_kw": pdc * dc_keep, "ac_before_clipping_kw": unclipped, "ac_kw": clipped,
+                "delivered_kw": hourly[sl, day]})
+            if own_dc:
+                rows_h["poa_front_direct_w_m2"] = g_poa
+            for k, v in rows_h.items():
+                extra[k][sl, day] = np.broadcast_to(v, (m, day.size))
     return EnergyResult(annual_kwh=annual, monthly_kwh=monthly, yearly_kwh=yearly,
                         loss_chain_kwh=chain, poa_kwh_m2=poa_kwh_m2,
-                        dc_capacity_kw=cols["plant.dc_capacity_kw"][:, 0], hourly_ac_kw=hourly)
+                        dc_capacity_kw=cols["plant.dc_capacity_kw"][:, 0], hourly_ac_kw=hourly,
+                        hourly=extra)

@@ -36,6 +36,12 @@ class Geometry:
         Single-axis backtracking.
     body : lcoe.bodies.BodySpec or None
         The body of a ``"body"`` mount (hashable, so that a geometry is a cache key).
+    rows : bool
+        Fixed and single-axis: model the rows (:mod:`lcoe.rows`, infinite sheds).
+    row_height_m : float
+        Height of the rows' centre line (a tracker's axis) above ground [m].
+    row_width_m : float
+        Slant width of a row [m]; the pitch is ``row_width_m / gcr``.
     """
 
     mount: str
@@ -45,6 +51,9 @@ class Geometry:
     max_rotation_deg: float = 60.0
     backtrack: bool = True
     body: Any = None
+    rows: bool = False
+    row_height_m: float = 1.5
+    row_width_m: float = 2.0
 
 
 @dataclass(frozen=True)
@@ -113,6 +122,19 @@ class FacetIrradiance:
         Ground-reflected irradiance per unit albedo [W/m2], (k, n_h).
     area_fraction : numpy.ndarray
         Share of the body's cell area of each row [-], (k,), summing to 1.
+    sky_effective_w_m2, ground_effective_per_albedo_w_m2 : numpy.ndarray or None
+        Sky diffuse and ground-reflected parts after the diffuse incidence-angle loss (Marion
+        2017); None when that loss is switched off [W/m2], (k, n_h).
+    open_direct_w_m2, open_sky_w_m2, open_ground_per_albedo_w_m2 : numpy.ndarray or None
+        The same plane in an open field, before shading by neighbouring rows or bodies;
+        None when nothing shades it [W/m2], (k, n_h).
+    shading : {"none", "rows", "bodies"}
+        Which loss-chain step the difference between open and shaded light belongs to.
+    rear_direct_w_m2, rear_sky_w_m2, rear_ground_per_albedo_w_m2 : numpy.ndarray or None
+        Irradiance incident on the rear side (rows model) [W/m2], (k, n_h).
+    rear_effective_w_m2, rear_ground_effective_per_albedo_w_m2 : numpy.ndarray or None
+        Rear beam + sky, and rear ground part per unit albedo, after incidence-angle losses
+        [W/m2], (k, n_h); multiplied by bifaciality x (1 - rear loss) in the energy model.
     """
 
     direct_w_m2: np.ndarray
@@ -120,26 +142,105 @@ class FacetIrradiance:
     sky_diffuse_w_m2: np.ndarray
     ground_per_albedo_w_m2: np.ndarray
     area_fraction: np.ndarray
+    sky_effective_w_m2: np.ndarray | None = None
+    ground_effective_per_albedo_w_m2: np.ndarray | None = None
+    open_direct_w_m2: np.ndarray | None = None
+    open_sky_w_m2: np.ndarray | None = None
+    open_ground_per_albedo_w_m2: np.ndarray | None = None
+    shading: str = "none"
+    rear_direct_w_m2: np.ndarray | None = None
+    rear_sky_w_m2: np.ndarray | None = None
+    rear_ground_per_albedo_w_m2: np.ndarray | None = None
+    rear_effective_w_m2: np.ndarray | None = None
+    rear_ground_effective_per_albedo_w_m2: np.ndarray | None = None
 
     @property
     def n_facets(self) -> int:
         return int(self.area_fraction.size)
 
+    @property
+    def has_rear(self) -> bool:
+        """True when the rear side's irradiance is known (rows of a flat mount)."""
+        return self.rear_effective_w_m2 is not None
 
-def as_facets(poa: PlaneOfArray, aoi_model: str = "physical") -> FacetIrradiance:
-    """A plane of array as one facet of share 1, with its incidence-angle loss applied.
+    def stage(self, name: str) -> np.ndarray:
+        """A component with its fallback when a step is absent [W/m2], (k, n_h).
+
+        ``sky_effective`` / ``ground_effective``: without diffuse angle loss, the sky and
+        ground parts; ``open_direct`` / ``open_sky`` / ``open_ground``: without shading, the
+        shaded parts (no shading step).
+        """
+        own = getattr(self, {"sky_effective": "sky_effective_w_m2",
+                             "ground_effective": "ground_effective_per_albedo_w_m2",
+                             "open_direct": "open_direct_w_m2", "open_sky": "open_sky_w_m2",
+                             "open_ground": "open_ground_per_albedo_w_m2"}[name])
+        if own is not None:
+            return own
+        return {"sky_effective": self.sky_diffuse_w_m2,
+                "ground_effective": self.ground_per_albedo_w_m2,
+                "open_direct": self.direct_w_m2, "open_sky": self.sky_diffuse_w_m2,
+                "open_ground": self.ground_per_albedo_w_m2}[name]
+
+
+def as_facets(poa: PlaneOfArray, aoi_model: str = "physical", rows=None,
+              diffuse_loss: bool = False) -> FacetIrradiance:
+    """A plane of array as one facet of share 1, with its incidence-angle losses applied.
 
     Parameters
     ----------
     poa : PlaneOfArray
+        Open-field plane of array (transposition of the case).
     aoi_model : {"physical", "ashrae"}
-        Beam incidence-angle modifier (see :func:`iam_beam`).
+        Beam incidence-angle modifier (see :func:`iam_beam`); also the model integrated for
+        the diffuse modifiers.
+    rows : lcoe.rows.RowIrradiance, optional
+        Row effects on this plane: front beam shading, sky and ground view, rear side.
+        None: an open field (no neighbours; no rear side).
+    diffuse_loss : bool
+        Apply the sky and ground diffuse incidence-angle modifiers of Marion (2017)
+        (:func:`lcoe.rows.diffuse_iam`), front and rear.
+
+    Notes
+    -----
+    With ``rows=None`` and ``diffuse_loss=False`` the result is the open-field plane with only
+    the beam angle loss, exactly as before rows existed.
     """
+    def one(a):
+        return np.asarray(a, dtype=float)[None, :]
+
+    direct, sky, ground = poa.direct_w_m2, poa.sky_diffuse_w_m2, poa.ground_per_albedo_w_m2
+    extra: dict = {}
+    if rows is not None:
+        direct = direct * rows.front_unshaded_fraction
+        sky = sky * rows.front_sky_view_ratio
+        ground = rows.front_ground_per_albedo_w_m2
+        extra.update(open_direct_w_m2=one(poa.direct_w_m2),
+                     open_sky_w_m2=one(poa.sky_diffuse_w_m2),
+                     open_ground_per_albedo_w_m2=one(poa.ground_per_albedo_w_m2), shading="rows")
+        rear_sky_iam = rear_ground_iam = 1.0
+        if diffuse_loss:
+            from .rows import diffuse_iam
+
+            rear_sky_iam, rear_ground_iam = diffuse_iam(rows.rear_tilt_deg, aoi_model)
+        extra.update(
+            rear_direct_w_m2=one(rows.rear_direct_w_m2), rear_sky_w_m2=one(rows.rear_sky_w_m2),
+            rear_ground_per_albedo_w_m2=one(rows.rear_ground_per_albedo_w_m2),
+            rear_effective_w_m2=one(rows.rear_direct_w_m2
+                                    * iam_beam(rows.rear_aoi_deg, aoi_model)
+                                    + rows.rear_sky_w_m2 * rear_sky_iam),
+            rear_ground_effective_per_albedo_w_m2=one(rows.rear_ground_per_albedo_w_m2
+                                                      * rear_ground_iam))
+    if diffuse_loss:
+        from .rows import diffuse_iam
+
+        sky_iam, ground_iam = diffuse_iam(poa.surface_tilt_deg, aoi_model)
+        extra.update(sky_effective_w_m2=one(sky * sky_iam),
+                     ground_effective_per_albedo_w_m2=one(ground * ground_iam))
     return FacetIrradiance(
-        direct_w_m2=poa.direct_w_m2[None, :],
-        direct_effective_w_m2=(poa.direct_w_m2 * iam_beam(poa.aoi_deg, aoi_model))[None, :],
-        sky_diffuse_w_m2=poa.sky_diffuse_w_m2[None, :],
-        ground_per_albedo_w_m2=poa.ground_per_albedo_w_m2[None, :], area_fraction=np.ones(1))
+        direct_w_m2=one(direct),
+        direct_effective_w_m2=one(direct * iam_beam(poa.aoi_deg, aoi_model)),
+        sky_diffuse_w_m2=one(sky), ground_per_albedo_w_m2=one(ground),
+        area_fraction=np.ones(1), **extra)
 
 
 def solar_position(weather: Weather, latitude_deg: float, longitude_deg: float,

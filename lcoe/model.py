@@ -26,7 +26,7 @@ from .irradiance import (
     plane_of_array,
     solar_position,
 )
-from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS
+from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS, KIMBER_HISTORY_PATHS, ROW_MOUNTS
 from .weather import Weather, bundled_weather_path, check_timezone, read_weather
 
 
@@ -48,24 +48,38 @@ class Site:
     _poa_cache: dict = field(default_factory=dict, repr=False)
 
     def poa(self, geometry: Geometry, transposition: str,
-            aoi_model: str = "physical") -> FacetIrradiance:
+            aoi_model: str = "physical", diffuse_loss: bool = False) -> FacetIrradiance:
         """Irradiance for ``geometry`` (computed once, then cached).
 
-        Rows of facets with their incidence-angle loss (hence ``aoi_model``): one row for a
-        flat mount, the facets of a body for ``mount = "body"``.
+        Rows of facets with their incidence-angle losses (hence ``aoi_model`` and
+        ``diffuse_loss``, the diffuse angle loss of Marion 2017): one row for a flat mount
+        (with the row model of :mod:`lcoe.rows` when ``geometry.rows``), the facets of a body
+        for ``mount = "body"``.
         """
-        key = (geometry, transposition, aoi_model)
+        key = (geometry, transposition, aoi_model, diffuse_loss)
         if key not in self._poa_cache:
             if geometry.mount == "body":
                 from .bodies import body_irradiance
 
                 self._poa_cache[key] = body_irradiance(self.weather, self.sun, geometry.body,
-                                                       transposition, aoi_model)
+                                                       transposition, aoi_model, diffuse_loss)
             else:  # one facet, incidence-angle loss applied once here, not per model call
                 tilt, az = orientation(geometry, self.sun)
-                self._poa_cache[key] = as_facets(plane_of_array(self.weather, self.sun, tilt,
-                                                                az, transposition), aoi_model)
+                open_poa = plane_of_array(self.weather, self.sun, tilt, az, transposition)
+                rows = self.rows(geometry, tilt, az) if geometry.rows else None
+                self._poa_cache[key] = as_facets(open_poa, aoi_model, rows, diffuse_loss)
         return self._poa_cache[key]
+
+    def rows(self, geometry: Geometry, tilt_deg, azimuth_deg):
+        """Row shading, views and rear side of a fixed or single-axis geometry (infinite
+        sheds, :func:`lcoe.rows.row_irradiance`)."""
+        from .rows import row_irradiance, row_pitch_m
+
+        d = self.weather.data
+        return row_irradiance(tilt_deg, azimuth_deg, self.sun.apparent_zenith_deg,
+                              self.sun.azimuth_deg, d["ghi"].to_numpy(), d["dhi"].to_numpy(),
+                              d["dni"].to_numpy(), geometry.gcr, geometry.row_height_m,
+                              row_pitch_m(geometry.row_width_m, geometry.gcr))
 
 
 @dataclass(frozen=True)
@@ -175,11 +189,15 @@ def _geometry(case: Case, params: Mapping, i: int) -> Geometry:
         from .bodies import body_spec
 
         body = body_spec(case, {p: params[p][i] for p in BODY_GEOMETRY_PATHS if p in params})
-    return Geometry(mount=case["plant.mount"], tilt_deg=float(params["plant.tilt_deg"][i]),
+    mount = case["plant.mount"]
+    return Geometry(mount=mount, tilt_deg=float(params["plant.tilt_deg"][i]),
                     azimuth_deg=float(params["plant.azimuth_deg"][i]),
                     gcr=float(params["plant.gcr"][i]),
                     max_rotation_deg=float(params["plant.max_rotation_deg"][i]),
-                    backtrack=bool(case["plant.backtrack"]), body=body)
+                    backtrack=bool(case["plant.backtrack"]), body=body,
+                    rows=bool(case["plant.rows"]) and mount in ROW_MOUNTS,
+                    row_height_m=float(params["plant.row_height_m"][i]),
+                    row_width_m=float(params["plant.row_width_m"][i]))
 
 
 def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chunk_size: int,
@@ -210,11 +228,43 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     else:
         land = cell_area / full["plant.gcr"][idx]
     if geometry.mount != "concentrator":
-        poa = site.poa(geometry, case["plant.transposition"], case["plant.aoi_model"])
+        poa = site.poa(geometry, case["plant.transposition"], case["plant.aoi_model"],
+                       bool(case["plant.diffuse_iam"]))
     energy = simulate(poa, site.weather, sub, case["plant.aoi_model"], chunk_size=chunk_size,
                       keep_hourly=keep_hourly, parasitic_kw=parasitic_kw,
-                      parasitic_hours=site.sun.apparent_zenith_deg < 90.0)
+                      parasitic_hours=site.sun.apparent_zenith_deg < 90.0,
+                      soiling=_soiling(case, site, full, idx))
     return replace(energy, cell_area_m2=cell_area, land_area_m2=land, n_bodies=n_bodies)
+
+
+def _soiling(case: Case, site: Site, full: Mapping, idx: np.ndarray):
+    """(history (n_h,), coef (n,), cap (n,)) of the case's soiling model, or None."""
+    model = case["plant.soiling.model"]
+    if model == "none":
+        return None
+    if model == "monthly":
+        from .soiling import monthly_history
+
+        hist = monthly_history(case.soiling_monthly, site.weather.data.index.month)
+        return hist, full["plant.soiling.scale"][idx], np.ones(idx.size)
+    i = int(idx[0])  # the samples of a group share the dirt history (grouped like geometry)
+    key = ("kimber",) + tuple(float(full[p][i]) for p in KIMBER_HISTORY_PATHS)
+    if key not in site._poa_cache:
+        from .soiling import kimber_history
+
+        site._poa_cache[key] = kimber_history(rain_series(site.weather, case.source), *key[1:])
+    return (site._poa_cache[key], full["plant.soiling.rate_per_day"][idx],
+            full["plant.soiling.max_loss"][idx])
+
+
+def rain_series(weather: Weather, source: str):
+    """The weather's hourly rain [mm] as a Series; an InputError when the file has none."""
+    if "precip_mm" not in weather.data.columns:
+        raise InputError(f"{source}: plant.soiling.model = \"kimber\" needs rainfall, but the "
+                         f"weather ({weather.source}) has no precipitation; allowed: a plain "
+                         f"CSV with a precip_mm column or an EPW file with liquid precipitation,"
+                         f" or plant.soiling.model = \"monthly\"")
+    return weather.data["precip_mm"]
 
 
 def evaluate(case: Case, site: Site, params: Mapping | None = None,
@@ -252,6 +302,8 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     for k, v in params.items():
         full[k] = np.broadcast_to(np.asarray(v, dtype=float), (n_s,))
     gpaths = geometry_paths(case)
+    if case["plant.soiling.model"] == "kimber":
+        gpaths = gpaths + KIMBER_HISTORY_PATHS
     for path in gpaths:
         if path not in full:
             full[path] = np.full(n_s, float(case[path]))
@@ -264,6 +316,11 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
         parts.append((idx, _simulate_group(case, site, full, idx, chunk_size, keep_hourly)))
     energy = parts[0][1] if len(parts) == 1 else _merge(parts, n_s)
     cash = cash_flow(case, full, energy, weather_factors)
+    if cash.outage_loss_fraction is not None:  # the loss chain's last step: mean over the life
+        chain = dict(energy.loss_chain_kwh)
+        chain["after_outages_kwh"] = chain["delivered_kwh"] * (
+            1.0 - cash.outage_loss_fraction[:, 1:].mean(axis=1))
+        energy = replace(energy, loss_chain_kwh=chain)
     if not np.all(np.isfinite(cash.lcoe_real)):
         bad = int(np.argmax(~np.isfinite(cash.lcoe_real)))
         raise InputError(f"{case.source}: the model gave a non-finite LCOE for sample {bad} "
@@ -325,6 +382,8 @@ def _merge(parts, n_s: int) -> EnergyResult:
         return out
 
     hourly = None if first.hourly_ac_kw is None else gather(lambda r: r.hourly_ac_kw)
+    extra = None if first.hourly is None else {
+        k: gather(lambda r, k=k: r.hourly[k]) for k in first.hourly}
     return EnergyResult(
         annual_kwh=gather(lambda r: r.annual_kwh), monthly_kwh=gather(lambda r: r.monthly_kwh),
         yearly_kwh=gather(lambda r: r.yearly_kwh),
@@ -334,4 +393,4 @@ def _merge(parts, n_s: int) -> EnergyResult:
         dc_capacity_kw=gather(lambda r: r.dc_capacity_kw), hourly_ac_kw=hourly,
         cell_area_m2=gather(lambda r: r.cell_area_m2),
         land_area_m2=gather(lambda r: r.land_area_m2),
-        n_bodies=None if first.n_bodies is None else gather(lambda r: r.n_bodies))
+        n_bodies=None if first.n_bodies is None else gather(lambda r: r.n_bodies), hourly=extra)

@@ -119,6 +119,12 @@ FIELDS: tuple[Field, ...] = (
       choices=MOUNTS, default="fixed"),
     F("plant.tilt_deg", "float", "deg", "Fixed mount: tilt from horizontal; single-axis: "
       "axis tilt", default=20.0, low=0, high=90, typical="10-35 fixed; 0 trackers"),
+    F("plant.tilt_rule", "choice", "-", "'value': use plant.tilt_deg; 'latitude': tilt = "
+      "|site latitude| (so one technology file serves any site)", choices=("value", "latitude"),
+      default="value"),
+    F("plant.azimuth_rule", "choice", "-", "'value': use plant.azimuth_deg; 'equator': face "
+      "the equator (180 north of it, 0 south of it; a tracker's axis likewise)",
+      choices=("value", "equator"), default="value"),
     F("plant.azimuth_deg", "float", "deg", "Fixed mount: azimuth the modules face (180 = south); "
       "single-axis: azimuth of the axis (180 = north-south axis)", default=180.0,
       low=0, high=360, high_open=True),
@@ -141,7 +147,8 @@ FIELDS: tuple[Field, ...] = (
       low=0, low_open=True, typical="25 (Faiman 2008)"),
     F("plant.thermal_u1", "float", "W s/m3/K", "Faiman wind heat-loss factor", default=6.84,
       low=0, typical="6.84 (Faiman 2008)"),
-    F("plant.dc_loss_fraction", "float", "-", "DC losses: soiling, mismatch, wiring, nameplate",
+    F("plant.dc_loss_fraction", "float", "-", "DC losses: mismatch, wiring, nameplate "
+      "(and soiling unless [plant.soiling] models it)",
       default=0.07, low=0, high=1, high_open=True, typical="0.05-0.12"),
     F("plant.inverter_efficiency", "float", "-", "Inverter nominal efficiency (part-load curve "
       "of Dobos 2014)", default=0.98, low=0, high=1, low_open=True, typical="0.96-0.99"),
@@ -153,8 +160,43 @@ FIELDS: tuple[Field, ...] = (
       default=0.005, low=0, high=0.1, typical="0.005 median (Jordan & Kurtz 2013)"),
     F("plant.transposition", "choice", "-", "Sky-diffuse transposition model",
       choices=("perez", "haydavies", "isotropic"), default="perez"),
-    F("plant.aoi_model", "choice", "-", "Angle-of-incidence loss model for beam light",
+    F("plant.aoi_model", "choice", "-", "Angle-of-incidence loss model for beam light (and, "
+      "integrated over the sky and the ground, for diffuse light)",
       choices=("physical", "ashrae"), default="physical"),
+    F("plant.diffuse_iam", "bool", "-", "Apply the angle-of-incidence loss to sky and ground "
+      "diffuse light too (Marion 2017)", default=True),
+    F("plant.rows", "bool", "-", "Fixed and single-axis: model the rows (infinite sheds): "
+      "beam shading by the row in front, the sky and ground each row sees, the rear side; "
+      "false = an open field, as if each row stood alone", default=True),
+    F("plant.row_height_m", "float", "m", "Height of the rows' centre line above ground "
+      "(trackers: the rotation axis)", default=1.5, low=0, low_open=True,
+      typical="1-2.5"),
+    F("plant.row_width_m", "float", "m", "Slant width of a row from lower to upper edge; the "
+      "distance between rows is row_width_m / gcr", default=2.0, low=0, low_open=True,
+      typical="2 (one module portrait) - 4.5 (two)"),
+    F("plant.bifaciality", "float", "-", "Rear-side efficiency / front-side efficiency "
+      "(0 = monofacial)", default=0.0, low=0, high=1,
+      typical="0 monofacial; 0.65-0.75 PERC; 0.8-0.9 TOPCon, HJT (from memory)"),
+    F("plant.rear_loss_fraction", "float", "-", "Rear light lost to the mounting structure, "
+      "junction boxes and rear mismatch", default=0.1, low=0, high=1, high_open=True,
+      typical="0.05-0.15 (common practice)"),
+    # --- plant.soiling ------------------------------------------------------------------------
+    F("plant.soiling.model", "choice", "-", "'none'; 'monthly': the 12 fractions of "
+      "plant.soiling.monthly_loss; 'kimber': rainfall-driven (Kimber 2006), needs a weather "
+      "file with a precipitation column", choices=("none", "monthly", "kimber"),
+      default="none"),
+    F("plant.soiling.scale", "float", "-", "Multiplier on the monthly soiling profile (make it "
+      "uncertain to sample the profile's level)", default=1.0, low=0, high=10,
+      typical="0.5-2"),
+    F("plant.soiling.rate_per_day", "float", "1/day", "Kimber: energy lost per day without "
+      "cleaning rain", default=0.0015, low=0, high=0.1,
+      typical="0.001-0.002 rural/suburban, 0.003 desert (Kimber 2006)"),
+    F("plant.soiling.max_loss", "float", "-", "Kimber: largest soiling loss", default=0.3,
+      low=0, high=1),
+    F("plant.soiling.cleaning_threshold_mm", "float", "mm", "Kimber: rain in 24 h that cleans "
+      "the modules", default=6.0, low=0, typical="5-10"),
+    F("plant.soiling.grace_period_days", "float", "days", "Kimber: days after a cleaning rain "
+      "with damp ground and no new soiling", default=14.0, low=0, high=60),
     # --- plant.body (plant.mount = "body") --------------------------------------------------
     F("plant.body.shape", "choice", "-", "Shape of each body covered with cells; 'facets' = "
       "the list of [[plant.body.facet]] tables", choices=BODY_SHAPES, optional=True),
@@ -334,6 +376,7 @@ EXTRA_KEYS: dict[str, tuple[str, ...]] = {
     "site": ("monthly",),
     "debt": ("sizing",),
     "plant.body": ("facet",),
+    "plant.soiling": ("monthly_loss",),
     "": ("uncertain", "correlation"),
 }
 
@@ -363,6 +406,13 @@ def numeric_paths() -> list[str]:
 #: acts downstream of it and is evaluated vectorised over samples.
 GEOMETRY_PATHS: tuple[str, ...] = (
     "plant.tilt_deg", "plant.azimuth_deg", "plant.gcr", "plant.max_rotation_deg",
+    "plant.row_height_m", "plant.row_width_m",
+)
+#: Mounts whose rows get the row model (``plant.rows``).
+ROW_MOUNTS: tuple[str, ...] = ("fixed", "single_axis")
+#: Kimber inputs that change the hourly dirt history (grouped like geometry when sampled).
+KIMBER_HISTORY_PATHS: tuple[str, ...] = (
+    "plant.soiling.cleaning_threshold_mm", "plant.soiling.grace_period_days",
 )
 #: Further geometry inputs of a body (``plant.mount = "body"``), when the case gives them.
 BODY_GEOMETRY_PATHS: tuple[str, ...] = (

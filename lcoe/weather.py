@@ -24,7 +24,11 @@ import pandas as pd
 from .errors import InputError
 
 COLUMNS = ("ghi", "dni", "dhi", "temp_air", "wind_speed")
-UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_speed": "m/s"}
+UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_speed": "m/s",
+         "precip_mm": "mm"}
+#: Columns kept when present: rain in each hour [mm] (plain CSV ``precip_mm``; EPW liquid
+#: precipitation depth), used by the rainfall-driven soiling model.
+OPTIONAL_COLUMNS = ("precip_mm",)
 GHI_MAX_W_M2 = 1500.0
 NEGATIVE_TOLERANCE_W_M2 = -10.0
 
@@ -43,8 +47,9 @@ class Weather:
     Attributes
     ----------
     data : pandas.DataFrame
-        Columns ``ghi, dni, dhi`` [W/m2], ``temp_air`` [C], ``wind_speed`` [m/s]; index: start of
-        each hour, tz-aware with a fixed offset.
+        Columns ``ghi, dni, dhi`` [W/m2], ``temp_air`` [C], ``wind_speed`` [m/s], and
+        ``precip_mm`` [mm] when the file has rain; index: start of each hour, tz-aware with a
+        fixed offset.
     source : str
         File the data came from.
     fmt : str
@@ -155,6 +160,9 @@ def _read_epw(p: Path, src: str) -> Weather:
         raise InputError(f"{src}: not a readable EPW file ({type(exc).__name__}: {exc})") \
             from None
     df = _hour_ending_to_start(raw)
+    rain = df.get("liquid_precipitation_depth")
+    if rain is not None and bool(((rain >= 0) & (rain < 999)).all()) and rain.sum() > 0:
+        df["precip_mm"] = rain  # 999 marks a missing value in EPW; use only complete columns
     return _finish(df, src, "epw", meta.get("latitude"), meta.get("longitude"),
                    meta.get("altitude"), float(meta["TZ"]), str(meta.get("city", "")),
                    typical=True)
@@ -223,14 +231,15 @@ def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float
     if missing:
         raise InputError(f"{src}: missing column(s) {', '.join(missing)} "
                          f"(need {', '.join(COLUMNS)} in W/m2, C, m/s)")
-    data = df[list(COLUMNS)].apply(pd.to_numeric, errors="coerce").astype(float)
+    cols = list(COLUMNS) + [c for c in OPTIONAL_COLUMNS if c in df.columns]
+    data = df[cols].apply(pd.to_numeric, errors="coerce").astype(float)
     row0 = 2 if fmt == "csv" else 3 if fmt == "tmy3" else 9  # first data line in the file
     notes: list[str] = []
     values = data.to_numpy()
     bad = ~np.isfinite(values)
     if bad.any():
         r, c = np.argwhere(bad)[0]
-        raise InputError(f"{src}: row {r + row0}: {COLUMNS[c]} is missing or not a number "
+        raise InputError(f"{src}: row {r + row0}: {cols[c]} is missing or not a number "
                          f"({int(bad.any(axis=1).sum())} rows affected); fill gaps before use")
     idx = data.index
     if idx.has_duplicates:
@@ -252,6 +261,10 @@ def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float
         if n_neg:
             data[c] = np.maximum(col, 0.0)
             notes.append(f"{n_neg} small negative {c} values set to 0")
+    if "precip_mm" in data.columns and (data["precip_mm"] < 0).any():
+        r = int(np.argmax(data["precip_mm"].to_numpy() < 0))
+        raise InputError(f"{src}: row {r + row0}: precip_mm = {data['precip_mm'].iloc[r]:g} "
+                         f"mm is negative; allowed: >= 0")
     ghi = data["ghi"].to_numpy()
     if (ghi > GHI_MAX_W_M2).any():
         r = int(np.argmax(ghi > GHI_MAX_W_M2))

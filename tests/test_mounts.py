@@ -64,7 +64,8 @@ def test_dual_axis_faces_the_sun(demo_case, demo_site):
 
 def test_one_flat_facet_equals_fixed_mount(tmp_path, site):
     # Cross-check of two code paths: a body made of one flat facet (no envelope, so no shading
-    # between bodies) is a fixed plane with the same tilt and azimuth.
+    # between bodies) is a fixed plane with the same tilt and azimuth standing alone (no rows);
+    # both with the diffuse angle loss (default on).
     facet = """
 [plant.body]
 shape = "facets"
@@ -75,7 +76,8 @@ azimuth_deg = 200.0
 area_m2 = 2.0
 """
     body = _case(tmp_path, 'mount = "body"', facet)
-    fixed = _case(tmp_path, "tilt_deg = 25.0\nazimuth_deg = 200.0", "", "fixed.toml")
+    fixed = _case(tmp_path, "tilt_deg = 25.0\nazimuth_deg = 200.0\nrows = false", "",
+                  "fixed.toml")
     a = evaluate(body, site, keep_hourly=True).energy
     b = evaluate(fixed, site, keep_hourly=True).energy
     np.testing.assert_allclose(a.hourly_ac_kw, b.hourly_ac_kw, rtol=1e-12, atol=1e-9)
