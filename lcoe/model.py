@@ -111,10 +111,13 @@ def load_weather_for(case: Case) -> Weather:
     (seeded, reproducible; a screening tool, see :mod:`lcoe.synth_weather`).
     """
     if case.monthly is not None:
-        return synthetic_weather(case)
-    path = case.weather_path or bundled_weather_path()
-    weather = read_weather(path, case["site.weather_time_label"])
-    check_timezone(weather, case["site.timezone"], case.source)
+        weather = synthetic_weather(case)
+    else:
+        path = case.weather_path or bundled_weather_path()
+        weather = read_weather(path, case["site.weather_time_label"])
+        check_timezone(weather, case["site.timezone"], case.source)
+    if case["plant.soiling.model"] == "kimber":
+        rain_series(weather, case.source)  # refuse a rainfall model on a file without rain
     return weather
 
 
