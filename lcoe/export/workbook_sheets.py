@@ -114,10 +114,10 @@ def write_energy_sheet(wb, result: RunResult) -> None:
         if i:
             put_formula(ws, r, 3, f"=B{r - 1}-B{r}", FMT_KWH)
             put_formula(ws, r, 4, f"=IF(B{r - 1}=0,0,C{r}/B{r - 1})", "0.00%")
-    r_delivered = r0 + len(LOSS_CHAIN)
     by_key = {key: r0 + 1 + i for i, (key, _) in enumerate(LOSS_CHAIN)}
+    r_delivered = by_key["delivered_kwh"]  # before moving-part outages (the cash flow's E1)
 
-    r = r_delivered + 2
+    r = r0 + len(LOSS_CHAIN) + 2
     header(ws, r, ("Energy figure", "Workbook", "Engine value", "Relative difference", "Unit"))
     r += 1
     put_text(ws, r, 1, "First-year delivered energy E1 (used by CashFlow)")
