@@ -177,6 +177,9 @@ class CaseTrials:
         dLCOE_real/dcapex [currency/kWh per currency/kW].
     energy_scale_a, energy_scale_b : numpy.ndarray
         Terms of ``LCOE_real(s) = A / s + B`` for a factor s on the energy [currency/kWh].
+    equity_npv : numpy.ndarray or None
+        NPV of the cash flow to equity at its target IRR, with the loan sized on the
+        deterministic case [currency]; only when every compared case has ``[revenue]``.
     """
 
     lcoe_real: np.ndarray
@@ -188,6 +191,7 @@ class CaseTrials:
     lcoe_slope_per_capex: np.ndarray
     energy_scale_a: np.ndarray
     energy_scale_b: np.ndarray
+    equity_npv: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -341,9 +345,14 @@ def _yearly_factors(case: Case, site: Site, spec: UncertainSpec, z: np.ndarray,
 
 
 def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
-                   persist: np.ndarray) -> dict:
-    """Model outputs of one chunk of trials, with the finance probes for break-even values."""
+                   persist: np.ndarray, collect=None) -> dict:
+    """Model outputs of one chunk of trials, with the finance probes for break-even values.
+
+    ``collect``: a bankability collector; its equity NPV at the target IRR is kept.
+    """
     out = evaluate(case, site, params, weather_factors=factors)
+    extra = {} if collect is None else {
+        "equity_npv": collect(out, out.params, slice(None))["equity_npv_at_target"]}
     full, e = out.params, out.energy
     capex = full["costs.capex_per_kw"]
     probe = dict(full, **{"costs.capex_per_kw": capex + CAPEX_STEP})
@@ -357,7 +366,7 @@ def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
             "energy_per_cell_m2_kwh": long_term / e.cell_area_m2,
             "energy_per_land_m2_kwh": long_term / e.land_area_m2,
             "capex_per_kw": capex, "lcoe_slope_per_capex": slope,
-            "energy_scale_a": a, "energy_scale_b": b}
+            "energy_scale_a": a, "energy_scale_b": b, **extra}
 
 
 def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: int = 1,
@@ -420,14 +429,20 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
     u_year = rng.random((samples, max_life))
 
     outcomes = []
+    with_equity = voi_bootstrap and all("revenue" in c.sections for c in cases)
     for c, (case, site, spec) in enumerate(zip(cases, sites, specs)):
         params_all, persist = _case_params(design, c, x)
         factors = persist[:, None] * _yearly_factors(case, site, spec, z, u_year)
+        collect = None
+        if with_equity:  # value of information on the equity's NPV (lcoe.compare_voi)
+            from .bankability import run_bankability
+
+            collect = run_bankability(case, evaluate(case, site), spec).collector(case)
         cols: dict[str, np.ndarray] = {}
         for start in range(0, samples, chunk_size):
             sl = slice(start, min(start + chunk_size, samples))
             chunk = _evaluate_rows(case, site, {k: v[sl] for k, v in params_all.items()},
-                                   factors[sl], persist[sl])
+                                   factors[sl], persist[sl], collect)
             for k, v in chunk.items():
                 cols.setdefault(k, np.empty(samples))[sl] = v
             if progress:

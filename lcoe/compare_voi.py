@@ -4,7 +4,10 @@ The decision is which of the compared cases to build. The value of each case in 
 minus its net present value of costs for the same delivered energy: minus its real LCOE times
 the baseline's lifetime energy discounted at the baseline's real discount rate,
 ``value_k = -LCOE_real_k x E_ref`` [currency]. Cases of different size are thus compared per
-kWh delivered, and a figure in currency divides back to currency per kWh by ``E_ref``.
+kWh delivered, and a figure in currency divides back to currency per kWh by ``E_ref``. When
+every case sells its energy (a ``[revenue]`` table), the value is instead the NPV of the
+cash flow to equity at the equity's target IRR (the project as built, whatever its size);
+:data:`VoiBlock.basis` states which.
 
 EVPI and the EVPPI of every sampled input and group of inputs come from the trials already
 run (:mod:`lcoe.uncertainty.voi`); nothing is re-simulated. Orchestration only: it builds the
@@ -25,6 +28,10 @@ from .uncertainty.voi import DEFAULT_BOOTSTRAP, InfoValue, evpi, evppi_table
 VALUE_BASIS = ("value of a case in a trial = -(its real LCOE) x (the baseline's lifetime "
                "energy discounted at its real rate): minus the present value of the costs of "
                "delivering the same energy")
+#: What the value is when every case sells its energy (has a ``[revenue]`` table).
+EQUITY_BASIS = ("value of a case in a trial = NPV of its cash flow to equity at the equity's "
+                "target IRR, with the loan sized on its deterministic case (every compared "
+                "case has a tariff)")
 #: Groups by the section of the input's dotted path.
 SECTION_GROUPS = {"energy": "persistent energy factors (resource, model, ...)",
                   "costs": "costs", "finance": "finance", "plant": "plant and energy model",
@@ -163,21 +170,23 @@ def input_groups(names: Sequence[str], paths: Sequence[str],
 
 
 def value_of_information(names: Sequence[str], currencies: Sequence[str],
-                         lcoe_real: Sequence[np.ndarray], energy_ref_kwh: float,
+                         values: np.ndarray, energy_ref_kwh: float,
                          x: np.ndarray, input_names: Sequence[str], paths: Sequence[str],
                          sobol_groups: Sequence[str | None] = (),
                          n_boot: int = DEFAULT_BOOTSTRAP, seed=None,
-                         source: str = "value of information") -> VoiBlock:
+                         source: str = "value of information",
+                         basis: str = VALUE_BASIS) -> VoiBlock:
     """EVPI and EVPPI of the choice between compared cases.
 
     Parameters
     ----------
     names, currencies : sequence of str
         The options (cases), baseline first, and their currencies.
-    lcoe_real : sequence of numpy.ndarray
-        Each option's real LCOE per trial, (n,) [currency/kWh], common random numbers.
+    values : numpy.ndarray
+        (n, K) value of each option per trial [currency], common random numbers (e.g.
+        :func:`option_values`).
     energy_ref_kwh : float
-        Baseline lifetime energy discounted at its real rate [kWh].
+        Baseline lifetime energy discounted at its real rate [kWh] (for per-kWh figures).
     x : numpy.ndarray
         (n, d) sampled inputs of the same trials.
     input_names, paths : sequence of str
@@ -202,7 +211,7 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
     if not energy_ref_kwh > 0:
         raise InputError(f"{source}: baseline discounted energy = {energy_ref_kwh}: expected "
                          f"> 0 kWh")
-    values = option_values(lcoe_real, energy_ref_kwh)
+    values = np.asarray(values, dtype=float).reshape(-1, len(names))
     seq = np.random.SeedSequence(seed) if not isinstance(seed, np.random.SeedSequence) else seed
     s_evpi, s_rows = seq.spawn(2)
     whole = evpi(values, n_boot, np.random.default_rng(s_evpi))
@@ -223,19 +232,31 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
     mean = values.mean(axis=0)
     return VoiBlock(options=list(names), expected_value=mean, best=int(np.argmax(mean)),
                     evpi=whole, rows=rows, energy_ref_kwh=float(energy_ref_kwh),
-                    currency=currencies[0], n_trials=values.shape[0], notes=notes)
+                    currency=currencies[0], n_trials=values.shape[0], basis=basis,
+                    notes=notes)
 
 
 def comparison_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed=None) -> VoiBlock:
     """:func:`value_of_information` of a :class:`lcoe.compare.ComparisonResult`.
 
-    Needs ``result.inputs`` (the (n, D) design rows the trials were run with).
+    Conditions on ``result.inputs`` (the (n, D) design rows the trials were run with) or, for
+    a design that keeps only its uniforms, on those: EVPPI uses only the inputs' ranks.
     """
     cols = result.design.columns
-    base = result.baseline.base.cashflow
-    x = result.inputs if result.inputs is not None else np.empty((result.samples, 0))
+    e_ref = float(result.baseline.base.cashflow.pv_energy_real_kwh[0])
+    x = getattr(result, "inputs", None)
+    if x is None and hasattr(result.design, "trials"):  # a study-engine design: its uniforms
+        x = result.design.trials.draws(0, result.samples)[0]  # (ranks = the inputs' ranks)
+    if x is None:
+        x = np.empty((result.samples, 0))
+    equity = [o.trials.equity_npv for o in result.cases]
+    if all(v is not None for v in equity):
+        values, basis = np.column_stack(equity), EQUITY_BASIS
+    else:
+        values = option_values([o.trials.lcoe_real for o in result.cases], e_ref)
+        basis = VALUE_BASIS
     return value_of_information(
         [o.name for o in result.cases], [o.case["case.currency"] for o in result.cases],
-        [o.trials.lcoe_real for o in result.cases], float(base.pv_energy_real_kwh[0]), x,
-        [c.dist.name for c in cols], [c.path for c in cols], [c.dist.group for c in cols],
-        n_boot, result.seed if seed is None else seed, source="lcoe compare")
+        values, e_ref, x, [c.dist.name for c in cols], [c.path for c in cols],
+        [c.dist.group for c in cols], n_boot, result.seed if seed is None else seed,
+        source="lcoe compare", basis=basis)

@@ -77,12 +77,28 @@ def test_outputs_carry_the_value_of_information(comparison, tmp_path):
     assert ws.cell(7, 3).value == pytest.approx(comparison.voi.evpi.value)
 
 
+def test_cases_with_a_tariff_are_valued_by_their_equity(tmp_path):
+    # Two lender cases that differ only by a fixed land lease: the cheaper one has the higher
+    # equity NPV in every trial (same loan sizing rule, same draws), so nothing is worth
+    # learning: EVPI = 0 (Raiffa & Schlaifer: no decision changes).
+    text = (ROOT / "inputs" / "lender_single_axis.toml").read_text()
+    a = load_case(write_case(tmp_path, text, "a.toml"))
+    b = load_case(write_case(tmp_path, text.replace(
+        'name = "Fallow Creek 50 MW single-axis (lender case)"', 'name = "dearer"').replace(
+        "land_lease_per_year = 180000.0", "land_lease_per_year = 900000.0"), "b.toml"))
+    r = run_comparison([a, b], samples=64, seed=2, sobol_base=0)
+    assert "equity" in r.voi.basis
+    assert r.cases[0].trials.equity_npv is not None
+    assert np.all(r.cases[0].trials.equity_npv > r.cases[1].trials.equity_npv)
+    assert abs(r.voi.evpi.value) < 1e-3 and r.voi.best == 0  # 0 up to float rounding
+
+
 def test_one_option_or_two_currencies_are_refused():
     x = np.zeros((10, 0))
     with pytest.raises(InputError, match="at least two cases"):
-        value_of_information(["a"], ["USD"], [np.ones(10)], 1e6, x, [], [])
+        value_of_information(["a"], ["USD"], np.ones((10, 1)), 1e6, x, [], [])
     with pytest.raises(InputError, match="one currency"):
-        value_of_information(["a", "b"], ["USD", "EUR"], [np.ones(10)] * 2, 1e6, x, [], [])
+        value_of_information(["a", "b"], ["USD", "EUR"], np.ones((10, 2)), 1e6, x, [], [])
 
 
 @pytest.mark.parametrize("second", [None, "EUR"])
