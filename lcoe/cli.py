@@ -27,6 +27,20 @@ def _fmt_money(x: float) -> str:
     return f"{x:,.4f}"
 
 
+#: Short names of the loss-chain steps on the light before it reaches the cells.
+_STEP_NAMES = {"after_row_shading_kwh": "rows", "after_body_shading_kwh": "bodies",
+               "after_iam_kwh": "angle", "after_soiling_kwh": "soiling",
+               "after_bifacial_kwh": "rear side"}
+
+
+def _light_steps(energy) -> str:
+    """``rows -2.0 %, angle -3.0 %, ...``: the steps from open-field light to the cells."""
+    ch = energy.step_changes()
+    parts = [f"{_STEP_NAMES[k]} {100 * v[0]:+.1f} %" for k, v in ch.items()
+             if v[0] != 0.0 or k in ("after_soiling_kwh", "after_bifacial_kwh")]
+    return ", ".join(parts)
+
+
 def format_table(result) -> str:
     """The compact result table printed by ``lcoe run``."""
     case = result.case
@@ -42,6 +56,7 @@ def format_table(result) -> str:
         ("Specific yield", f"{e.specific_yield_kwh_per_kw[0]:,.1f} kWh/kW"),
         ("Performance ratio", f"{e.performance_ratio[0]:.3f} (IEC 61724-1)"),
         ("Clipping loss", f"{100 * e.clipping_loss_fraction[0]:.2f} % of inverter output"),
+        ("Light steps", _light_steps(e)),
         ("NPV of costs", f"{c.pv_costs[0]:,.0f} {cur}"),
         ("LCOE real", f"{_fmt_money(c.lcoe_real[0])} {cur}/kWh "
                       f"(real rate {100 * c.real_rate[0]:.2f} %)"),

@@ -237,6 +237,22 @@ class EnergyResult:
         before = lc["after_inverter_kwh"]
         return np.where(before > 0, (before - lc["after_clipping_kwh"]) / before, 0.0)
 
+    def step_changes(self, keys=("after_row_shading_kwh", "after_body_shading_kwh",
+                                 "after_iam_kwh", "after_soiling_kwh", "after_bifacial_kwh")
+                     ) -> dict:
+        """Relative change of the energy at each named loss-chain step [-], (n_s,) each.
+
+        ``stage / previous stage - 1`` (negative for a loss, positive for the rear side's gain),
+        0 where the previous stage is 0.
+        """
+        names = [k for k, _ in LOSS_CHAIN]
+        lc = self.loss_chain_kwh
+        out = {}
+        for k in keys:
+            prev = lc[names[names.index(k) - 1]]
+            out[k] = np.divide(lc[k], prev, out=np.ones_like(prev), where=prev > 0) - 1.0
+        return out
+
     @property
     def capacity_factor_dc(self) -> np.ndarray:
         """Delivered energy / (DC nameplate x 8760 h) [-], (n_s,)."""
@@ -406,8 +422,10 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         p_stc = c["plant.dc_capacity_kw"]
         rear_k = c["plant.bifaciality"] * (1.0 - c["plant.rear_loss_fraction"])
         with_rear = facets is not None and facets.has_rear and bool(np.any(rear_k != 0.0))
-        soil = None if soil_hist is None else np.minimum(soil_coef[sl] * soil_hist,
-                                                         soil_cap[sl])
+        soil = keep = None
+        if soil_hist is not None:
+            soil = np.minimum(soil_coef[sl] * soil_hist, soil_cap[sl])
+            keep = 1.0 - soil
         g_poa = g_eff = pdc = t_mean = 0.0
         s_soiled = 0.0
         if own_dc:  # a technology with its own DC model (a concentrator)
@@ -415,12 +433,16 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
             t_mean = np.nan  # its own thermal model; not reported hourly
         for j in range(0 if own_dc else share.size):  # facets one at a time: memory bound
             g_j = st["shaded_n"][j] + albedo * st["shaded_g"][j]
-            g_eff_j = st["eff_n"][j] + albedo * st["eff_g"][j]
-            if soil is not None:
-                g_eff_j = g_eff_j * (1.0 - soil)
+            g_eff_j = albedo * st["eff_g"][j]  # in place below: fewer temporaries per chunk
+            g_eff_j += st["eff_n"][j]
+            if keep is not None:
+                g_eff_j *= keep
                 s_soiled = s_soiled + share[j] * g_eff_j.sum(axis=1)
             if with_rear:
-                g_eff_j = g_eff_j + rear_k * (st["rear_n"][j] + albedo * st["rear_g"][j])
+                rear = albedo * st["rear_g"][j]
+                rear += st["rear_n"][j]
+                rear *= rear_k
+                g_eff_j += rear
             t_cell = faiman_cell_temperature(g_j, t_air, ws, c["plant.thermal_u0"],
                                              c["plant.thermal_u1"])
             pdc_j = dc_power_kw(g_eff_j, t_cell, p_stc, c["plant.temp_coeff_per_c"])

@@ -107,7 +107,8 @@ def test_backtracking_leaves_no_beam_shading(tracker_case, demo_site):
 def test_switches_off_give_todays_numbers(demo_case, demo_site, tracker_case):
     # Frozen regression: annual energy and LCOE of the bundled cases computed with the code
     # before rows, rear side, diffuse angle loss and soiling existed (main at 12861ed).
-    off = {"plant.rows": False, "plant.diffuse_iam": False}
+    off = {"plant.rows": False, "plant.diffuse_iam": False, "plant.soiling.model": "none"}
+    demo_case = demo_case.with_values({"plant.dc_loss_fraction": 0.08})  # its value then
     for case, energy, lcoe in ((demo_case, 29392796.14583271, 0.062810305076411),
                                (tracker_case, 33083289.881632406, 0.05946648716775756)):
         o = evaluate(case.with_values(off), demo_site)
@@ -205,17 +206,30 @@ def test_kimber_soiling_in_the_chain(tmp_path, bundled_weather):
     assert lc["after_soiling_kwh"][0] < lc["after_iam_kwh"][0]
 
 
-def test_monthly_soiling_and_its_scale(demo_case, demo_site, tmp_path):
-    text = DEMO.read_text().replace("[plant]", "[plant.soiling]\nmodel = \"monthly\"\n"
-                                    "monthly_loss = [0.02, 0.02, 0.02, 0.02, 0.02, 0.02, 0.02, "
-                                    "0.02, 0.02, 0.02, 0.02, 0.02]\n\n[plant]", 1)
-    case = load_case(write_case(tmp_path, text.replace('"demo_', '"../demo_')))
+def test_monthly_soiling_and_its_scale(demo_case, demo_site):
+    from dataclasses import replace
+
+    case = replace(demo_case, soiling_monthly=(0.02,) * 12)
     o = evaluate(case, demo_site, {"plant.soiling.scale": np.array([0.0, 1.0, 2.0])})
     lc = o.energy.loss_chain_kwh
     # Analytic: a flat profile of 2 % takes exactly 2 % (x scale) of the light at that step.
     np.testing.assert_allclose(lc["after_soiling_kwh"] / lc["after_iam_kwh"],
                                [1.0, 0.98, 0.96], rtol=1e-12)
     assert o.energy.annual_kwh[0] > o.energy.annual_kwh[1] > o.energy.annual_kwh[2]
+
+
+def test_soiling_scale_is_an_uncertain_input(demo_case, demo_site):
+    from dataclasses import replace
+
+    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.uncertainty.spec import read_spec
+
+    case = replace(demo_case, correlation=(), uncertain={"plant.soiling.scale": {
+        "dist": "uniform", "low": 0.0, "high": 3.0}})
+    trials, _ = monte_carlo(case, demo_site, read_spec(case), 64, seed=5)
+    x = trials.X[:, trials.names.index("plant.soiling.scale")]
+    assert x.min() < 0.3 and x.max() > 2.7
+    assert np.corrcoef(x, trials.physics_kwh)[0, 1] < -0.99  # more dirt, less energy
 
 
 def test_loss_chain_adds_up_to_delivered(demo_site):

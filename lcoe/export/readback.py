@@ -203,6 +203,8 @@ def _nested(entries: dict[str, Any], tables: dict) -> dict:
         _table(data, parent)[name] = [items[i] for i in sorted(items)]
     if tables.get("monthly"):
         _table(data, "site")["monthly"] = tables["monthly"]
+    if tables.get("soiling_monthly_loss"):
+        _table(data, "plant.soiling")["monthly_loss"] = tables["soiling_monthly_loss"]
     if tables.get("debt_sizing") and "debt" in present:
         _table(data, "debt")["sizing"] = [{"case": c, "min_dscr": v}
                                          for c, v in tables["debt_sizing"]]

@@ -518,7 +518,7 @@ def write_case_sheet(wb, result: RunResult) -> None:
     """Hidden sheet with what the Inputs sheet cannot show as single cells, as JSON text.
 
     Holds the ``[uncertain]`` and ``[[correlation]]`` tables, ``[site.monthly]``, the
-    debt-sizing constraints, the top-level tables present in the case file, the case's folder
+    monthly soiling profile, the debt-sizing constraints, the top-level tables present in the case file, the case's folder
     (for a relative weather path) and its source and SHA-256.
     """
     case = result.case
@@ -534,6 +534,8 @@ def write_case_sheet(wb, result: RunResult) -> None:
         "uncertain": _jsonable(dict(case.uncertain)),
         "correlation": _jsonable([dict(c) for c in case.correlation]),
         "monthly": None if monthly is None else _jsonable(dict(monthly)),
+        "soiling_monthly_loss": None if getattr(case, "soiling_monthly", None) is None
+        else list(case.soiling_monthly),
         "debt_sizing": None if sizing is None else [list(s) for s in sizing],
     }
     text = json.dumps(payload, ensure_ascii=False, sort_keys=True)
