@@ -162,6 +162,8 @@ class SweepResult:
         Versions, seed, command, date.
     elapsed_s : float
         Wall time of the evaluation [s].
+    voi : list of dict
+        Value of information per site (``--voi``; :func:`lcoe.sweep_voi.sweep_site_voi`).
     """
 
     plan: SweepPlan
@@ -173,6 +175,7 @@ class SweepResult:
     notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
     elapsed_s: float = 0.0
+    voi: list = field(default_factory=list)
 
 
 def make_tasks(plan: SweepPlan) -> list[ChunkTask]:
@@ -528,9 +531,19 @@ def _cmd_sweep(args) -> int:
     with publish(out_path, force=args.force) as stage:  # refuses or locks before the run
         result = run_sweep(plan, workers=args.workers, scheduler=args.scheduler,
                            progress=lambda done, total: bar("sweep", done, total))
+        if args.voi:  # value of information per site, on the trials already run
+            from dataclasses import replace
+
+            from .sweep_voi import sweep_site_voi
+
+            result = replace(result, voi=sweep_site_voi(result, seed=plan.seed))
         write_sweep_outputs(result, stage)
     if not args.quiet:
         print(format_table(result))
+        if result.voi:
+            from .sweep_voi import table_lines
+
+            print("\n".join(table_lines(result.voi, plan.currency)))
         for note in result.notes:
             print(f"  note: {note}")
         print(f"  ran {len(plan.runs)} site x technology runs of {plan.samples} trials "
@@ -559,4 +572,7 @@ def add_sweep_options(s) -> None:
     s.add_argument("--force", action="store_true",
                    help="replace an output folder written by lcoe before, as a whole")
     s.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    s.add_argument("--voi", action="store_true",
+                   help="also the value of information per site: what learning each input "
+                        "before choosing the technology is worth per kWh")
     s.set_defaults(func=_cmd_sweep)

@@ -93,6 +93,7 @@ def sweep_dict(result) -> dict:
         "failures": [{"site": f.site, "technology": f.technology, "chunk": f.chunk,
                       "attempts": f.attempts, "error": f.error} for f in result.failures],
         "execution": {"how": result.execution, "elapsed_s": result.elapsed_s},
+        **({"value_of_information": result.voi} if getattr(result, "voi", None) else {}),
         "notes": list(result.notes) + [CRN_NOTE, CAUTION],
         "versions": result.provenance.get("versions", {}),
         "provenance": {k: v for k, v in result.provenance.items() if k != "versions"},
