@@ -91,12 +91,24 @@ def _cmd_run(args) -> int:
         result = run_case(case, samples=args.samples, seed=args.seed,
                           sobol_base=args.sobol, sobol_output=args.sobol_output,
                           screen=args.screen, method=args.method, progress=progress)
-        write_outputs(result, stage, progress=progress)
+        write_outputs(result, stage, progress=progress, hourly=args.hourly)
     progress.close()
     if not args.quiet:
         print(format_table(result))
+        _hourly_note(args.hourly)
         print(f"  wrote {out}/")
     return 0
+
+
+def _hourly_note(hourly: bool) -> None:
+    """Say which hourly file was written (CSV when pyarrow is missing)."""
+    if not hourly:
+        return
+    from .export.hourly import CSV_NAME, hourly_file_name
+
+    if hourly_file_name() == CSV_NAME:
+        print("  pyarrow is not installed: hourly table written as CSV "
+              "(pip install 'lcoe[hourly]' for Parquet)")
 
 
 def _cmd_check(args) -> int:
@@ -176,6 +188,10 @@ def _run_options(sp, default_help: str) -> None:
                     help="also run Morris screening (useful with many inputs)")
     sp.add_argument("--method", choices=("lhs", "random"), default="lhs",
                     help="Monte Carlo sampling: Latin hypercube (default) or random")
+    sp.add_argument("--hourly", action="store_true",
+                    help="also write every hour of the deterministic case (sun, weather, plane "
+                         "of array, cell temperature, DC, clipping, AC, losses) to "
+                         "hourly.parquet (hourly.csv without pyarrow)")
 
 
 def _add_run(sp) -> None:

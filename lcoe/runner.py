@@ -91,7 +91,7 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     phase(progress, "sun positions")
     site = prepare(case, weather)
     phase(progress, "energy and cash flow")
-    base = evaluate(case, site)
+    base = evaluate(case, site, keep_hourly=True)  # one sample: the hourly arrays are small
     from .claims import audit_run
     from .tech.concentrator_model import cautions
 
@@ -125,11 +125,12 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
 
 
 def write_outputs(result: RunResult, out_dir, force: bool = False,
-                  replace_own: bool = False, progress=None) -> Path:
+                  replace_own: bool = False, progress=None, hourly: bool = False) -> Path:
     """Write ``summary.json``, ``workbook.xlsx``, the pictures (PNG) and ``report.html``.
 
-    With an uncertainty study also ``trials.csv``. ``out_dir`` is a folder, published whole
-    in one rename (:func:`lcoe.output.publish`; a non-empty folder is refused unless
+    With an uncertainty study also ``trials.csv``; with ``hourly`` also every hour of the
+    deterministic case (``hourly.parquet``, or ``hourly.csv`` when pyarrow is missing).
+    ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.output.publish`; a non-empty folder is refused unless
     ``force``), or the :class:`lcoe.output.Stage` of a command that already holds it.
     """
     from .progress import phase
@@ -151,4 +152,8 @@ def write_outputs(result: RunResult, out_dir, force: bool = False,
         for name, png in figures.items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
         out.write_with("report.html", lambda p: write_report(result, p, figures))
+        if hourly:
+            from .export.hourly import hourly_file_name, write_hourly
+
+            out.write_with(hourly_file_name(), lambda p: write_hourly(result, p))
     return out.target

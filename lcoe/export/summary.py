@@ -9,6 +9,7 @@ import numpy as np
 
 from ..cashflow import LCOE_FORMULA
 from ..energy import LOSS_CHAIN
+from ..hourly import monthly_tables
 from ..results import RunResult
 
 SCHEMA_VERSION = 1
@@ -54,6 +55,7 @@ def summary_dict(result: RunResult) -> dict:
             "capacity_factor_dc": e.capacity_factor_dc[0],
             "poa_irradiation_kwh_m2": e.poa_kwh_m2[0],
             "monthly_kwh": e.monthly_kwh[0],
+            "monthly": monthly_tables(result),
             "loss_chain_kwh": {k: e.loss_chain_kwh[k][0] for k, _ in LOSS_CHAIN},
         },
         "lcoe": {"real_per_kwh": c.lcoe_real[0], "nominal_per_kwh": c.lcoe_nominal[0],
