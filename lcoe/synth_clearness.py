@@ -33,6 +33,9 @@ TAG_KAPPA = (0.19, 2.27, -2.51)
 TAG_PHI = (0.148, 2.356, -5.195, 3.758)
 #: TAG standard deviation of the hourly residual, ``s0 exp(s1 (K - s2)^2) + s3`` (from memory).
 TAG_SIGMA = (0.32, -50.0, 0.4, 0.002)
+#: Redraws of an hourly innovation that falls outside [0, clear sky] before it is clipped
+#: (modelling choice; fewer than 1 in 1000 hours reach the limit).
+TAG_MAX_REDRAWS = 20
 
 _GAMMA_LIMIT = 300.0  # |gamma| beyond which the BCR distribution is a point mass at an end
 
@@ -344,8 +347,9 @@ def tag_residual_parameters(kt_day):
     return np.clip(phi, 0.0, 0.99), s0 * np.exp(s1 * (k - s2) ** 2) + s3
 
 
-def tag_residuals(day_key, phi, sigma, rng: np.random.Generator) -> np.ndarray:
-    """Gaussian AR(1) residual of the hourly clearness index, restarted each day.
+def tag_residuals(day_key, phi, sigma, rng: np.random.Generator, low=None, high=None,
+                  max_redraws: int = TAG_MAX_REDRAWS) -> np.ndarray:
+    """Gaussian AR(1) residual of the hourly clearness index, restarted each day, truncated.
 
     Parameters
     ----------
@@ -355,23 +359,40 @@ def tag_residuals(day_key, phi, sigma, rng: np.random.Generator) -> np.ndarray:
         Shape (n,): lag-1 autocorrelation and stationary standard deviation of each hour [-].
     rng : numpy.random.Generator
         Source of randomness.
+    low, high : numpy.ndarray, optional
+        Shape (n,): bounds of each hour's residual [-] (e.g. ``-k_tm`` and
+        ``k_t,clear - k_tm`` so the hourly clearness stays in [0, clear sky]); None: unbounded.
+    max_redraws : int
+        Innovations drawn again at most this many times per hour before clipping.
 
     Returns
     -------
     numpy.ndarray
         Shape (n,): :math:`y_h = \\phi y_{h-1} + \\sigma\\sqrt{1-\\phi^2}\\,r_h`,
-        :math:`r_h \\sim N(0, 1)`, and :math:`y = \\sigma r` at each day's first hour [-].
+        :math:`r_h \\sim N(0, 1)`, and :math:`y = \\sigma r` at each day's first hour [-]. An
+        innovation that would put :math:`y_h` outside its bounds is drawn again (the Gaussian
+        truncated to the physical range rather than censored at it, so no probability piles
+        up at exactly clear-sky hours; TAG bounds the hourly clearness to [0, clear sky], the
+        redraw is our reading, from memory), and clipped after ``max_redraws`` failures.
 
     References
     ----------
     .. [1] Aguiar, R. and Collares-Pereira, M. (1992), Solar Energy 49(3), 167-174.
     """
-    r = rng.standard_normal(np.size(day_key))
-    y = np.empty(r.size)
-    innov = sigma * np.sqrt(1.0 - phi * phi) * r
-    for h in range(r.size):  # sequential by nature: each hour depends on the previous one
-        if h == 0 or day_key[h] != day_key[h - 1]:
-            y[h] = sigma[h] * r[h]
-        else:
-            y[h] = phi[h] * y[h - 1] + innov[h]
+    n = np.size(day_key)
+    r = rng.standard_normal(n)
+    y = np.empty(n)
+    scale = sigma * np.sqrt(1.0 - phi * phi)
+    lo = np.full(n, -np.inf) if low is None else np.asarray(low, dtype=float)
+    hi = np.full(n, np.inf) if high is None else np.asarray(high, dtype=float)
+    for h in range(n):  # sequential by nature: each hour depends on the previous one
+        first = h == 0 or day_key[h] != day_key[h - 1]
+        base = 0.0 if first else phi[h] * y[h - 1]
+        sd = sigma[h] if first else scale[h]
+        v = base + sd * r[h]
+        tries = 0
+        while (v < lo[h] or v > hi[h]) and tries < max_redraws:
+            v = base + sd * rng.standard_normal()
+            tries += 1
+        y[h] = min(max(v, lo[h]), hi[h])
     return y

@@ -58,7 +58,8 @@ SYNTHETIC_WEATHER_WARNING = (
     "Synthetic weather: this hourly year was generated from 12 monthly means (daily clearness "
     "drawn from the Bendt-Collares-Pereira-Rabl distribution, hourly clearness by the TAG "
     "model, DIRINT decomposition). It reproduces the monthly GHI and temperature means; its "
-    "beam is a model estimate (monthly DNI typically within 10-15 % of a measured year), and "
+    "beam is a model estimate (monthly DNI typically within 10 % of a measured year, some "
+    "months up to about 20 %), and "
     "year-to-year variability and extremes are not represented. Use it for screening, never "
     "for a bankable energy assessment."
 )
@@ -506,10 +507,11 @@ def synthesize_year(
     :math:`k_{t,h} = k_{tm}(K_d, \\alpha_h) + y_h` with :func:`tag_mean_hourly_clearness` and
     :math:`y` a Gaussian AR(1) residual restarted each day (:func:`tag_residuals`, lag-1
     correlation and standard deviation from :func:`tag_residual_parameters`, constants from
-    memory), bounded to :math:`[0, G_{cs,h}/G_{0h}]` with :math:`G_{cs}` the Ineichen-Perez
-    clear sky of the site's climatological Linke turbidity (modelling choice: measured hourly
-    clearness rarely exceeds the clear sky; letting hours above it creates beam that the
-    bundled files do not have). Each day is scaled to :math:`K_d H_{0,d}` below the same cap,
+    memory), truncated to :math:`[0, G_{cs,h}/G_{0h}]` (out-of-range innovations drawn again)
+    with :math:`G_{cs}` the Ineichen-Perez clear sky of the site's climatological Linke
+    turbidity (modelling choice: measured hourly clearness rarely exceeds the clear sky;
+    letting hours above it, or piling hours up at it, creates beam that the bundled files do
+    not have). Each day is scaled to :math:`K_d H_{0,d}` below the same cap,
     then each calendar month re-scaled, by iterated proportional filling below the caps, so its
     mean daily GHI equals the input (to 1e-10 relative). A month the clear sky cannot reach
     may rise to :math:`\\min(1.1\\,G^{clean}_{cs,h}, G_{0h})`, :math:`G^{clean}_{cs}` the clear
@@ -611,10 +613,12 @@ def synthesize_year(
     sun_up = etr_h > 0.0
     kt_cap = np.divide(cap, etr_h, out=np.zeros(_HOURS), where=sun_up)
     phi, sigma = tag_residual_parameters(k_day[day_key])
-    resid = np.zeros(_HOURS)
-    resid[sun_up] = tag_residuals(day_key[sun_up], phi[sun_up], sigma[sun_up], gen)
     kt_clear = np.divide(cs_ghi, etr_h, out=np.zeros(_HOURS), where=sun_up)
-    kt_h = np.clip(tag_mean_hourly_clearness(k_day[day_key], cos_z) + resid, 0.0, kt_clear)
+    ktm = tag_mean_hourly_clearness(k_day[day_key], cos_z)
+    resid = np.zeros(_HOURS)
+    resid[sun_up] = tag_residuals(day_key[sun_up], phi[sun_up], sigma[sun_up], gen,
+                                  -ktm[sun_up], (kt_clear - ktm)[sun_up])
+    kt_h = np.clip(ktm + resid, 0.0, kt_clear)
     ghi = kt_h * etr_h
     day_sum = np.bincount(day_key, weights=ghi, minlength=n_days)
     day_scale = np.divide(k_day * h0_day, day_sum, out=np.zeros(n_days), where=day_sum > 0.0)

@@ -500,3 +500,67 @@ def test_synthesize_year_errors(kwargs, pattern):
     args.update(kwargs)
     with pytest.raises(InputError, match=pattern):
         synthesize_year(**args)
+
+
+# ---------------------------------------------------------------------------------------------
+# Hourly clearness (TAG), stratified days, decomposition
+# ---------------------------------------------------------------------------------------------
+
+
+def test_tag_parameters_closed_form():
+    # Analytic: the TAG polynomials (Aguiar & Collares-Pereira 1992, constants from memory)
+    # evaluated by hand at K = 0.4 and K = 0.6.
+    from lcoe.synth_weather import tag_mean_hourly_clearness, tag_residual_parameters
+
+    phi, sigma = tag_residual_parameters(np.array([0.4, 0.6]))
+    np.testing.assert_allclose(phi, [0.148 + 2.356 * 0.4 - 5.195 * 0.16 + 3.758 * 0.064,
+                                     0.148 + 2.356 * 0.6 - 5.195 * 0.36 + 3.758 * 0.216])
+    np.testing.assert_allclose(sigma, [0.322, 0.32 * np.exp(-50 * 0.04) + 0.002])
+    k, s = 0.6, 0.8
+    lam = -0.19 + 1.12 * k + 0.24 * np.exp(-8 * k)
+    eps = 0.32 - 1.6 * (k - 0.5) ** 2
+    kap = 0.19 + 2.27 * k**2 - 2.51 * k**3
+    assert tag_mean_hourly_clearness(k, s) == pytest.approx(lam + eps * np.exp(-kap / s))
+    # the expected hourly clearness rises with the sun
+    assert tag_mean_hourly_clearness(k, 0.2) < tag_mean_hourly_clearness(k, 0.9)
+
+
+def test_tag_residuals_statistics_and_bounds():
+    from lcoe.synth_weather import tag_residuals
+
+    n = 200_000
+    day = np.repeat(np.arange(n // 20), 20)  # 20-hour days
+    phi, sigma = np.full(n, 0.6), np.full(n, 0.2)
+    y = tag_residuals(day, phi, sigma, np.random.default_rng(4))
+    # Analytic (stationary AR(1)): sd = sigma, lag-1 correlation = phi within a day; statistical
+    # tolerance at 200,000 hours, fixed seed.
+    assert y.std() == pytest.approx(0.2, rel=0.01)
+    same_day = day[1:] == day[:-1]
+    assert np.corrcoef(y[1:][same_day], y[:-1][same_day])[0, 1] == pytest.approx(0.6, abs=0.01)
+    assert abs(np.corrcoef(y[1:][~same_day], y[:-1][~same_day])[0, 1]) < 0.05  # restarts
+    lo, hi = np.full(n, -0.1), np.full(n, 0.15)
+    yb = tag_residuals(day, phi, sigma, np.random.default_rng(4), lo, hi)
+    assert yb.min() >= -0.1 and yb.max() <= 0.15
+    # truncated, not censored: hardly any value sits exactly on a bound
+    assert np.mean((yb == -0.1) | (yb == 0.15)) < 1e-3
+
+
+def test_stratified_uniforms_keep_order():
+    from lcoe.synth_weather import stratified_uniforms
+
+    u = np.array([0.9, 0.1, 0.5, 0.3])
+    np.testing.assert_allclose(stratified_uniforms(u), [0.875, 0.125, 0.625, 0.375])
+
+
+def test_decomposition_is_pvlib_and_checked():
+    # Cross-implementation: the Erbs choice returns pvlib.irradiance.erbs's DNI.
+    from lcoe.synth_weather import decompose_dni
+
+    times = pd.date_range("2021-06-01 06:30", periods=12, freq="h", tz="Etc/GMT+5")
+    ghi = np.linspace(100.0, 900.0, 12)
+    zen = np.linspace(80.0, 15.0, 12)
+    ref = pvlib.irradiance.erbs(ghi, zen, times)["dni"]
+    np.testing.assert_allclose(decompose_dni(ghi, zen, times, 101325.0, "erbs"), ref)
+    assert (decompose_dni(ghi, zen, times, 101325.0, "dirint") >= 0).all()
+    with pytest.raises(ValueError, match="decomposition"):
+        decompose_dni(ghi, zen, times, 101325.0, "nope")
