@@ -15,7 +15,7 @@ from pathlib import Path
 
 from . import __version__
 from .defaults import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE
-from .errors import InputError
+from .errors import InputError, collect_warnings
 from .progress import Progress, phase
 
 #: Folder of the bundled case files (the repository's ``inputs/``).
@@ -88,9 +88,11 @@ def _cmd_run(args) -> int:
     case = read_case(args.case)  # bad input is refused before the output folder is touched
     out = Path(args.out) if args.out else Path("outputs") / Path(args.case).stem
     with publish(out, force=args.force, replace_own=args.replace_own) as stage:
-        result = run_case(case, samples=args.samples, seed=args.seed,
-                          sobol_base=args.sobol, sobol_output=args.sobol_output,
-                          screen=args.screen, method=args.method, progress=progress)
+        with collect_warnings() as caught:
+            result = run_case(case, samples=args.samples, seed=args.seed,
+                              sobol_base=args.sobol, sobol_output=args.sobol_output,
+                              screen=args.screen, method=args.method, progress=progress)
+        result.notes.extend(caught)  # library warnings go into the run's notes, not the terminal
         write_outputs(result, stage, progress=progress, hourly=args.hourly)
     progress.close()
     if not args.quiet:
@@ -281,17 +283,16 @@ def build_parser(argv=None) -> argparse.ArgumentParser:
 
 
 def main(argv=None) -> int:
+    """Entry point: any exception ends as one line on stderr, exit 2 (130 on Ctrl-C)."""
+    from .errors import run_guarded
+
+    return run_guarded(lambda: _dispatch(argv))
+
+
+def _dispatch(argv) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    parser = build_parser(argv)
-    args = parser.parse_args(argv)
-    try:
-        return args.func(args)
-    except InputError as exc:
-        print(f"lcoe: error: {exc}", file=sys.stderr)
-        return 2
-    except KeyboardInterrupt:
-        print("lcoe: interrupted", file=sys.stderr)
-        return 130
+    args = build_parser(argv).parse_args(argv)
+    return args.func(args)
 
 
 if __name__ == "__main__":

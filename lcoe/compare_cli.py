@@ -67,16 +67,19 @@ def cmd_compare(args) -> int:
     if len(args.cases) < 2:
         raise InputError("lcoe compare: expected a baseline and at least one candidate "
                          "(lcoe compare BASELINE.toml CANDIDATE.toml ...)")
+    from .errors import collect_warnings
     from .output import publish
 
     cases = [load_case(p) for p in args.cases]
     out = Path(args.out) if args.out else Path("outputs") / f"compare_{Path(args.cases[0]).stem}"
     samples = args.samples if args.samples is not None else 2000
     with publish(out, force=args.force, replace_own=args.replace_own) as stage:
-        result = run_comparison(cases, samples=samples, seed=args.seed,
-                                claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
-                                method=getattr(args, "method", "lhs"),
-                                progress=Progress(not args.quiet))
+        with collect_warnings() as caught:
+            result = run_comparison(cases, samples=samples, seed=args.seed,
+                                    claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
+                                    method=getattr(args, "method", "lhs"),
+                                    progress=Progress(not args.quiet))
+        result.notes.extend(caught)  # library warnings go into the notes, not the terminal
         write_compare_outputs(result, stage, provenance={"provenance": provenance(args.seed)})
     if not args.quiet:
         print(format_comparison(result))

@@ -523,20 +523,23 @@ def format_table(result: SweepResult) -> str:
 def _cmd_sweep(args) -> int:
     from .cli import Progress
     from .export.sweep_outputs import write_sweep_outputs
+    from .errors import collect_warnings
     from .output import publish
 
     plan = load_plan(args.plan)
     out_path = Path(args.out) if args.out else Path("outputs") / Path(args.plan).stem
     bar = Progress(not args.quiet)
     with publish(out_path, force=args.force) as stage:  # refuses or locks before the run
-        result = run_sweep(plan, workers=args.workers, scheduler=args.scheduler,
-                           progress=lambda done, total: bar("sweep", done, total))
-        if args.voi:  # value of information per site, on the trials already run
-            from dataclasses import replace
+        with collect_warnings() as caught:
+            result = run_sweep(plan, workers=args.workers, scheduler=args.scheduler,
+                               progress=lambda done, total: bar("sweep", done, total))
+            if args.voi:  # value of information per site, on the trials already run
+                from dataclasses import replace
 
-            from .sweep_voi import sweep_site_voi
+                from .sweep_voi import sweep_site_voi
 
-            result = replace(result, voi=sweep_site_voi(result, seed=plan.seed))
+                result = replace(result, voi=sweep_site_voi(result, seed=plan.seed))
+        result.notes.extend(n for n in caught if n not in result.notes)
         write_sweep_outputs(result, stage)
     if not args.quiet:
         print(format_table(result))

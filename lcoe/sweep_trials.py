@@ -20,12 +20,12 @@ not the noise of independent draws.
 from __future__ import annotations
 
 import json
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.special import ndtr
 
+from .errors import collect_warnings
 from .model import evaluate, prepare
 from .rng import make_rng
 from .sweep_plan import RunDef
@@ -190,13 +190,9 @@ def _prepared(run: RunDef):
         site_key = ("site", run.base_dir, json.dumps(run.raw["site"], sort_keys=True,
                                                      default=str))
         if site_key not in _CACHE:
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always")
+            with collect_warnings() as caught:
                 site = prepare(case)
-            notes = tuple(site.notes) + tuple(
-                str(w.message) for w in caught
-                if not issubclass(w.category, (DeprecationWarning, PendingDeprecationWarning,
-                                               FutureWarning)))
+            notes = tuple(site.notes) + tuple(caught)
             _CACHE[site_key] = (site, notes)
         site, notes = _CACHE[site_key]
         ratios = None
