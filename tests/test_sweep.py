@@ -351,7 +351,7 @@ def test_cli_writes_table_workbook_json_and_charts(tmp_path, capsys):
         rows = list(reader)
     assert header == ["site", "technology", "lcoe_real_q10", "lcoe_real_q50", "lcoe_real_q90",
                       "energy_p50_kwh", "energy_p90_kwh", "prob_cheapest"]
-    assert len(rows) == 6 and rows[-1][:2] == ["=Saltpan", "tech_single_axis"]
+    assert len(rows) == 6 and rows[-1][:2] == ["'=Saltpan", "tech_single_axis"]  # neutralised
     s = json.loads((out / "sweep.json").read_text(encoding="utf-8"))
     assert s["kind"] == "sweep" and s["plan"]["samples"] == 40 and s["failures"] == []
     assert len(s["rows"]) == 6 and len(s["sites"]) == 3 and "numpy" in s["versions"]

@@ -7,12 +7,12 @@ technology names, notes) goes into the workbook as text cells, never formulas
 
 from __future__ import annotations
 
-import csv
 import json
 from pathlib import Path
 
 from ..cashflow import LCOE_FORMULA
 from .summary import _clean
+from .cells import write_csv
 from .workbook import put_text
 
 SCHEMA_VERSION = 1
@@ -62,12 +62,9 @@ def _row_values(row) -> list:
 
 def write_sweep_csv(result, path: Path) -> None:
     """One row per completed site x technology, columns :data:`CSV_COLUMNS`."""
-    with open(path, "w", newline="", encoding="utf-8") as fh:
-        w = csv.writer(fh)
-        w.writerow(CSV_COLUMNS)
-        for row in result.rows:
-            vals = _row_values(row)
-            w.writerow(vals[:2] + [repr(float(v)) for v in vals[2:]])
+    rows = ([str(v) for v in vals[:2]] + [float(v) for v in vals[2:]]
+            for vals in map(_row_values, result.rows))
+    write_csv(path, CSV_COLUMNS, rows)  # names neutralised, numbers stay numbers
 
 
 def sweep_dict(result) -> dict:

@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from ..results import RunResult
+from .cells import write_csv
 
 
 def trials_table(result: RunResult) -> tuple[list[str], np.ndarray]:
@@ -27,4 +28,6 @@ def write_trials_csv(result: RunResult, path: Path) -> None:
     """Write the trials table as CSV (one row per trial)."""
     header, values = trials_table(result)
     fmt = ["%d"] + ["%.10g"] * (values.shape[1] - 1)
-    np.savetxt(path, values, delimiter=",", header=",".join(header), comments="", fmt=fmt)
+    write_csv(path, header, [])  # the header's text cells through the one CSV rule
+    with open(path, "a", newline="", encoding="utf-8") as fh:
+        np.savetxt(fh, values, delimiter=",", fmt=fmt)  # numbers only
