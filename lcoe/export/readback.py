@@ -6,22 +6,46 @@ rows, adds the list tables kept as JSON in the hidden ``_case`` sheet (``[uncert
 ``[[correlation]]``, ``[site.monthly]``, debt sizing) and validates everything exactly like a
 case file, through :func:`lcoe.case.case_from_dict`. A bad edited value is an
 :class:`~lcoe.errors.InputError` naming the workbook, the key and the value.
+
+Hardening against edited or hostile files:
+
+- Rows are read by key, not by position: rows may be moved and blank rows inserted; every key
+  lcoe wrote (listed in the hidden sheet) must still be there.
+- The hidden sheet carries the SHA-256 of its JSON text (cell ``B1``); an edited hidden sheet
+  is refused.
+- The archive's members are checked against :data:`MAX_MEMBER_BYTES`,
+  :data:`MAX_TOTAL_BYTES`, :data:`MAX_RATIO` and :data:`MAX_MEMBERS` from the zip directory,
+  before anything is inflated (Python's zipfile never inflates more than the size it
+  declares, so a lying header ends in a CRC error, not in memory).
+- A number cell that is not finite (NaN, infinity) is refused with its cell.
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
+import math
 import re
+import zipfile
 from pathlib import Path
 from typing import Any
 
 from ..case import Case, case_from_dict
-from ..errors import InputError
+from ..errors import InputError, cut
 from ..schema import FIELD_BY_PATH, REQUIRED
-from .workbook import CASE_SHEET, list_fields
+from .workbook import CASE_SHEET, INFO_HEADINGS, list_fields, tables_checksum
 
 _LIST_KEY = re.compile(r"^([a-z_.]+)\[(\d+)\]\.(\w+)$")
+
+#: Largest inflated size of one archive member [bytes]. A 10,000-trial workbook's largest
+#: sheet inflates to about 10 MB.
+MAX_MEMBER_BYTES = 64 * 2**20
+#: Largest inflated size of all members together [bytes].
+MAX_TOTAL_BYTES = 256 * 2**20
+#: Largest inflation ratio of a member above 1 MB (XML of real workbooks: about 5-30).
+MAX_RATIO = 200
+#: Most members in the archive (a workbook of lcoe has about 30).
+MAX_MEMBERS = 1000
 
 
 def case_from_workbook(path: str | Path) -> Case:
@@ -54,6 +78,7 @@ def case_from_workbook(path: str | Path) -> Case:
     if not p.is_file():
         raise InputError(f"{src}: workbook not found")
     raw = p.read_bytes()
+    check_archive(p, src)
     try:
         wb = load_workbook(p, read_only=True, data_only=False)
         wb_cached = load_workbook(p, read_only=True, data_only=True)
@@ -65,6 +90,12 @@ def case_from_workbook(path: str | Path) -> Case:
                              f"'Inputs' and '{CASE_SHEET}')")
         tables = _read_tables(wb[CASE_SHEET], src)
         entries = _read_inputs(wb["Inputs"], wb_cached["Inputs"], src, list_fields())
+        _require_keys(entries, tables, src)
+    except InputError:
+        raise
+    except Exception as exc:  # openpyxl parses cells lazily: e.g. a number cell holding NaN
+        raise InputError(f"{src}: a cell cannot be read ({cut(exc, 80)}); numbers must be "
+                         f"finite and text must be text") from None
     finally:
         wb.close()
         wb_cached.close()
@@ -74,24 +105,74 @@ def case_from_workbook(path: str | Path) -> Case:
                           sha256=hashlib.sha256(raw).hexdigest())
 
 
+def check_archive(path: Path, src: str) -> None:
+    """Refuse an archive whose members would inflate beyond the limits (zip bomb).
+
+    Reads only the zip directory (declared sizes); see the module docstring.
+    """
+    try:
+        with zipfile.ZipFile(path) as zf:
+            infos = zf.infolist()
+    except (zipfile.BadZipFile, OSError, ValueError) as exc:
+        raise InputError(f"{src}: cannot read as an .xlsx workbook ({exc})") from None
+    if len(infos) > MAX_MEMBERS:
+        raise InputError(f"{src}: {len(infos)} archive members; a workbook of lcoe has far "
+                         f"fewer (at most {MAX_MEMBERS} read)")
+    total = 0
+    for info in infos:
+        total += info.file_size
+        ratio = info.file_size / max(info.compress_size, 1)
+        if (info.file_size > MAX_MEMBER_BYTES or total > MAX_TOTAL_BYTES
+                or (info.file_size > 2**20 and ratio > MAX_RATIO)):
+            raise InputError(f"{src}: archive member {info.filename[:80]!r} would inflate to "
+                             f"{info.file_size:,} bytes ({ratio:,.0f} times its packed size); "
+                             f"refused (limits: {MAX_MEMBER_BYTES // 2**20} MB a member, "
+                             f"{MAX_TOTAL_BYTES // 2**20} MB in all, ratio {MAX_RATIO})")
+
+
 def _read_tables(ws, src: str) -> dict:
     chunks = []
-    for row in ws.iter_rows(min_row=2, max_col=1, values_only=True):
-        if row[0] is None:
+    stamp = None
+    for i, row in enumerate(ws.iter_rows(min_row=1, max_col=2, values_only=True)):
+        if i == 0:
+            stamp = row[1] if len(row) > 1 else None
+            continue
+        if not row or row[0] is None:
             break
         chunks.append(str(row[0]))
+    text = "".join(chunks)
+
+    def edited(why: str) -> InputError:
+        return InputError(f"{src}: the hidden sheet '{CASE_SHEET}' was edited or damaged "
+                          f"({why}); it must not be edited: run the case file again for a "
+                          f"fresh workbook")
+
+    if stamp is None:
+        raise edited("no checksum in its cell B1")
+    if str(stamp) != tables_checksum(text):
+        raise edited("its checksum does not match")
     try:
-        tables = json.loads("".join(chunks))
+        tables = json.loads(text)
     except json.JSONDecodeError as exc:
-        raise InputError(f"{src}: sheet '{CASE_SHEET}' does not hold the case tables "
-                         f"({exc.msg}); it must not be edited") from None
+        raise edited(exc.msg) from None
     if not isinstance(tables, dict) or tables.get("format") != "lcoe-case-tables":
         raise InputError(f"{src}: sheet '{CASE_SHEET}' does not hold the case tables")
     return tables
 
 
+def _require_keys(entries: dict, tables: dict, src: str) -> None:
+    """Every key lcoe wrote on the Inputs sheet must still be there (rows may move)."""
+    missing = [k for k in tables.get("keys") or () if k not in entries]
+    if missing:
+        more = f" and {len(missing) - 1} more" if len(missing) > 1 else ""
+        raise InputError(f"{src}: sheet Inputs has no row with key '{missing[0][:80]}'{more} in "
+                         f"column A above the information blocks; rows may be moved and blank "
+                         f"rows inserted, but no key may be deleted or renamed")
+
+
 def _read_inputs(ws, ws_cached, src: str, lists: dict) -> dict[str, Any]:
-    """Key -> value of the rows of the Inputs sheet, down to the first row without a key."""
+    """Key -> value of every row of the Inputs sheet with a key (blank rows skipped), down to
+    the first information block (:data:`~lcoe.export.workbook.INFO_HEADINGS`)."""
     out: dict[str, Any] = {}
     rows = ws.iter_rows(min_row=2, max_col=2)
     cached = ws_cached.iter_rows(min_row=2, max_col=2, values_only=True)
@@ -99,8 +180,10 @@ def _read_inputs(ws, ws_cached, src: str, lists: dict) -> dict[str, Any]:
         key_cell, value_cell = cells[0], cells[1] if len(cells) > 1 else None
         key = key_cell.value
         if key is None or str(key).strip() == "":
-            break
+            continue
         key = str(key).strip()
+        if key in INFO_HEADINGS:
+            break
         where = f"{src}: Inputs!B{key_cell.row} ({key})"
         kind = _kind(key, src, key_cell.row, lists)
         value = None if value_cell is None else value_cell.value
@@ -111,8 +194,11 @@ def _read_inputs(ws, ws_cached, src: str, lists: dict) -> dict[str, Any]:
                                  f"value; type the value, or save the workbook in a spreadsheet "
                                  f"program that calculates it")
         if key in out:
-            raise InputError(f"{src}: key '{key}' appears twice on the Inputs sheet")
-        out[key] = _typed(kind, value)
+            raise InputError(f"{src}: key '{key[:80]}' appears twice on the Inputs sheet")
+        typed = _typed(kind, value)
+        if isinstance(typed, float) and not math.isfinite(typed):
+            raise InputError(f"{where} = {str(value)[:80]!r}: expected a finite number")
+        out[key] = typed
     return out
 
 

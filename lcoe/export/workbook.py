@@ -26,6 +26,7 @@ from pathlib import Path
 
 from ..results import RunResult
 from ..schema import FIELD_BY_PATH
+from .cells import FORMULA_START
 
 MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
 
@@ -56,7 +57,6 @@ FMT_PLAIN = "General"
 FMT_TEXT = "@"
 
 _ILLEGAL = re.compile(r"[\000-\010]|[\013-\014]|[\016-\037]")
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n")
 
 
 # --------------------------------------------------------------------------------------------
@@ -82,7 +82,7 @@ def put_text(ws, row: int, col: int, text) -> None:
     cell = ws.cell(row=row, column=col)
     cell.value = value
     cell.data_type = "s"
-    if value.startswith(_FORMULA_START):
+    if value.startswith(FORMULA_START):
         cell.number_format = FMT_TEXT
         cell.quotePrefix = True
 
@@ -405,6 +405,13 @@ HOW_TO = (
 )
 
 
+#: Headings of the information blocks below the keys of the Inputs sheet; read-back stops at
+#: the first of them (the blocks repeat what the hidden sheet holds).
+INFO_HEADINGS = ("Energy uncertainty (factors with mean 1, drawn in the Monte Carlo; not used "
+                 "by the CashFlow formulas)",
+                 "Rank correlations (Iman-Conover) between uncertain inputs")
+
+
 def write_inputs_sheet(wb, result: RunResult) -> dict:
     """Every input with value, unit, distribution, parameters and a note; defined names.
 
@@ -468,8 +475,7 @@ def write_inputs_sheet(wb, result: RunResult) -> dict:
     energy_dists = [d for d in dists.values() if d.name.startswith("energy.")]
     if unc is not None and (energy_dists or unc.spec.interannual_cov):
         r += 1
-        put_text(ws, r, 1, "Energy uncertainty (factors with mean 1, drawn in the Monte Carlo; "
-                           "not used by the CashFlow formulas)")
+        put_text(ws, r, 1, INFO_HEADINGS[0])
         ws.cell(row=r, column=1).font = Font(bold=True)
         r += 1
         put_text(ws, r, 1, "uncertain.energy.interannual_cov")
@@ -486,7 +492,7 @@ def write_inputs_sheet(wb, result: RunResult) -> dict:
             r += 1
     if unc is not None and unc.spec.corr is not None:
         r += 1
-        put_text(ws, r, 1, "Rank correlations (Iman-Conover) between uncertain inputs")
+        put_text(ws, r, 1, INFO_HEADINGS[1])
         ws.cell(row=r, column=1).font = Font(bold=True)
         r += 1
         for entry in case.correlation:
@@ -537,13 +543,30 @@ def write_case_sheet(wb, result: RunResult) -> None:
         "soiling_monthly_loss": None if getattr(case, "soiling_monthly", None) is None
         else list(case.soiling_monthly),
         "debt_sizing": None if sizing is None else [list(s) for s in sizing],
+        "keys": input_keys(case),
     }
     text = json.dumps(payload, ensure_ascii=False, sort_keys=True)
     ws = wb.create_sheet(CASE_SHEET)
     ws.sheet_state = "hidden"
     put_text(ws, 1, 1, "Case tables of this workbook as JSON (read back by lcoe; do not edit)")
+    put_text(ws, 1, 2, tables_checksum(text))
     for i in range(0, max(len(text), 1), JSON_CHUNK):
         put_text(ws, 2 + i // JSON_CHUNK, 1, text[i:i + JSON_CHUNK])
+
+
+def input_keys(case) -> list[str]:
+    """Keys of the Inputs sheet's rows (column A), in order; read-back requires every one."""
+    keys = list(case.values)
+    for path, entries, fields in list_tables(case):
+        keys += [f"{path}[{i}].{f.key}" for i in range(len(entries)) for f in fields]
+    return keys
+
+
+def tables_checksum(text: str) -> str:
+    """``sha256=<hex>`` of the hidden sheet's JSON text (detects an edited hidden sheet)."""
+    import hashlib
+
+    return "sha256=" + hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
 def _jsonable(obj):
