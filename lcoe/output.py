@@ -113,6 +113,7 @@ def publish(target: str | Path, force: bool = False, replace_own: bool = False,
     path = _real(target, shown)
     with _locked(path, shown):
         _recover(path)
+        _recover_neighbours(path)
         _check_target(path, shown, force, replace_own)
         stage = Path(tempfile.mkdtemp(prefix=f".{path.name}{_STAGE}", dir=path.parent))
         try:
@@ -273,6 +274,23 @@ def _recover(path: Path) -> list[Path]:
     for p in removed:
         _remove(p)
     return removed
+
+
+def _recover_neighbours(path: Path) -> None:
+    """Clean what killed runs into other folders of the same parent left, unless a live run
+    holds them (their lock is tried without waiting)."""
+    names = set()
+    with os.scandir(path.parent) as it:
+        for e in it:
+            for kind in (_STAGE, _OLD):
+                if e.name.startswith(".") and kind in e.name:
+                    names.add(e.name[1:e.name.index(kind)])
+    for name in sorted(names - {path.name, ""}):
+        try:
+            with _locked(path.parent / name, name):
+                _recover(path.parent / name)
+        except InputError:  # a live run is writing it
+            pass
 
 
 def _check_target(path: Path, shown: str, force: bool, replace_own: bool) -> None:

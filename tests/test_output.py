@@ -288,6 +288,19 @@ def test_sigkill_leaves_old_or_new_and_next_run_cleans(target, tmp_path, step):
     assert _leftovers(target.parent) == []
 
 
+def test_next_run_into_a_neighbour_folder_cleans_too(target, tmp_path):
+    script = tmp_path / "child.py"
+    script.write_text(_CHILD.format(root=str(ROOT)))
+    r = subprocess.run([sys.executable, str(script), str(target), "writing"], capture_output=True)
+    assert r.returncode == -signal.SIGKILL and _leftovers(tmp_path)
+    with publish(tmp_path / "busy") as busy:  # a live run's staging folder is left alone
+        busy.write_text("summary.json", "busy")
+        _write(tmp_path / "other", NEW, force=False)
+        assert _leftovers(tmp_path) == sorted(p.name for p in tmp_path.iterdir()
+                                              if p.name.startswith(".busy.lcoe-"))
+    assert _old_or_new(target) == "old" and _leftovers(tmp_path) == []
+
+
 def _cli(*args, cwd=None):
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     return subprocess.Popen([sys.executable, "-m", "lcoe.cli", *map(str, args)], cwd=cwd,
