@@ -12,6 +12,7 @@ from pathlib import Path
 import pandas as pd
 
 from ..hourly import hourly_table
+from .cells import neutral_text
 
 PARQUET_NAME = "hourly.parquet"
 CSV_NAME = "hourly.csv"
@@ -68,4 +69,7 @@ def write_hourly(result, path: Path) -> None:
         pq.write_table(table.cast(pa.schema(fields, metadata=table.schema.metadata)), path)
         return
     header = ["time_start"] + [f"{c} [{units[c]}]" if units[c] else c for c in frame.columns[1:]]
-    frame.to_csv(path, index=False, header=header, float_format="%.6g")
+    # text cells (header, timestamps) through the one CSV rule; the numbers stay numbers
+    frame["time_start"] = frame["time_start"].map(neutral_text)
+    frame.to_csv(path, index=False, header=[neutral_text(h) for h in header],
+                 float_format="%.6g", lineterminator="\n")
