@@ -26,6 +26,9 @@ from .uncertainty.spec import UncertainSpec
 
 #: DSCR below which a year counts as a payment default (common practice).
 DEFAULT_DSCR = 1.00
+#: Financing features switched off for the unlevered after-tax LCOE.
+UNLEVERED = {"mra_years_ahead": 0, "dsra_months": 0.0, "construction_shares": (),
+             "sweep_share": 0.0}
 
 
 def sizing_factors(spec: UncertainSpec) -> tuple[dict, float, float]:
@@ -67,16 +70,19 @@ def finance_inputs(case: Case, out: ModelOutput) -> dict:
     Returns
     -------
     dict
-        ``energy_sold_kwh``, ``revenue``, ``opex`` (n_s, N + 1) [kWh, currency] and
-        ``capex`` (n_s,) [currency]. Opex = every cost line but capex (O&M, insurance, lease,
-        replacements, decommissioning less salvage).
+        ``energy_sold_kwh``, ``revenue``, ``opex``, ``renewals`` (n_s, N + 1) [kWh, currency]
+        and ``capex`` (n_s,) [currency]. Opex = every cost line but capex (O&M, insurance,
+        lease, replacements, decommissioning less salvage); renewals = scheduled replacements
+        and moving-part renewals (part of opex, accrued by a maintenance reserve).
     """
     c = out.cashflow
     n = c.energy_kwh.shape[1] - 1
     sold = c.energy_kwh * (1.0 - case["revenue.curtailment_fraction"])
     capex_line = c.lines["capex"]
+    renewals = c.lines["replacements"] + c.lines.get("moving_parts", 0.0)
     return {"energy_sold_kwh": sold, "revenue": sold * price_by_year(case, n),
-            "opex": c.total_cost - capex_line, "capex": capex_line[:, 0]}
+            "opex": c.total_cost - capex_line, "capex": capex_line[:, 0],
+            "renewals": np.maximum(renewals, 0.0)}
 
 
 def _tax_debt_kwargs(case: Case) -> dict:
@@ -88,7 +94,15 @@ def _tax_debt_kwargs(case: Case) -> dict:
                 itc_fraction=case["tax.itc_fraction"],
                 interest_rate=case["debt.interest_rate"], tenor_years=case["debt.tenor_years"],
                 repayment=case["debt.repayment"],
-                upfront_fee_fraction=case["debt.upfront_fee_fraction"])
+                upfront_fee_fraction=case["debt.upfront_fee_fraction"],
+                mra_years_ahead=case["debt.mra_years_ahead"],
+                dsra_months=case["debt.dsra_months"],
+                dsra_at_close=case["debt.dsra_funding"] == "close",
+                construction_shares=case.drawdown, construction_period=case["construction.period"],
+                idc_capitalised=case["construction.idc"] == "capitalised",
+                commitment_fee_fraction=case["construction.commitment_fee_fraction"],
+                sweep_share=case["debt.sweep_share"],
+                sweep_above_dscr=case["debt.sweep_above_dscr"])
 
 
 @dataclass
@@ -108,6 +122,12 @@ class BankabilityBlock:
     breakeven_tariff : float
         Flat real tariff (year-0 money, escalating with inflation) giving the equity its target
         IRR, with debt sized on the same constraints [currency/kWh].
+    breakeven_contract : float
+        Year-1 contract price, escalating at the contract's own rate (merchant price after
+        the contract as in the case), that gives the equity its target IRR [currency/kWh]:
+        the number to set beside ``tariff``.
+    tariff, tariff_escalation : float
+        The case's contract price in year 1 [currency/kWh] and its escalation [1/year].
     after_tax_lcoe : float
         Flat real tariff giving the unlevered post-tax project flow NPV zero at the case's
         discount rate (the WACC definition) [currency/kWh].
@@ -129,6 +149,11 @@ class BankabilityBlock:
     lockup_dscr: float
     discount_rate: float
     currency: str
+    contract_years: int = 0
+    tenor_years: int = 0
+    breakeven_contract: float = float("nan")
+    tariff: float = float("nan")
+    tariff_escalation: float = 0.0
     mc: dict | None = None
     notes: list = field(default_factory=list)
 
@@ -178,6 +203,35 @@ class BankabilityBlock:
                          "binding": label == binding})
         return rows
 
+    @property
+    def tail_years(self) -> int:
+        """Contract years after the loan's maturity [year]."""
+        return int(self.contract_years - self.tenor_years)
+
+    def by_year(self) -> dict:
+        """Yearly lender metrics of the deterministic case (lists over years 0..N).
+
+        Keys: ``year``, ``cfads`` (after MRA transfers), ``cfads_before_reserves``,
+        ``debt_service``, ``prepaid``, ``dscr``, ``dscr_before_reserves``, ``llcr``, ``plcr``
+        (None where no loan is outstanding), ``debt_balance``, ``dsra_balance``,
+        ``mra_balance``, ``equity_flow`` [currency or -].
+        """
+        f = self.finance
+        zeros = np.zeros_like(f.cfads[0])
+
+        def row(a):
+            return [None if not np.isfinite(v) else float(v) for v in np.asarray(a)]
+
+        return {"year": list(range(f.cfads.shape[1])), "cfads": row(f.cfads[0]),
+                "cfads_before_reserves": row(f.cfads_before_reserves[0]),
+                "debt_service": row(f.debt_service[0]), "prepaid": row(f.prepaid[0]),
+                "dscr": row(f.dscr[0]), "dscr_before_reserves": row(f.dscr_before_reserves[0]),
+                "llcr": row(f.llcr_by_year[0]), "plcr": row(f.plcr_by_year[0]),
+                "debt_balance": row(f.debt_balance[0]),
+                "dsra_balance": row(f.dsra.balance[0] if f.dsra is not None else zeros),
+                "mra_balance": row(f.mra.balance[0] if f.mra is not None else zeros),
+                "equity_flow": row(f.equity_flow[0])}
+
     def irr_results(self) -> dict:
         """IRRs of the deterministic flows with every root (several roots are all reported)."""
         f = self.finance
@@ -196,6 +250,7 @@ class BankabilityBlock:
             fi = finance_inputs(case, out)
             d = np.minimum(debt, fi["capex"])
             fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                                 renewals=fi["renewals"],
                                  debt_amount=d, service_profile=service, max_gearing=1.0,
                                  discount_rate=np.asarray(params.get(
                                      "finance.discount_rate", case["finance.discount_rate"])),
@@ -244,8 +299,27 @@ class BankabilityBlock:
             "equity_irr": _irr_value(irrs["equity"]),
             "irr_roots": {k: {"roots": v.roots, "sign_changes": v.sign_changes,
                               "reason": v.reason} for k, v in irrs.items()},
-            "npv": f.npv_equity[0],
-            "npv_definition": "NPV of the cash flow to equity at finance.discount_rate",
+            "equity_npv_at_discount_rate": f.npv_equity[0],
+            "equity_npv_at_target_irr": float(npv(self.target_irr, f.equity_flow[0])),
+            "equity_npv_definitions": {
+                "equity_npv_at_discount_rate": "NPV of the cash flow to equity at "
+                                               "finance.discount_rate",
+                "equity_npv_at_target_irr": "NPV of the cash flow to equity at "
+                                            "equity.target_irr (>= 0: the target is met)"},
+            "breakeven_contract_price_per_kwh": self.breakeven_contract,
+            "breakeven_contract_definition": "year-1 contract price escalating at "
+                                             "revenue.tariff_escalation (merchant price after "
+                                             "the contract as in the case) that gives the "
+                                             "equity its target IRR; compare with "
+                                             "revenue.tariff_per_kwh",
+            "dscr_definition": "CFADS after maintenance-reserve transfers and before DSRA "
+                               "movements, over the scheduled debt service (the lender's "
+                               "definition); dscr_before_reserves uses CFADS before any "
+                               "reserve transfer",
+            "tail_years": self.tail_years,
+            "sources_and_uses": {side: {k: float(v[0]) for k, v in f.sources_uses[side].items()}
+                                 for side in ("uses", "sources")},
+            "by_year": self.by_year(),
             "payback_year": f.payback_year[0],
             "breakeven_tariff_per_kwh": self.breakeven_tariff,
             "breakeven_definition": "flat real tariff (year-0 money, escalating with "
@@ -283,6 +357,20 @@ class BankabilityBlock:
                          f"{f.avg_dscr[0]:.2f}x, LLCR {f.llcr[0]:.2f}x")
         else:
             lines.append(f"    DSCR               none: {self.no_debt_reason}")
+        su = f.sources_uses
+        uses = ", ".join(f"{k} {v[0]:,.0f}" for k, v in su["uses"].items() if v[0])
+        lines.append(f"    Sources and uses   {uses} = debt {su['sources']['senior debt'][0]:,.0f}"
+                     f" + equity {su['sources']['equity'][0]:,.0f} {cur}")
+        reserves = []
+        if f.dsra is not None:
+            reserves.append(f"DSRA {f.dsra.initial[0]:,.0f} at close")
+        if f.mra is not None:
+            reserves.append(f"MRA up to {f.mra.balance[0].max():,.0f}")
+        if np.any(f.prepaid[0] > 0):
+            reserves.append(f"cash sweep prepays {f.prepaid[0].sum():,.0f}")
+        if reserves:
+            lines.append("    Reserves, sweep    " + "; ".join(reserves) + f" {cur}; DSCR on "
+                         "CFADS after MRA transfers, before DSRA movements")
         payback = "never" if not np.isfinite(f.payback_year[0]) else \
             f"{f.payback_year[0]:.0f}"
         lines += [
@@ -290,10 +378,14 @@ class BankabilityBlock:
                  f"post-tax ({_irr_text(irrs['project_pre_tax'])} pre-tax)",
                  f"    Equity IRR         {_irr_text(irrs['equity'])} (target "
                  f"{100 * self.target_irr:.1f} %)",
-                 f"    Equity NPV         {f.npv_equity[0]:,.0f} {cur} at "
-                 f"{100 * self.discount_rate:.2f} %; payback year {payback}",
-                 f"    Break-even tariff  {self.breakeven_tariff:.4f} {cur}/kWh (flat real, "
-                 f"equity at target IRR)",
+                 f"    Equity NPV         {f.npv_equity[0]:,.0f} {cur} at the discount rate "
+                 f"{100 * self.discount_rate:.2f} %; "
+                 f"{float(npv(self.target_irr, f.equity_flow[0])):,.0f} {cur} at the target "
+                 f"IRR; payback year {payback}",
+                 f"    Break-even tariff  {self.breakeven_tariff:.4f} {cur}/kWh flat real "
+                 f"(year-0 money, rising with inflation); as a year-1 contract price "
+                 f"escalating {100 * self.tariff_escalation:.1f} %/yr: "
+                 f"{self.breakeven_contract:.4f} {cur}/kWh (case: {self.tariff:.4f})",
                  f"    After-tax LCOE     {self.after_tax_lcoe:.4f} {cur}/kWh (flat real, NPV 0 "
                  f"at WACC {100 * self.discount_rate:.2f} %)"]
         if self.mc and f.debt[0] <= 0:
@@ -351,6 +443,7 @@ def sized_finance(case: Case, base: ModelOutput, factors: dict) -> FinanceResult
     constraints = [(BASE_CASE if c == "P50" else c, m) for c, m in case.debt_sizing]
     sizing_rev = {c: fi["revenue"] * factors[c] for c, _ in case.debt_sizing if c != "P50"}
     return project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                           renewals=fi["renewals"],
                            dscr_constraints=constraints, sizing_revenue=sizing_rev or None,
                            max_gearing=case["debt.max_gearing"],
                            discount_rate=case["finance.discount_rate"], **_tax_debt_kwargs(case))
@@ -388,20 +481,44 @@ def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> Banka
                          + (f" and {low.size - 1} more tenor year(s)" if low.size > 1 else "")
                          + ": no debt service is scheduled there and the shortfall falls on "
                            "equity")
+    tail = (case["revenue.contract_years"] or case["case.lifetime_years"]) - \
+        case["debt.tenor_years"]
+    if tail < case["debt.min_tail_years"]:
+        notes.append(f"the contract tail after loan maturity is {tail} year(s), shorter than "
+                     f"debt.min_tail_years = {case['debt.min_tail_years']}")
     infl = case["finance.inflation"]
     sizing_energy = {c: fi["energy_sold_kwh"] * factors[c] for c, _ in case.debt_sizing
                      if c != "P50"}
     be = breakeven_tariff(energy_kwh=fi["energy_sold_kwh"], inflation=infl,
                           target_equity_irr=case["equity.target_irr"],
                           sizing_energy_kwh=sizing_energy or None, opex=fi["opex"],
-                          capex=fi["capex"], dscr_constraints=constraints,
+                          capex=fi["capex"], renewals=fi["renewals"],
+                          dscr_constraints=constraints,
                           max_gearing=case["debt.max_gearing"], **kwargs)
+    t = np.arange(fi["energy_sold_kwh"].shape[1])
+    contract = case["revenue.contract_years"] or case["case.lifetime_years"]
+    in_contract = (t >= 1) & (t <= contract)
+    be_contract = breakeven_tariff(
+        energy_kwh=fi["energy_sold_kwh"], inflation=infl,
+        target_equity_irr=case["equity.target_irr"], sizing_energy_kwh=sizing_energy or None,
+        opex=fi["opex"], capex=fi["capex"], renewals=fi["renewals"],
+        dscr_constraints=constraints, max_gearing=case["debt.max_gearing"],
+        price_index=np.where(in_contract, (1 + case["revenue.tariff_escalation"]) ** (t - 1.0),
+                             0.0),
+        fixed_price=np.where(in_contract | (t == 0), 0.0, price_by_year(case, t.size - 1)),
+        **kwargs)
     at = breakeven_tariff(energy_kwh=fi["energy_sold_kwh"], inflation=infl,
                           target_equity_irr=r, opex=fi["opex"], capex=fi["capex"],
-                          debt_amount=0.0, **kwargs)
+                          renewals=fi["renewals"], debt_amount=0.0,
+                          **{**kwargs, **UNLEVERED})
     pretty = [(("P50" if c == BASE_CASE else c), m) for c, m in constraints]
     return BankabilityBlock(finance=fr, factors=factors, sigma_1yr=s1, sigma_10yr=s10,
                             constraints=pretty, breakeven_tariff=float(be[0]),
+                            breakeven_contract=float(be_contract[0]),
+                            contract_years=int(contract),
+                            tenor_years=int(case["debt.tenor_years"]),
+                            tariff=case["revenue.tariff_per_kwh"],
+                            tariff_escalation=case["revenue.tariff_escalation"],
                             after_tax_lcoe=float(at[0]), target_irr=case["equity.target_irr"],
                             lockup_dscr=case["debt.lockup_dscr"], discount_rate=r,
                             currency=case["case.currency"], notes=notes)

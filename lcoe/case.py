@@ -140,6 +140,9 @@ class Case:
     debt_sizing : tuple of (case, min_dscr)
         Debt-sizing constraints of ``[debt] sizing`` (default P50 at 1.30x and P99_1yr at
         1.00x, common practice).
+    drawdown : tuple of float
+        ``[construction] drawdown``: share of capex drawn in each construction period
+        (empty: no construction period).
     body_facets : tuple of BodyFacet
         The ``[[plant.body.facet]]`` list (``plant.body.shape = "facets"``).
     moving_parts : tuple of MovingPart
@@ -158,6 +161,7 @@ class Case:
     monthly: Mapping[str, Any] | None = None
     sections: frozenset = frozenset()
     debt_sizing: tuple[tuple[str, float], ...] = ()
+    drawdown: tuple[float, ...] = ()
     body_facets: tuple[BodyFacet, ...] = ()
     moving_parts: tuple[MovingPart, ...] = ()
     soiling_monthly: tuple[float, ...] | None = None
@@ -308,6 +312,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         raise InputError(f"{source}: missing required key 'revenue.tariff_per_kwh' (contracted "
                          f"price in year 1 [currency/kWh]; a number >= 0)")
     sizing = _read_sizing(data.get("debt", {}).get("sizing"), source)
+    drawdown = _read_drawdown(data.get("construction", {}).get("drawdown"), source)
     uncertain = data.get("uncertain", {})
     if not isinstance(uncertain, Mapping):
         raise field_error(source, "uncertain", uncertain, "a table [uncertain]")
@@ -317,7 +322,7 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
     return Case(source=source, base_dir=base_dir, sha256=sha256,
                 values=MappingProxyType(values), replacements=tuple(replacements),
                 uncertain=MappingProxyType(dict(uncertain)), correlation=tuple(correlation),
-                monthly=monthly, sections=sections, debt_sizing=sizing,
+                monthly=monthly, sections=sections, debt_sizing=sizing, drawdown=drawdown,
                 body_facets=tuple(body_facets), moving_parts=tuple(moving_parts),
                 soiling_monthly=soiling_monthly)
 
@@ -417,6 +422,21 @@ def _read_sizing(entries: Any, source: str) -> tuple[tuple[str, float], ...]:
             raise field_error(source, f"{where}.min_dscr", v, "a number > 0")
         out.append((e["case"], float(v)))
     return tuple(out)
+
+
+def _read_drawdown(entries: Any, source: str) -> tuple[float, ...]:
+    """Check ``[construction] drawdown = [0.2, 0.3, ...]``: shares >= 0 that sum to 1."""
+    if entries is None:
+        return ()
+    allowed = "a list of 1 to 120 shares >= 0 that sum to 1, e.g. [0.3, 0.4, 0.3]"
+    if not isinstance(entries, list) or not 1 <= len(entries) <= 120 or any(
+            isinstance(v, bool) or not isinstance(v, (int, float)) or not v >= 0
+            for v in entries):
+        raise field_error(source, "construction.drawdown", entries, allowed)
+    if abs(sum(entries) - 1.0) > 1e-6:
+        raise field_error(source, "construction.drawdown", entries,
+                          allowed + f" (these sum to {sum(entries):g})")
+    return tuple(float(v) for v in entries)
 
 
 MONTHLY_KEYS = ("ghi_kwh_m2_day", "temp_air_c", "wind_speed_m_s", "seed")

@@ -317,6 +317,31 @@ FIELDS: tuple[Field, ...] = (
       low_open=True, typical="0.6-0.85"),
     F("debt.lockup_dscr", "float", "-", "DSCR below which distributions to equity are locked up",
       default=1.10, low=0, low_open=True, typical="1.05-1.15 (common practice)"),
+    # --- lender's case: reserves, cash sweep, tail, construction period -----------------------
+    F("debt.dsra_months", "float", "months", "Debt service reserve: months of the next "
+      "year's debt service held (0 = none); released at maturity", default=0.0, low=0,
+      high=24, typical="6 (common practice)"),
+    F("debt.dsra_funding", "choice", "-", "Debt service reserve funded at close (a use of "
+      "funds, paid by equity) or built from cash flow", choices=("close", "cash_flow"),
+      default="close"),
+    F("debt.mra_years_ahead", "int", "years", "Maintenance reserve: years over which each "
+      "scheduled replacement and moving-part renewal is accrued before it falls due (0 = "
+      "none)", default=0, low=0, high=30, typical="3-5"),
+    F("debt.sweep_share", "float", "-", "Cash sweep: share of the cash above "
+      "sweep_above_dscr x debt service that prepays the loan (0 = no sweep)", default=0.0,
+      low=0, high=1),
+    F("debt.sweep_above_dscr", "float", "-", "Cash sweep: DSCR above which cash is swept "
+      "(1 = a fixed share of all cash after debt service)", default=1.0, low=1, high=10),
+    F("debt.min_tail_years", "int", "years", "Contract years wanted after loan maturity (the "
+      "tail); a shorter tail is noted", default=0, low=0, high=30, typical="2-5"),
+    F("construction.period", "choice", "-", "Length of one period of construction.drawdown",
+      choices=("quarter", "month"), default="quarter"),
+    F("construction.idc", "choice", "-", "Interest during construction: added to the loan "
+      "(capitalised) or paid by equity", choices=("capitalised", "equity"),
+      default="capitalised"),
+    F("construction.commitment_fee_fraction", "float", "1/year", "Fee per year on the "
+      "undrawn loan during construction", default=0.0, low=0, high=0.05,
+      typical="0.003-0.01 (common practice)"),
     # --- equity -------------------------------------------------------------------------------
     F("equity.target_irr", "float", "1/year", "Equity investor's target IRR (nominal)",
       default=0.10, low=-0.99, high=1, typical="0.08-0.14"),
@@ -375,6 +400,7 @@ EXTRA_KEYS: dict[str, tuple[str, ...]] = {
     "costs": ("replacement", "moving_part"),
     "site": ("monthly",),
     "debt": ("sizing",),
+    "construction": ("drawdown",),
     "plant.body": ("facet",),
     "plant.soiling": ("monthly_loss",),
     "": ("uncertain", "correlation"),

@@ -51,7 +51,7 @@ OPTIONAL_EXAMPLES = {"site.timezone": "Etc/GMT+5", "site.weather": "weather/site
 
 #: Sections written commented out unless a kind switches them on.
 OPTIONAL_SECTIONS = ("revenue", "tax", "debt", "equity", "plant.body", "plant.concentrator",
-                     "claim")
+                     "claim", "construction")
 
 #: Per kind: values that differ from the fixed-tilt template and optional sections switched on.
 #: Invented example values (plausible, not recommendations).
@@ -80,8 +80,10 @@ PROFILES: dict[str, dict] = {
                           "costs.fixed_om_per_kw_year": 17.0,
                           "costs.insurance_fraction_per_year": 0.0035,
                           "revenue.tariff_per_kwh": 0.07, "revenue.contract_years": 20,
-                          "revenue.merchant_price_per_kwh": 0.045, "tax.rate": 0.25},
-               "on": ("revenue", "tax", "debt", "equity")},
+                          "revenue.merchant_price_per_kwh": 0.045, "tax.rate": 0.25,
+                          "debt.dsra_months": 6.0, "debt.mra_years_ahead": 4,
+                          "construction.commitment_fee_fraction": 0.005},
+               "on": ("revenue", "tax", "debt", "equity", "construction")},
 }
 
 _MOVING_PART = {"item": "tracker drive (motor and controller)", "units": 400.0, "per": "plant",
@@ -242,6 +244,10 @@ def template_text(kind: str = "fixed") -> str:
                       "> 0; typical: P50 at 1.25-1.40, P99_1yr at 1.00-1.10",
                       f"{'# ' if off else ''}sizing = [{{case = \"P50\", min_dscr = 1.30}}, "
                       '{case = "P99_1yr", min_dscr = 1.00}]']
+        if f.path == "construction.commitment_fee_fraction":
+            lines += ["# Share of capex drawn at the start of each period (sums to 1; absent = "
+                      "no construction period):",
+                      f"{'# ' if off else ''}drawdown = [0.25, 0.35, 0.25, 0.15]"]
         if f.path == "costs.land_lease_per_year":
             lines += ["", "# Scheduled replacements, one table each (add as many as needed):",
                       "[[costs.replacement]]"]

@@ -33,7 +33,8 @@ def test_summary_block(lender_result):
 
     b = summary_dict(lender_result)["bankability"]
     for key in ("debt", "gearing", "binding_constraint", "min_dscr", "avg_dscr", "llcr",
-                "project_irr", "equity_irr", "npv", "breakeven_tariff_per_kwh",
+                "project_irr", "equity_irr", "equity_npv_at_discount_rate",
+                "equity_npv_at_target_irr", "breakeven_tariff_per_kwh",
                 "prob_dscr_below_1", "prob_lockup", "prob_equity_below_target"):
         assert key in b, key
     case = lender_result.case
@@ -64,6 +65,7 @@ def test_binding_constraint_is_met_exactly(lender_result):
     from lcoe.bankability import _tax_debt_kwargs
 
     p99 = project_finance(revenue=fi["revenue"] * bank.factors["P99_1yr"], opex=fi["opex"],
+                          renewals=fi["renewals"],
                           capex=fi["capex"], debt_amount=f.debt, service_profile=f.debt_service,
                           discount_rate=0.07, **_tax_debt_kwargs(lender_result.case))
     assert np.nanmin(p99.dscr[0]) >= 1.0 - 1e-6
@@ -81,7 +83,7 @@ def test_breakeven_tariff_gives_target_irr(lender_result):
     rev = bank.breakeven_tariff * (1 + case["finance.inflation"]) ** np.arange(n + 1) * \
         fi["energy_sold_kwh"]
     cons = [(BASE_CASE if c == "P50" else c, m) for c, m in bank.constraints]
-    fr = project_finance(revenue=rev, opex=fi["opex"], capex=fi["capex"],
+    fr = project_finance(revenue=rev, opex=fi["opex"], capex=fi["capex"], renewals=fi["renewals"],
                          dscr_constraints=cons,
                          sizing_revenue={c: rev * bank.factors[c] for c, _ in bank.constraints
                                          if c != "P50"},
@@ -121,3 +123,49 @@ def test_bad_bank_inputs(tmp_path, old, new, key):
 def test_revenue_needs_tariff(tmp_path):
     with pytest.raises(InputError, match="tariff_per_kwh"):
         load_case(write_case(tmp_path, MINIMAL_CASE + "\n[revenue]\ncontract_years = 10\n"))
+
+
+def test_breakeven_in_the_contracts_own_escalation(lender_result):
+    # The year-1 contract price escalating at the contract's rate (merchant price after the
+    # contract) that gives the equity its target IRR: fed back, the equity NPV at the target
+    # rate is zero (within 1e-6 of the capex)
+    from lcoe.bank.metrics import BASE_CASE, project_finance
+    from lcoe.bankability import _tax_debt_kwargs, finance_inputs, price_by_year
+
+    case, bank = lender_result.case, lender_result.extras["bankability"]
+    fi = finance_inputs(case, lender_result.base)
+    n = fi["revenue"].shape[1] - 1
+    t = np.arange(n + 1)
+    contract = case["revenue.contract_years"]
+    price = np.where((t >= 1) & (t <= contract), bank.breakeven_contract *
+                     (1 + case["revenue.tariff_escalation"]) ** (t - 1.0),
+                     price_by_year(case, n))
+    rev = price * fi["energy_sold_kwh"]
+    cons = [(BASE_CASE if c == "P50" else c, m) for c, m in bank.constraints]
+    fr = project_finance(revenue=rev, opex=fi["opex"], capex=fi["capex"],
+                         renewals=fi["renewals"], dscr_constraints=cons,
+                         sizing_revenue={c: rev * bank.factors[c] for c, _ in bank.constraints
+                                         if c != "P50"},
+                         max_gearing=case["debt.max_gearing"],
+                         discount_rate=case["equity.target_irr"], **_tax_debt_kwargs(case))
+    assert abs(fr.npv_equity[0]) < 1e-6 * fi["capex"][0]
+    # the contract-escalation figure differs from the flat-real one (different price paths)
+    assert bank.breakeven_contract != pytest.approx(bank.breakeven_tariff, rel=1e-3)
+
+
+def test_by_year_block_and_two_npv_names(lender_result):
+    from lcoe.export.summary import summary_dict
+
+    b = summary_dict(lender_result)["bankability"]
+    assert "npv" not in b
+    assert {"equity_npv_at_discount_rate", "equity_npv_at_target_irr"} <= set(b)
+    y = b["by_year"]
+    n = len(y["year"])
+    assert all(len(y[k]) == n for k in ("cfads", "debt_service", "dscr", "llcr", "plcr"))
+    f = lender_result.extras["bankability"].finance
+    # LLCR at year 1 equals the LLCR at close (the opening balance of year 1 is the debt)
+    assert y["llcr"][1] == pytest.approx(f.llcr[0], rel=1e-12)
+    su = b["sources_and_uses"]
+    assert sum(su["uses"].values()) == pytest.approx(sum(su["sources"].values()), rel=1e-12)
+    assert su["uses"]["interest during construction"] > 0
+    assert su["uses"]["DSRA funded at close"] > 0

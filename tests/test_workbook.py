@@ -273,6 +273,8 @@ def test_debt_sheet_agrees_with_engine(runs, recalculated):
     # the debt itself is a live formula: the binding case's CFADS / target DSCR discounted at
     # the loan rate, scaled to what the other constraints allow, capped by gearing
     assert _close(_named(wb, "debt_amount"), f.debt[0])
+    # sources and uses: equity at close (IDC on the quarterly drawdown, fees, DSRA)
+    assert _close(_named(wb, "equity_at_close"), f.sources_uses["sources"]["equity"][0])
     for name, value in (("min_dscr", f.min_dscr[0]), ("avg_dscr", f.avg_dscr[0]),
                         ("llcr", f.llcr[0]), ("equity_npv", f.npv_equity[0])):
         assert _close(_named(wb, name), value), name
@@ -301,7 +303,12 @@ def test_debt_sheet_agrees_with_engine(runs, recalculated):
                          (ws.cell(row=r, column=3 + t).value for t in range(n + 1))], float)
 
     for label, expected in (("Revenue", f.revenue[0]), ("Interest", f.interest[0]),
-                            ("Tax paid", f.tax[0]), ("CFADS", f.cfads[0]),
+                            ("Tax paid", f.tax[0]), ("CFADS after", f.cfads[0]),
+                            ("CFADS before", f.cfads_before_reserves[0]),
+                            ("LLCR in year", f.llcr_by_year[0]),
+                            ("PLCR in year", f.plcr_by_year[0]),
+                            ("DSRA balance", f.dsra.balance[0]),
+                            ("MRA: balance", f.mra.balance[0]),
                             ("Closing loan balance", f.debt_balance[0]),
                             ("Cash flow to equity", f.equity_flow[0]),
                             ("DSCR = CFADS", f.dscr[0]),
@@ -390,6 +397,7 @@ def test_readback_keeps_bankability_tables(runs):
     case = case_from_workbook(runs["paths"]["lender"])
     assert dict(case.values) == dict(lender.values)
     assert case.sections == lender.sections and case.debt_sizing == lender.debt_sizing
+    assert case.drawdown == lender.drawdown and len(case.drawdown) == 4
 
 
 def test_readback_keeps_nested_tables_and_lists(tmp_path):

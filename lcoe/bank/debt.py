@@ -28,6 +28,7 @@ __all__ = [
     "debt_schedule",
     "dscr",
     "llcr",
+    "cover_ratios_by_year",
     "size_annuity",
     "size_debt",
     "size_sculpted",
@@ -380,6 +381,9 @@ class DebtSchedule:
         ``closing[:, 0] = debt``, everything else 0.
     upfront_fee : numpy.ndarray, shape (n_samples,)
         Arrangement fee paid at year 0 [currency].
+    prepaid : numpy.ndarray or None
+        Cash sweep: principal prepaid at the end of each year [currency/year] (None: no
+        sweep).
     """
 
     debt: np.ndarray
@@ -389,6 +393,7 @@ class DebtSchedule:
     closing: np.ndarray
     service: np.ndarray
     upfront_fee: np.ndarray
+    prepaid: np.ndarray | None = None
 
 
 def debt_schedule(
@@ -399,6 +404,9 @@ def debt_schedule(
     repayment: str,
     service_profile=None,
     upfront_fee_fraction: float = 0.0,
+    sweep_cfads=None,
+    sweep_share: float = 0.0,
+    sweep_above_dscr: float = 1.0,
 ) -> DebtSchedule:
     """Year-by-year loan schedule: opening balance, interest, principal, closing balance.
 
@@ -421,6 +429,13 @@ def debt_schedule(
         used and any positive scale will do (e.g. CFADS / target DSCR).
     upfront_fee_fraction : float
         Arrangement fee as a fraction of the debt [-] in [0, 1), paid at year 0.
+    sweep_cfads : array_like, shape (n_samples, n_years + 1) or (n_years + 1,), optional
+        CFADS [currency/year] from which a cash sweep prepays the loan (None: no sweep).
+    sweep_share : float
+        Share of the cash above ``sweep_above_dscr x service`` that prepays [-] in [0, 1].
+    sweep_above_dscr : float
+        DSCR level above which cash is swept [-], >= 1 (1: a fixed share of all cash left
+        after debt service).
 
     Returns
     -------
@@ -434,6 +449,12 @@ def debt_schedule(
     from the profile only by rounding). A sculpted year with little service can repay negative
     principal (interest is capitalised); the balance stays >= 0 because it equals the present
     value of the remaining service.
+
+    Cash sweep: the contractual principal of each year is that of the schedule without a
+    sweep, limited to the balance; after the year's service
+    ``prepaid_t = min(share x max(CFADS_t - level x service_t, 0), balance left)``, so the loan
+    is repaid early and later interest falls (DSCR is on the scheduled service, the prepayment
+    is below it).
     """
     src = "debt_schedule"
     _check_repayment(src, repayment)
@@ -484,7 +505,32 @@ def debt_schedule(
         closing[:, t] = balance
     closing[:, tenor] = 0.0
     fee = float(upfront_fee_fraction) * amount
-    return DebtSchedule(amount, opening, interest, principal, closing, service, fee)
+    if sweep_cfads is None or float(sweep_share) == 0.0:
+        return DebtSchedule(amount, opening, interest, principal, closing, service, fee)
+    if not 0.0 <= float(sweep_share) <= 1.0:
+        raise field_error(src, "sweep_share", sweep_share, "a number in [0, 1]")
+    if not float(sweep_above_dscr) >= 1.0:
+        raise field_error(src, "sweep_above_dscr", sweep_above_dscr, "a number >= 1")
+    cf = np.broadcast_to(as_flows(sweep_cfads, "sweep_cfads", n_years=n_years), shape2)
+    contractual = principal
+    opening, interest = np.zeros(shape2), np.zeros(shape2)
+    principal, closing, service = np.zeros(shape2), np.zeros(shape2), np.zeros(shape2)
+    prepaid = np.zeros(shape2)
+    closing[:, 0] = amount
+    balance = amount.copy()
+    # sequential: the sweep of each year changes the balance the next year starts from
+    for t in range(1, tenor + 1):
+        opening[:, t] = balance
+        interest[:, t] = balance * rate
+        principal[:, t] = balance if t == tenor else np.minimum(contractual[:, t], balance)
+        service[:, t] = interest[:, t] + principal[:, t]
+        left = balance - principal[:, t]
+        excess = np.maximum(cf[:, t] - float(sweep_above_dscr) * service[:, t], 0.0)
+        prepaid[:, t] = np.clip(float(sweep_share) * excess, 0.0, np.maximum(left, 0.0))
+        balance = left - prepaid[:, t]
+        closing[:, t] = balance
+    closing[:, tenor] = 0.0
+    return DebtSchedule(amount, opening, interest, principal, closing, service, fee, prepaid)
 
 
 def dscr(cfads, service) -> np.ndarray:
@@ -544,3 +590,51 @@ def llcr(cfads, debt_outstanding, interest_rate, tenor_years) -> np.ndarray:
     out = np.full(n_s, np.nan)
     out[d > 0] = pv[d > 0] / d[d > 0]
     return out
+
+
+def cover_ratios_by_year(cfads, opening_balance, interest_rate, tenor_years):
+    """LLCR and PLCR in each year of the loan.
+
+    Parameters
+    ----------
+    cfads : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        CFADS [currency/year], column 0 = year 0.
+    opening_balance : array_like, same shape
+        Loan outstanding at the start of each year [currency] (0 outside the loan).
+    interest_rate : float or array_like, shape (n_samples,)
+        Loan rate [1/year], >= 0, used as the discount rate.
+    tenor_years : int
+        Loan tenor [year].
+
+    Returns
+    -------
+    llcr, plcr : numpy.ndarray, shape (n_samples, n_years + 1)
+        ``LLCR_t = sum_{s=t..tenor} CFADS_s / (1 + i)**(s - t + 1) / opening_t`` and PLCR the
+        same sum to the end of the project life [-]; NaN where nothing is outstanding. At
+        t = 1 LLCR equals :func:`llcr` (the opening balance of year 1 is the debt).
+
+    References
+    ----------
+    .. [1] Loan and project life cover ratios by year: common practice of project-finance
+       lending (DOMAIN.md section 8).
+    """
+    cf = as_flows(cfads, "cfads")
+    bal = as_flows(opening_balance, "opening_balance", n_years=cf.shape[1] - 1)
+    cf, bal = np.broadcast_arrays(cf, bal)
+    n_s, width = cf.shape
+    rate, tenor = _loan_terms("cover_ratios_by_year", interest_rate, tenor_years, width - 1,
+                              n_s)
+    llcr_t, plcr_t = np.full(cf.shape, np.nan), np.full(cf.shape, np.nan)
+    pv_loan = np.zeros(n_s)
+    pv_life = np.zeros(n_s)
+    v = 1.0 / (1.0 + rate)
+    # backward recursion: PV at the start of t = (CFADS_t + PV at the start of t + 1) / (1 + i)
+    for t in range(width - 1, 0, -1):
+        pv_life = (cf[:, t] + pv_life) * v
+        if t <= tenor:
+            pv_loan = (cf[:, t] + pv_loan) * v
+        owed = bal[:, t] > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            llcr_t[:, t] = np.where(owed, pv_loan / bal[:, t], np.nan)
+            plcr_t[:, t] = np.where(owed, pv_life / bal[:, t], np.nan)
+    return llcr_t, plcr_t

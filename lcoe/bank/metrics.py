@@ -18,7 +18,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lcoe.bank.debt import DebtSchedule, DebtSizing, debt_schedule, dscr, llcr, size_debt
+from lcoe.bank.construction import Construction, construction_financing, sources_and_uses
+from lcoe.bank.debt import (
+    DebtSchedule,
+    DebtSizing,
+    cover_ratios_by_year,
+    debt_schedule,
+    dscr,
+    llcr,
+    size_debt,
+)
+from lcoe.bank.reserves import (
+    MaintenanceReserve,
+    ServiceReserve,
+    maintenance_reserve,
+    service_reserve,
+)
 from lcoe.bank.tax import (
     apply_tax_credits,
     basis_after_itc,
@@ -81,6 +96,21 @@ class FinanceResult:
         Debt sizing on the final CFADS (None when ``debt_amount`` was given).
     schedule : DebtSchedule
         The loan schedule.
+    cfads_before_reserves : yearly
+        Revenue - opex - tax, before maintenance-reserve transfers (``cfads`` is after them;
+        the two are equal without a maintenance reserve).
+    dscr_before_reserves : yearly [-]
+        ``cfads_before_reserves`` / debt service.
+    prepaid : yearly
+        Principal prepaid by the cash sweep (0 without a sweep).
+    llcr_by_year, plcr_by_year : yearly [-]
+        LLCR and PLCR at the start of each year of the loan (NaN when nothing is owed).
+    mra, dsra : MaintenanceReserve, ServiceReserve or None
+        Reserve accounts (None when not used).
+    construction : Construction
+        Drawdown, interest during construction and fees.
+    sources_uses : dict
+        Sources and uses of funds to COD (see :func:`lcoe.bank.construction.sources_and_uses`).
     """
 
     revenue: np.ndarray
@@ -114,6 +144,15 @@ class FinanceResult:
     iterations: int
     sizing: DebtSizing | None
     schedule: DebtSchedule
+    cfads_before_reserves: np.ndarray | None = None
+    dscr_before_reserves: np.ndarray | None = None
+    prepaid: np.ndarray | None = None
+    llcr_by_year: np.ndarray | None = None
+    plcr_by_year: np.ndarray | None = None
+    mra: MaintenanceReserve | None = None
+    dsra: ServiceReserve | None = None
+    construction: Construction | None = None
+    sources_uses: dict | None = None
 
 
 @dataclass(frozen=True)
@@ -177,6 +216,16 @@ def project_finance(
     max_iterations: int = 200,
     tolerance: float = 1e-9,
     service_profile=None,
+    renewals=None,
+    mra_years_ahead: int = 0,
+    dsra_months: float = 0.0,
+    dsra_at_close: bool = True,
+    construction_shares=(),
+    construction_period: str = "quarter",
+    idc_capitalised: bool = True,
+    commitment_fee_fraction: float = 0.0,
+    sweep_share: float = 0.0,
+    sweep_above_dscr: float = 1.0,
 ) -> FinanceResult:
     """Project-finance cash flow of a project company, vectorised over samples.
 
@@ -231,6 +280,27 @@ def project_finance(
         With a given ``debt_amount`` and sculpted repayment: the contractual debt-service
         profile (e.g. the schedule sized on the deterministic case), instead of re-sculpting on
         this case's CFADS. This is how a loan sized once is tested in Monte Carlo trials.
+    renewals : array_like, shape (n_samples, n_years + 1) or (n_years + 1,), optional
+        The part of ``opex`` that is scheduled replacements and moving-part renewals
+        [currency/year]; with ``mra_years_ahead`` > 0 a maintenance reserve accrues it ahead
+        (:func:`lcoe.bank.reserves.maintenance_reserve`).
+    mra_years_ahead : int
+        Years over which each renewal is accrued [year] (0: no maintenance reserve).
+    dsra_months : float
+        Debt service reserve: months of next year's service held [month] (0: none).
+    dsra_at_close : bool
+        True: the reserve is funded at close (a use of funds paid by equity); False: built
+        from cash flow.
+    construction_shares : sequence of float
+        Share of capex drawn at the start of each construction period (empty: none).
+    construction_period : {"month", "quarter"}
+    idc_capitalised : bool
+        Interest during construction added to the loan (True) or paid by equity (False).
+    commitment_fee_fraction : float
+        Fee per year on the undrawn loan during construction [1/year].
+    sweep_share, sweep_above_dscr : float
+        Cash sweep: the share [-] of CFADS above ``sweep_above_dscr x service`` that prepays
+        the loan (0: no sweep); see :func:`lcoe.bank.debt.debt_schedule`.
     max_iterations : int
         Largest number of fixed-point iterations.
     tolerance : float
@@ -254,9 +324,18 @@ def project_finance(
         EBITDA_t        = revenue_t - opex_t
         taxable_t       = EBITDA_t - depreciation_t - interest_t
         tax_t           = tax after loss carry-forward, then credits (no refunds)
-        CFADS_t         = revenue_t - opex_t - tax_t
-        equity_t        = CFADS_t - service_t
-        equity_0        = CFADS_0 - (capex - debt + upfront fee)
+        CFADS_t         = revenue_t - opex_t - tax_t + MRA release_t - MRA contribution_t
+        equity_t        = CFADS_t - service_t - prepaid_t - DSRA movement_t
+        equity_0        = CFADS_0 - (uses of funds - debt)
+        uses of funds   = capex + IDC + upfront fee + commitment fee + DSRA funded at close
+
+    DSCR follows the lender's definition: CFADS after maintenance-reserve transfers (a
+    replacement is paid from the reserve built for it) and before DSRA movements, over the
+    scheduled service; ``dscr_before_reserves`` uses CFADS before any reserve transfer. The
+    debt is sized on CFADS after maintenance-reserve transfers. Construction: the debt sized
+    here is the loan at COD; interest during construction and fees are uses of funds at
+    year 0 (contributions during construction are counted at COD, without time value), and
+    neither is depreciated for tax (conservative).
 
     Interest is deductible, so tax depends on the loan and, with sizing or sculpting, the loan
     depends on CFADS. The two are made consistent by fixed-point iteration: interest = 0 ->
@@ -325,6 +404,15 @@ def project_finance(
         depreciation_method, basis, n_years, years=depreciation_years, rate=depreciation_rate
     )
     rate = per_sample(interest_rate, n_s, "interest_rate")
+    mra = None
+    adjust = np.zeros((n_s, n_years + 1))
+    if renewals is not None and int(mra_years_ahead) > 0:
+        mra = maintenance_reserve(
+            np.broadcast_to(as_flows(renewals, "renewals", n_years=n_years), (n_s, n_years + 1)),
+            int(mra_years_ahead),
+        )
+        adjust = mra.cfads_adjustment
+    sweep = float(sweep_share) > 0
 
     interest = np.zeros((n_s, n_years + 1))
     prev_debt = prev_service = None
@@ -340,12 +428,14 @@ def project_finance(
             )
         iterations += 1
         cfads = {
-            name: _operating(cases[name], cost, depreciation, interest, tax_rate, credits).cfads
-            for name in sizing_cases
+            name: _operating(cases[name], cost, depreciation, interest, tax_rate,
+                             credits).cfads + adjust
+            for name in dict.fromkeys(sizing_cases + [BASE_CASE])
         }
         if fixed_debt is None:
             sizing = size_debt(
-                cfads, dscr_constraints, rate, tenor_years, repayment, capex_arr, max_gearing
+                {k: cfads[k] for k in sizing_cases}, dscr_constraints, rate, tenor_years,
+                repayment, capex_arr, max_gearing
             )
             new_debt, profile = sizing.debt, sizing.service
         else:
@@ -365,6 +455,9 @@ def project_finance(
             repayment,
             service_profile=profile,
             upfront_fee_fraction=upfront_fee_fraction,
+            sweep_cfads=cfads[BASE_CASE] if sweep else None,
+            sweep_share=sweep_share,
+            sweep_above_dscr=sweep_above_dscr,
         )
         if prev_debt is not None:
             scale = np.maximum(np.abs(new_debt), 1.0)
@@ -381,14 +474,25 @@ def project_finance(
     op = _operating(rev, cost, depreciation, schedule.interest, tax_rate, credits)
     unlevered = _operating(rev, cost, depreciation, np.zeros_like(interest), tax_rate, credits)
     service = schedule.service
-    equity = op.cfads - service
-    equity[:, 0] -= capex_arr - schedule.debt + schedule.upfront_fee
+    cfads_lender = op.cfads + adjust
+    prepaid = schedule.prepaid if schedule.prepaid is not None else np.zeros_like(service)
+    cash = cfads_lender - service - prepaid
+    dsra = service_reserve(service, cash, dsra_months, dsra_at_close) \
+        if float(dsra_months) > 0 else None
+    build = construction_financing(capex_arr, schedule.debt, rate, construction_shares,
+                                   construction_period, idc_capitalised,
+                                   commitment_fee_fraction, upfront_fee_fraction)
+    funds = sources_and_uses(capex_arr, schedule.debt, build,
+                             dsra.initial if dsra is not None else 0.0)
+    equity = cash - (dsra.movement if dsra is not None else 0.0)
+    equity[:, 0] = cfads_lender[:, 0] - funds["sources"]["equity"]
     pre_tax = op.ebitda.copy()
     pre_tax[:, 0] -= capex_arr
     post_tax = unlevered.cfads.copy()
     post_tax[:, 0] -= capex_arr
-    ratios = dscr(op.cfads, service)
+    ratios = dscr(cfads_lender, service)
     min_dscr, avg_dscr = _dscr_summary(ratios)
+    llcr_t, plcr_t = cover_ratios_by_year(cfads_lender, schedule.opening, rate, tenor_years)
 
     return FinanceResult(
         revenue=np.array(rev),
@@ -400,7 +504,7 @@ def project_finance(
         tax=op.tax,
         loss_balance=op.loss_balance,
         credit_balance=op.credit_balance,
-        cfads=op.cfads,
+        cfads=cfads_lender,
         debt_service=service,
         principal=schedule.principal,
         debt_balance=schedule.closing,
@@ -412,7 +516,7 @@ def project_finance(
         upfront_fee=schedule.upfront_fee,
         min_dscr=min_dscr,
         avg_dscr=avg_dscr,
-        llcr=llcr(op.cfads, schedule.debt, rate, tenor_years),
+        llcr=llcr(cfads_lender, schedule.debt, rate, tenor_years),
         project_irr_pre_tax=irr_many(pre_tax),
         project_irr_post_tax=irr_many(post_tax),
         equity_irr=irr_many(equity),
@@ -422,6 +526,15 @@ def project_finance(
         iterations=iterations,
         sizing=sizing,
         schedule=schedule,
+        cfads_before_reserves=op.cfads,
+        dscr_before_reserves=dscr(op.cfads, service),
+        prepaid=prepaid,
+        llcr_by_year=llcr_t,
+        plcr_by_year=plcr_t,
+        mra=mra,
+        dsra=dsra,
+        construction=build,
+        sources_uses=funds,
     )
 
 
@@ -433,6 +546,8 @@ def breakeven_tariff(
     sizing_energy_kwh: Mapping[str, np.ndarray] | None = None,
     tariff_high: float = 1.0,
     xtol: float = 1e-12,
+    price_index=None,
+    fixed_price=None,
     **finance_kwargs,
 ) -> np.ndarray:
     """Flat real tariff, escalating with inflation, that gives a target equity IRR.
@@ -452,6 +567,13 @@ def breakeven_tariff(
         the target rate is positive.
     xtol : float
         Bracket width at which the search stops, relative to the upper bracket [-].
+    price_index : array_like, shape (n_years + 1,), optional
+        Price of each year per unit of the tariff [-], instead of ``(1 + inflation)**t``;
+        e.g. a contract's own escalation ``(1 + e)**(t - 1)`` while the contract runs and 0
+        after it.
+    fixed_price : array_like, shape (n_years + 1,), optional
+        A price that does not move with the tariff [currency/kWh] (e.g. the merchant price
+        after the contract), added to it.
     **finance_kwargs
         Every other keyword of :func:`project_finance` except ``revenue``,
         ``sizing_revenue`` and ``discount_rate``.
@@ -477,7 +599,11 @@ def breakeven_tariff(
     n_years = energy.shape[1] - 1
     target = check_rate(target_equity_irr, "target_equity_irr", "breakeven_tariff")
     infl = check_rate(inflation, "inflation", "breakeven_tariff")
-    growth = np.exp(np.arange(n_years + 1) * np.log1p(infl)[..., None])
+    if price_index is None:
+        growth = np.exp(np.arange(n_years + 1) * np.log1p(infl)[..., None])
+    else:
+        growth = np.asarray(price_index, dtype=float)[None, :]
+    fixed = 0.0 if fixed_price is None else np.asarray(fixed_price, dtype=float)[None, :]
     others = {
         name: as_flows(e, f"sizing_energy_kwh[{name!r}]", n_years=n_years)
         for name, e in (sizing_energy_kwh or {}).items()
@@ -487,7 +613,7 @@ def breakeven_tariff(
     )
 
     def equity_npv(tariff: np.ndarray) -> np.ndarray:
-        price = tariff[:, None] * growth
+        price = tariff[:, None] * growth + fixed
         result = project_finance(
             revenue=price * energy,
             sizing_revenue={name: price * e for name, e in others.items()} or None,

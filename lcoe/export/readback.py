@@ -294,6 +294,8 @@ def _nested(entries: dict[str, Any], tables: dict) -> dict:
     if tables.get("debt_sizing") and "debt" in present:
         _table(data, "debt")["sizing"] = [{"case": c, "min_dscr": v}
                                          for c, v in tables["debt_sizing"]]
+    if tables.get("drawdown"):
+        _table(data, "construction")["drawdown"] = tables["drawdown"]
     if tables.get("uncertain"):
         data["uncertain"] = tables["uncertain"]
     if tables.get("correlation"):

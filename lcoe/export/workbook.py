@@ -524,7 +524,8 @@ def write_case_sheet(wb, result: RunResult) -> None:
     """Hidden sheet with what the Inputs sheet cannot show as single cells, as JSON text.
 
     Holds the ``[uncertain]`` and ``[[correlation]]`` tables, ``[site.monthly]``, the
-    monthly soiling profile, the debt-sizing constraints, the top-level tables present in the case file, the case's folder
+    monthly soiling profile, the debt-sizing constraints, the construction drawdown, the
+    top-level tables present in the case file, the case's folder
     (for a relative weather path) and its source and SHA-256.
     """
     case = result.case
@@ -544,6 +545,7 @@ def write_case_sheet(wb, result: RunResult) -> None:
         else list(case.soiling_monthly),
         "debt_sizing": None if sizing is None else [list(s) for s in sizing],
         "keys": input_keys(case),
+        "drawdown": list(getattr(case, "drawdown", ()) or ()),
     }
     text = json.dumps(payload, ensure_ascii=False, sort_keys=True)
     ws = wb.create_sheet(CASE_SHEET)

@@ -45,6 +45,7 @@ from .workbook import (
     widths,
 )
 from .workbook_sheets import YEAR0_COL, col_letter, year_col
+from .workbook_sizing import close_rows, sizing_rows
 
 _TOKEN = re.compile(r"\[([A-Za-z_]\w*)([<>]?)\]")
 
@@ -165,31 +166,67 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
               FMT_MONEY)
     y.values("dep", f"Tax depreciation ({case['tax.depreciation']}; engine schedule)", cur,
              f.depreciation[0], FMT_MONEY)
+    mra_rows(y, case, cash_rows, cf, cur)
     y.formula("loan_df", "Discount factor at the loan rate (tenor years)", "-",
               "=[tenor]/(1+interest_rate)^[t]", FMT_FACTOR)
     write_sizing = sizing_rows(wb, ws, y, bank, sizing_top, cf + f"$C${cash_rows['capex']}",
                                cur, int(case["debt.tenor_years"]))
+    sweep = case["debt.sweep_share"] > 0
+    if sweep:  # the contractual schedule the sweep prepays ahead of
+        y.formula("c_open", "Contractual balance without sweep, opening", cur,
+                  "=IF([tenor]=1,IF([t]=1,debt_amount,[c_close<]),0)", FMT_MONEY)
+        y.formula("c_prin", "Contractual principal (last tenor year: the whole balance)", cur,
+                  "=IF([t]=tenor_years,[c_open],IF([tenor]=1,[sched]-[c_open]*interest_rate,"
+                  "0))", FMT_MONEY)
+        y.formula("c_close", "Contractual balance without sweep, closing", cur,
+                  "=[c_open]-[c_prin]", FMT_MONEY, year0="=debt_amount")
+        principal = "=IF([t]=tenor_years,[opening],IF([tenor]=1,MIN([c_prin],[opening]),0))"
+    else:
+        principal = "=IF([t]=tenor_years,[opening],IF([tenor]=1,[sched]-[interest],0))"
     # loan balance first: interest is needed for tax
     y.formula("opening", "Opening loan balance", cur,
               "=IF([tenor]=1,IF([t]=1,debt_amount,[closing<]),0)", FMT_MONEY)
     y.formula("interest", "Interest = opening balance x loan rate", cur,
               "=[opening]*interest_rate", FMT_MONEY)
     y.formula("principal", "Principal repaid (last tenor year: the whole balance)", cur,
-              "=IF([t]=tenor_years,[opening],IF([tenor]=1,[sched]-[interest],0))", FMT_MONEY)
+              principal, FMT_MONEY)
     y.formula("service", "Debt service paid = interest + principal", cur,
               "=[interest]+[principal]", FMT_MONEY)
-    y.formula("closing", "Closing loan balance", cur, "=[opening]-[principal]", FMT_MONEY,
-              year0="=debt_amount")
+    if sweep:
+        y.formula("prepaid", "Cash sweep = MIN(sweep_share x MAX(CFADS - sweep_above_dscr x "
+                             "service, 0), balance left)", cur,
+                  "=IF([tenor]=1,MIN(sweep_share*MAX([cfads]-sweep_above_dscr*[service],0),"
+                  "MAX([opening]-[principal],0)),0)", FMT_MONEY, year0="=0")
+        closing = "=[opening]-[principal]-[prepaid]"
+    else:
+        closing = "=[opening]-[principal]"
+    y.formula("closing", "Closing loan balance", cur, closing, FMT_MONEY, year0="=debt_amount")
     capex = f"{cf}$C${cash_rows['capex']}"
     tax_rows(y, "", "[interest]", cur, capex)
-    y.formula("cfads", "CFADS = revenue - operating costs - tax", cur,
-              "=[revenue]-[opex]-[tax]", FMT_MONEY)
-    y.formula("dscr", "DSCR = CFADS / debt service", "-",
+    y.formula("cfads_raw", "CFADS before reserve transfers = revenue - operating costs - tax",
+              cur, "=[revenue]-[opex]-[tax]", FMT_MONEY)
+    y.formula("cfads", "CFADS after maintenance-reserve transfers (lender's definition)", cur,
+              "=[cfads_raw]-[mra_in]+[mra_out]", FMT_MONEY)
+    y.formula("dscr", "DSCR = CFADS after MRA transfers / debt service (lender's definition; "
+                      "before DSRA movements)", "-",
               "=IF([service]>0,[cfads]/[service],\"\")", "0.000")
-    y.formula("equity", "Cash flow to equity = CFADS - debt service", cur,
-              "=[cfads]-[service]", FMT_MONEY,
-              year0="=[cfads]-(" + f"{cf}C${cash_rows['capex']}-debt_amount"
-                    "+debt_amount*upfront_fee_fraction)")
+    y.formula("dscr_raw", "DSCR before reserve transfers", "-",
+              "=IF([service]>0,[cfads_raw]/[service],\"\")", "0.000")
+    y.formula("llcr_t", "LLCR in year t = PV at the loan rate of CFADS t..maturity / opening "
+                        "balance", "-",
+              lambda t: f"=IF([opening]>0,SUMPRODUCT({y.span('cfads', t)},"
+                        f"{y.span('loan_df', t)})*(1+interest_rate)^([t]-1)/[opening],\"\")",
+              "0.000")
+    y.formula("plcr_t", "PLCR in year t = PV at the loan rate of CFADS t..end of life / opening "
+                        "balance", "-",
+              lambda t: f"=IF([opening]>0,SUMPRODUCT({y.span('cfads', t)},"
+                        f"{y.span('life_df', t)})*(1+interest_rate)^([t]-1)/[opening],\"\")",
+              "0.000")
+    y.formula("life_df", "Discount factor at the loan rate (whole life)", "-",
+              "=IF([t]>=1,1/(1+interest_rate)^[t],0)", FMT_FACTOR)
+    dsra_rows(y, case, cur, sweep)
+    y.formula("equity", "Cash flow to equity = cash after debt service - DSRA movement", cur,
+              "=[cash]-[dsra_move]", FMT_MONEY, year0="=[cfads]-equity_at_close")
     y.formula("pretax", "Project flow before tax = EBITDA - capex", cur,
               "=[ebitda]", FMT_MONEY, year0=f"=[ebitda]-{cf}C${cash_rows['capex']}")
     tax_rows(y, "u_", "0", cur, capex, label=" (unlevered: no interest deducted)")
@@ -244,6 +281,7 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
                        "finds every root and reports a value only when there is exactly one "
                        "(a last-year decommissioning cost adds a second sign change).")
 
+    r = close_rows(wb, ws, r + 2, bank, case, capex, f"$C${y.rows['dsra']}", cur)
     write_cashflow_returns(wb, y, cash_rows, irrs["project_pre_tax"], cur)
 
     tenor = int(case["debt.tenor_years"])
@@ -268,105 +306,61 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
     ws.freeze_panes = ws.cell(row=y.rows["t"] + 1, column=YEAR0_COL).coordinate
 
 
-def sizing_rows(wb, ws, y: YearRows, bank, top: int, capex: str, cur: str,
-                tenor_years: int):
-    """Debt sizing as live formulas: what each constraint allows, the debt, the service.
+def mra_rows(y: YearRows, case, cash_rows: dict, cf: str, cur: str) -> None:
+    """Maintenance reserve: renewals, accrual, contribution, release and balance.
 
-    Writes the table at row ``top`` (``len(constraints) + 7`` rows) and, in ``y``, one row of
-    engine CFADS per sizing case, the service each constraint allows
-    (``MAX(CFADS_t, 0) / target`` in tenor years) and the scheduled service. The CFADS of the
-    sizing cases are engine values: with interest deductible they depend on the loan, which
-    depends on them (the engine's fixed point); everything after them is a formula.
-
-    Sculpted: the service follows the profile of one case s (the engine tries each case's
-    profile and keeps the one that carries the most debt), scaled by
-    ``k = MIN(1, lim_c,t / lim_s,t)`` over the other constraints c; debt =
-    ``MIN(k x PV(lim_s), gearing cap)``. Annuity: each constraint allows
-    ``MIN_t lim_c,t / CRF``; debt = the smallest, capped.
+    A renewal R_T is accrued over ``m_T = MIN(mra_years_ahead, T - 1)`` years before T
+    (:func:`lcoe.bank.reserves.maintenance_reserve`); the contribution of year t sums the
+    accruals of the renewals due in t+1 .. t+k (k = mra_years_ahead at export: the ranges are
+    fixed when the workbook is written).
     """
-    from ..bank.metrics import BASE_CASE
+    parts = [f"{cf}{{L}}${cash_rows[k]}" for k in ("replacements", "moving_parts")
+             if k in cash_rows]
+    y.formula("renew", "Renewals: scheduled replacements + moving parts (CashFlow)", cur,
+              "=MAX(" + ("+".join(parts) or "0") + ",0)", FMT_MONEY)
+    y.formula("mra_accrual", "MRA: yearly accrual for the renewal of this year = renewal / "
+                             "MIN(mra_years_ahead, t - 1)", cur,
+              "=IF(AND(mra_years_ahead>0,[t]>=2),[renew]/MIN(mra_years_ahead,[t]-1),0)",
+              FMT_MONEY)
+    k = int(case["debt.mra_years_ahead"])
 
-    sizing = bank.finance.sizing
-    names = [BASE_CASE if c == "P50" else c for c, _ in bank.constraints]
-    nc = len(names)
-    sculpted = sizing.repayment == "sculpted"
-    shape = names.index(str(sizing.shape_case[0])) if sculpted else 0
-    table = {j: top + 1 + j for j in range(nc)}
-    cap_row, k_row, crf_row = top + nc + 1, top + nc + 2, top + nc + 3
-    debt_row, bind_row = top + nc + 4, top + nc + 5
-    for j, (case, target) in enumerate(bank.constraints):
-        y.values(f"cf_{j}", f"Sizing case {case}: CFADS (engine, fixed point of tax and "
-                            f"interest)", cur, sizing.cfads[names[j]][0], FMT_MONEY)
-        y.formula(f"lim_{j}", f"Sizing case {case}: service it allows = MAX(CFADS, 0) / "
-                              f"{target:.2f}", cur, f"=[tenor]*MAX([cf_{j}],0)/$C${table[j]}",
-                  FMT_MONEY)
-    if sculpted:
-        for j in range(nc):
-            if j != shape:
-                y.formula(f"ratio_{j}", f"Room under {bank.constraints[j][0]} for the "
-                                        f"{bank.constraints[shape][0]} profile = ratio of "
-                                        "allowed services", "-",
-                          f'=IF([lim_{shape}]>0,[lim_{j}]/[lim_{shape}],"")', "0.000000")
-        y.formula("sched", f"Scheduled debt service = {bank.constraints[shape][0]} profile x "
-                           "debt / its PV", cur,
-                  f"=[lim_{shape}]*IF($D${table[shape]}>0,debt_amount/$D${table[shape]},0)",
-                  FMT_MONEY)
-    else:
-        y.formula("sched", "Scheduled debt service = debt x CRF (annuity)", cur,
-                  f"=[tenor]*debt_amount*$C${crf_row}", FMT_MONEY)
+    def contribution(t: int) -> str:
+        last = min(t + k, y.n)
+        if t == 0 or k == 0 or t + 1 > last:
+            return "=0"
+        first_col, last_col = col_letter(year_col(t + 1)), col_letter(year_col(last))
+        row = y.rows["mra_accrual"]
+        return f"=SUM({first_col}{row}:{last_col}{row})"
 
-    def write() -> None:
-        header(ws, top, ("Debt sizing: constraint", "target DSCR", "x", "Debt it alone "
-                         "allows", "Engine value", "Relative difference"))
-        put_text(ws, top, 3, "x")
-        first, end = col_letter(year_col(1)), col_letter(year_col(tenor_years))
-        for j, (case, target) in enumerate(bank.constraints):
-            row = table[j]
-            put_text(ws, row, 1, f"{case} @ {target:.2f}x (DSCR constraint)")
-            put(ws, row, 3, float(target), "0.00")
-            lim = y.rows[f"lim_{j}"]
-            if sculpted:
-                formula = f"=SUMPRODUCT({y.span(f'lim_{j}')},{y.span('loan_df')})"
-            else:
-                formula = f"=MIN({first}{lim}:{end}{lim})/$C${crf_row}"
-            put_formula(ws, row, 4, formula, FMT_MONEY)
-            label = constraint_label_of(names[j], target)
-            engine_columns(ws, row, 4, float(sizing.candidates[label][0]), FMT_MONEY)
-        put_text(ws, cap_row, 1, "Gearing cap = max_gearing x capex")
-        put_formula(ws, cap_row, 4, f"=max_gearing*{capex}", FMT_MONEY)
-        cap_label = next(k for k in sizing.candidates if k.startswith("gearing cap"))
-        engine_columns(ws, cap_row, 4, float(sizing.candidates[cap_label][0]), FMT_MONEY)
-        put_text(ws, crf_row, 1, "Capital recovery factor CRF(loan rate, tenor)")
-        put_formula(ws, crf_row, 4, "=IF(interest_rate=0,1/tenor_years,interest_rate/"
-                                    "(1-(1+interest_rate)^(-tenor_years)))", FMT_FACTOR)
-        if sculpted:
-            ratios = [y.span(f"ratio_{j}") for j in range(nc) if j != shape]
-            put_text(ws, k_row, 1, f"Scale k of the {bank.constraints[shape][0]} profile "
-                                   "that every other constraint allows")
-            put_formula(ws, k_row, 4, "=MIN(1," + ",".join(f"MIN({a})" for a in ratios) + ")"
-                        if ratios else "=1", "0.000000")
-            debt = f"=MIN($D${k_row}*$D${table[shape]},$D${cap_row})"
-        else:
-            put_text(ws, k_row, 1, "Annuity: the smallest payment allowed sets the debt")
-            debt = "=MIN(" + ",".join(f"$D${table[j]}" for j in range(nc)) + \
-                f",$D${cap_row})"
-        put_text(ws, debt_row, 1, "Debt drawn at financial close")
-        put_text(ws, debt_row, 2, cur)
-        put_formula(ws, debt_row, 4, debt, FMT_MONEY)
-        engine_columns(ws, debt_row, 4, float(bank.finance.debt[0]), FMT_MONEY)
-        define_name(wb, "debt_amount", ws, debt_row, 4)
-        put_text(ws, bind_row, 1, "Binding (engine)")
-        put_text(ws, bind_row, 4, bank.binding or "-")
-        if bank.no_debt_reason:
-            put_text(ws, bind_row + 1, 1, bank.no_debt_reason)
-
-    return write
+    y.formula("mra_in", f"MRA: contribution = accruals for renewals due in the next {k} "
+                        "year(s)", cur, contribution, FMT_MONEY)
+    y.formula("mra_out", "MRA: release to pay this year's renewal", cur,
+              "=IF(AND(mra_years_ahead>0,[t]>=2),[renew],0)", FMT_MONEY)
+    y.formula("mra_bal", "MRA: balance at the end of the year", cur,
+              "=[mra_bal<]+[mra_in]-[mra_out]", FMT_MONEY)
 
 
-def constraint_label_of(case: str, target: float) -> str:
-    from ..bank.debt import constraint_label
+def dsra_rows(y: YearRows, case, cur: str, sweep: bool) -> None:
+    """Cash after debt service and the debt service reserve (target, draw, balance, movement).
 
-    return constraint_label(case, float(target))
+    See :func:`lcoe.bank.reserves.service_reserve`.
+    """
+    prepaid = "-[prepaid]" if sweep else ""
+    y.formula("cash", "Cash after debt service" + (" and sweep" if sweep else ""), cur,
+              f"=[cfads]-[service]{prepaid}", FMT_MONEY)
+    y.formula("dsra_target", "DSRA target = dsra_months / 12 x next year's debt service", cur,
+              "=dsra_months/12*[service>]", FMT_MONEY)
+    y.formula("dsra_draw", "DSRA drawn to cover a shortfall = MIN(MAX(-cash, 0), balance)", cur,
+              "=MIN(MAX(-[cash],0),[dsra<])", FMT_MONEY, year0="=0")
+    y.formula("dsra_after", "DSRA after the draw", cur, "=[dsra<]-[dsra_draw]", FMT_MONEY,
+              year0="=0")
+    at_close = case["debt.dsra_funding"] == "close"
+    y.formula("dsra", "DSRA balance: topped up from cash to the target, excess released", cur,
+              "=IF([dsra_after]<[dsra_target],[dsra_after]+MIN([dsra_target]-[dsra_after],"
+              "MAX([cash],0)),[dsra_target])", FMT_MONEY,
+              year0="=[dsra_target]" if at_close else "=0")
+    y.formula("dsra_move", "DSRA movement (into the reserve > 0, released < 0)", cur,
+              "=[dsra]-[dsra<]", FMT_MONEY)
 
 
 def roots_text(found) -> str:
