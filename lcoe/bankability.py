@@ -19,7 +19,8 @@ import numpy as np
 
 from .bank.metrics import BASE_CASE, FinanceResult, breakeven_tariff, project_finance
 from .case import Case
-from .finance import IrrResult, irr, npv
+from .errors import InputError
+from .finance import IrrResult, investment_irr, irr, npv
 from .model import ModelOutput
 from .uncertainty.engine import QUANTILES, Z90, Z99, stats
 from .uncertainty.spec import UncertainSpec
@@ -239,27 +240,87 @@ class BankabilityBlock:
                 "project_pre_tax": irr(f.project_flow_pre_tax[0]),
                 "equity": irr(f.equity_flow[0])}
 
-    def collector(self, case: Case):
-        """Per-trial collector for :func:`lcoe.uncertainty.engine.monte_carlo`."""
+    def trial_finance(self, case: Case):
+        """``fn(model_output, params) -> FinanceResult`` of trials run with the sized loan."""
         debt = float(self.finance.debt[0])
         service = self.finance.debt_service[0]
         kwargs = _tax_debt_kwargs(case)
+
+        def run(out: ModelOutput, params: dict) -> FinanceResult:
+            fi = finance_inputs(case, out)
+            d = np.minimum(debt, fi["capex"])
+            return project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
+                                   renewals=fi["renewals"],
+                                   debt_amount=d, service_profile=service, max_gearing=1.0,
+                                   discount_rate=np.asarray(params.get(
+                                       "finance.discount_rate",
+                                       case["finance.discount_rate"])),
+                                   **kwargs)
+
+        return run
+
+    def collector(self, case: Case):
+        """Per-trial collector for :func:`lcoe.uncertainty.engine.monte_carlo`."""
+        run = self.trial_finance(case)
         target = self.target_irr
 
         def collect(out: ModelOutput, params: dict, sl) -> dict:
-            fi = finance_inputs(case, out)
-            d = np.minimum(debt, fi["capex"])
-            fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
-                                 renewals=fi["renewals"],
-                                 debt_amount=d, service_profile=service, max_gearing=1.0,
-                                 discount_rate=np.asarray(params.get(
-                                     "finance.discount_rate", case["finance.discount_rate"])),
-                                 **kwargs)
+            fr = run(out, params)
             return {"min_dscr": fr.min_dscr, "dscr_by_year": fr.dscr,
                     "equity_irr": fr.equity_irr,
                     "equity_npv_at_target": npv(target, fr.equity_flow)}
 
         return collect
+
+    def sensitivity_targets(self, case: Case) -> dict:
+        """Lender's outputs Sobol and the tornado may rank (``--sobol-output``).
+
+        Returns
+        -------
+        dict of str to callable
+            ``min_dscr`` (the sized loan kept, as in the Monte Carlo), ``equity_irr`` (the
+            investment root, :func:`lcoe.finance.investment_irr`) and
+            ``breakeven_tariff_per_kwh`` (flat real, debt re-sized on the same constraints
+            for each run), each ``fn(ModelOutput, params) -> (n,)``.
+        """
+        run = self.trial_finance(case)
+        kwargs = _tax_debt_kwargs(case)
+        constraints = [(BASE_CASE if c == "P50" else c, m) for c, m in self.constraints]
+        factors = self.factors
+
+        def min_dscr(out, params):
+            value = run(out, params).min_dscr
+            if np.any(~np.isfinite(value)):
+                raise InputError("--sobol-output min_dscr: the case carries no debt service; "
+                                 "rank equity_irr or breakeven_tariff_per_kwh instead")
+            return value
+
+        def equity_irr(out, params):
+            value = investment_irr(run(out, params).equity_flow)
+            bad = np.flatnonzero(~np.isfinite(value))
+            if bad.size:
+                raise InputError(f"--sobol-output equity_irr: the equity cash flow of run "
+                                 f"{bad[0]} ({bad.size} in all) has no single investment "
+                                 f"root; rank min_dscr or breakeven_tariff_per_kwh instead")
+            return value
+
+        def breakeven(out, params):
+            fi = finance_inputs(case, out)
+            value = breakeven_tariff(
+                energy_kwh=fi["energy_sold_kwh"], inflation=case["finance.inflation"],
+                target_equity_irr=case["equity.target_irr"],
+                sizing_energy_kwh={c: fi["energy_sold_kwh"] * factors[c]
+                                   for c, _ in self.constraints if c != "P50"} or None,
+                opex=fi["opex"], capex=fi["capex"], renewals=fi["renewals"],
+                dscr_constraints=constraints, max_gearing=case["debt.max_gearing"], **kwargs)
+            bad = np.flatnonzero(~np.isfinite(value))
+            if bad.size:
+                raise InputError(f"--sobol-output breakeven_tariff_per_kwh: no break-even "
+                                 f"tariff in run {bad[0]} ({bad.size} in all)")
+            return value
+
+        return {"min_dscr": min_dscr, "equity_irr": equity_irr,
+                "breakeven_tariff_per_kwh": breakeven}
 
     def add_trials(self, outputs: dict) -> None:
         """Summarise per-trial outputs of :meth:`collector` into :attr:`mc`."""

@@ -184,8 +184,10 @@ def _run_options(sp, default_help: str) -> None:
                                       f"(default {DEFAULT_SOBOL_BASE}; 0 = skip)")
     sp.add_argument("--sobol-output", default="lcoe_real_per_kwh",
                     choices=("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
-                             "energy_first_year_kwh"),
-                    help="output whose drivers are ranked (default lcoe_real_per_kwh)")
+                             "energy_first_year_kwh", "min_dscr", "equity_irr",
+                             "breakeven_tariff_per_kwh"),
+                    help="output whose drivers are ranked (default lcoe_real_per_kwh; "
+                         "min_dscr, equity_irr and breakeven_tariff_per_kwh need [revenue])")
     sp.add_argument("--screen", action="store_true",
                     help="also run Morris screening (useful with many inputs)")
     sp.add_argument("--method", choices=("lhs", "random"), default="lhs",

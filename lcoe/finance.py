@@ -31,6 +31,7 @@ __all__ = [
     "discount_factors",
     "irr",
     "irr_many",
+    "investment_irr",
     "lcoe_from_flows",
     "nominal_rate",
     "npv",
@@ -451,6 +452,55 @@ def irr_many(cashflows) -> np.ndarray:
         out[simple] = np.expm1(0.5 * (a + b))
     for k in np.flatnonzero(changes >= 2):
         out[k] = irr(cf[k]).value
+    return out
+
+
+def investment_irr(cashflows, grid_points: int = 400) -> np.ndarray:
+    """The investment root of each sample's cash flow: where NPV turns from + to - as the
+    rate rises.
+
+    Parameters
+    ----------
+    cashflows : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        Yearly cash flows [currency], column 0 = year 0.
+    grid_points : int
+        Points of the grid in ``u = log(1 + r)`` over (-0.99, 10] that brackets the roots.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_samples,)
+        IRR [1/year], or NaN where the NPV never turns from positive to negative, or does so
+        more than once on the grid (ambiguous).
+
+    Notes
+    -----
+    A flow that starts negative, turns positive and ends negative (decommissioning) has a
+    spurious root near -100 % where the NPV turns from negative to positive; the investment
+    root is the one where it turns from positive to negative as the rate rises (DOMAIN.md
+    section 8). Each bracket is refined by bisection in u to the last bit, vectorised over
+    samples.
+    """
+    cf = as_flows(cashflows, "cashflows")
+    if not np.all(np.isfinite(cf)):
+        raise ValueError("investment_irr: cash flows must be finite")
+    grid = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), int(grid_points))
+    g = _scaled_npv(np.broadcast_to(grid, (cf.shape[0], grid.size)), cf[:, None, :])
+    down = (g[:, :-1] > 0) & (g[:, 1:] <= 0)
+    count = down.sum(axis=1)
+    out = np.full(cf.shape[0], np.nan)
+    rows = np.flatnonzero(count == 1)
+    if rows.size == 0:
+        return out
+    k = np.argmax(down[rows], axis=1)
+    a, b = grid[k], grid[k + 1]
+    sub = cf[rows]
+    # bisection is sequential by nature; each step is vectorised over the rows (g(a) > 0)
+    for _ in range(80):
+        m = 0.5 * (a + b)
+        positive = _scaled_npv(m, sub) > 0
+        a = np.where(positive, m, a)
+        b = np.where(positive, b, m)
+    out[rows] = np.expm1(0.5 * (a + b))
     return out
 
 

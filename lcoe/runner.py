@@ -113,8 +113,10 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
         from .uncertainty.study import run_study
 
         collectors = (bank.collector(case),) if bank is not None else ()
+        targets = bank.sensitivity_targets(case) if bank is not None else None
         unc, sens = run_study(case, site, spec, n, seed, sobol_base, sobol_output, screen,
-                              chunk_size, method, collectors=collectors, progress=progress)
+                              chunk_size, method, collectors=collectors, progress=progress,
+                              targets=targets)
         extras["uncertainty"] = unc
         if sens is not None:
             extras["sensitivity"] = sens

@@ -209,3 +209,21 @@ def test_lcoe_vectorised_over_samples():
         assert got[k] == pytest.approx(costs[k] @ d / (kwh[k] @ d), rel=1e-14)
     with pytest.raises(ValueError, match="energy"):
         lcoe_from_flows(costs, np.zeros((2, 4)), 0.05)
+
+
+def test_investment_irr_takes_the_root_where_npv_turns_negative():
+    from lcoe.finance import investment_irr, npv
+
+    # classic textbook flows -100, +230, -132: roots 10 % and 20 % (DOMAIN.md section 8); the
+    # NPV turns from + to - as the rate rises at 20 %, the investment root
+    assert investment_irr([-100.0, 230.0, -132.0])[0] == pytest.approx(0.20, abs=1e-12)
+    # one sign change: the only root (numpy-financial docstring, verified: 0.28094842115996)
+    assert investment_irr([-100, 39, 59, 55, 20])[0] == pytest.approx(0.28094842115996,
+                                                                      abs=1e-12)
+    # an investment with decommissioning: a spurious root near -100 % (- to +) and the real
+    # one; vectorised over samples
+    flows = np.array([[-100.0, 30, 30, 30, 30, 30, -20], [-100.0, 40, 40, 40, 40, 40, -30]])
+    got = investment_irr(flows)
+    for row, r in zip(flows, got):
+        assert 0 < r < 0.3 and abs(npv(r, row)) < 1e-9
+    assert np.isnan(investment_irr([100.0, 50.0])[0])  # never turns negative

@@ -84,3 +84,18 @@ def test_lender_rows_in_the_report():
     roots = b["irr_roots"]["equity"]["roots"]
     if b["equity_irr"] is None:  # several roots: all are shown
         assert all(f"{100 * x:.2f}" in page for x in roots)
+
+
+def test_lender_report_has_the_debt_section(tmp_path):
+    result = run_case(INPUTS / "lender_single_axis.toml", samples=32, sobol_base=0,
+                      sobol_output="min_dscr")
+    page = report_html(result, figures={})
+    for text in ("Debt: the lender's case", "Sources and uses of funds to COD",
+                 "Debt each constraint allows on its own", "binds", "Cover ratios by year",
+                 "LLCR", "PLCR", "Breach odds over 32 trials", "as a year-1 contract price",
+                 "Equity NPV at the discount rate"):
+        assert text in page, text
+    # the tornado ranks the drivers of the minimum DSCR
+    sens = result.extras["sensitivity"]
+    assert sens.output == "min_dscr" and sens.tornado
+    assert all(np.isfinite([t["y_low"], t["y_high"]]).all() for t in sens.tornado)

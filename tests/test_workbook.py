@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from conftest import DEMO, INPUTS
-from helpers.office import recalculate, soffice_path
+from helpers.office import pdf_pages, recalculate, soffice_path, to_pdf
 
 from lcoe.case import case_from_dict, load_case
 from lcoe.errors import InputError
@@ -477,3 +477,22 @@ def test_readback_after_libreoffice_save(runs, recalculated):
     assert dict(case.uncertain) == dict(runs["full"].case.uncertain)
     hostile = case_from_workbook(recalculated["files"]["hostile"])
     assert [r.item for r in hostile.replacements] == list(HOSTILE[2:])
+
+
+def test_every_sheet_prints_landscape_one_page_wide(runs):
+    wb = openpyxl.load_workbook(runs["paths"]["lender"])
+    for ws in wb.worksheets:
+        if ws.sheet_state != "visible":
+            continue
+        assert ws.page_setup.orientation == "landscape", ws.title
+        assert ws.page_setup.fitToWidth == 1 and ws.sheet_properties.pageSetUpPr.fitToPage
+        assert ws.print_area, ws.title
+    debt = wb["Debt"]
+    assert debt.print_title_cols.replace("$", "") == "A:B" and debt.print_title_rows
+
+
+@needs_soffice
+def test_lender_workbook_prints_in_under_40_pages(runs):
+    pdf = to_pdf(runs["paths"]["lender"], runs["tmp"] / "pdf")
+    pages = pdf_pages(pdf)
+    assert 5 <= pages < 40, pages

@@ -41,6 +41,9 @@ OUTPUT_LABELS = {
     "lcoe_nominal_per_kwh": "LCOE nominal",
     "npv_costs": "NPV of costs",
     "energy_first_year_kwh": "First-year energy",
+    "min_dscr": "Minimum DSCR",
+    "equity_irr": "Equity IRR",
+    "breakeven_tariff_per_kwh": "Break-even tariff",
 }
 
 
@@ -385,8 +388,10 @@ def render_figures(result) -> dict[str, bytes]:
             unc.trials.outputs["lcoe_real_per_kwh"], unc.stats["lcoe_real_per_kwh"], cur)
     sens = result.extras.get("sensitivity")
     if sens is not None:
-        unit = f"{cur}/kWh" if "lcoe" in sens.output else (cur if "npv" in sens.output
-                                                           else "kWh")
+        unit = {"min_dscr": "-", "equity_irr": "1/year",
+                "breakeven_tariff_per_kwh": f"{cur}/kWh"}.get(sens.output) or (
+            f"{cur}/kWh" if "lcoe" in sens.output else (cur if "npv" in sens.output
+                                                         else "kWh"))
         if sens.sobol is not None and sens.sobol.rows:
             figs["sobol_indices.png"] = fig_sobol(sens.ranked(), sens.output)
         if sens.tornado:

@@ -240,6 +240,13 @@ def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> s
         _drivers_html(result),
         _audit_html(result.extras.get("audit")),
     ]
+    bank = result.extras.get("bankability")
+    figures = dict(figures)
+    if bank is not None and hasattr(bank, "to_summary"):
+        from .report_debt import debt_section_html
+
+        body.append(debt_section_html(bank.to_summary(), case["case.currency"],
+                                      figures.pop("dscr_fan.png", None)))
     if figures:
         body.append("<h2>Pictures</h2>")
         for name, png in figures.items():

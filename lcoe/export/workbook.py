@@ -283,7 +283,41 @@ def write_workbook(result: RunResult, path: Path) -> None:
         workbook_stats.write_sensitivity_sheet(wb, result)
     write_about_sheet(about, wb, result)
     write_case_sheet(wb, result)
+    for ws in wb.worksheets:
+        if ws.sheet_state == "visible":
+            print_setup(ws)
     wb.save(path)
+
+
+def print_setup(ws) -> None:
+    """Landscape, one page wide, repeated title rows and columns, a print area.
+
+    The title row repeated on every page is the first row whose column A reads ``Year`` or
+    ``Year t`` (yearly sheets), else the first header row; sheets wider than eight columns
+    also repeat columns A:B (the labels and units).
+    """
+    from openpyxl.worksheet.properties import PageSetupProperties
+
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.print_options.gridLines = False
+    ws.page_margins.left = ws.page_margins.right = 0.4
+    ws.page_margins.top = ws.page_margins.bottom = 0.5
+    if ws.max_row < 1 or ws.max_column < 1:
+        return
+    ws.print_area = ws.dimensions
+    title_row = None
+    for (cell,) in ws.iter_rows(min_col=1, max_col=1, max_row=min(ws.max_row, 200)):
+        if isinstance(cell.value, str) and cell.value.strip() in ("Year", "Year t"):
+            title_row = cell.row
+            break
+    if title_row is not None:
+        ws.print_title_rows = f"{title_row}:{title_row}"
+    if ws.max_column > 8:
+        ws.print_title_cols = "A:B"
 
 
 def write_about_sheet(ws, wb, result: RunResult) -> None:

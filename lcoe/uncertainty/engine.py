@@ -275,15 +275,19 @@ def energy_exceedance(trials: Trials, spec: UncertainSpec) -> EnergyExceedance:
 
 
 def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
-                   chunk_size: int = 1000, progress=None) -> Callable[[np.ndarray], np.ndarray]:
+                   chunk_size: int = 1000, progress=None,
+                   extra: dict | None = None) -> Callable[[np.ndarray], np.ndarray]:
     """``f(X) -> Y`` for the sensitivity layer: sampled inputs (n, d) -> one output (n,).
 
     Year-to-year weather is left out of these designs (every year at its mean): Sobol and
     tornado rank the inputs a user can argue about, and a noise term would only blur them.
+    ``extra`` adds targets computed from each chunk's model output,
+    ``{name: fn(ModelOutput, params) -> (n,)}`` (e.g. the lender's minimum DSCR).
     """
-    if output not in SENSITIVITY_TARGETS:
+    extra = dict(extra or {})
+    if output not in SENSITIVITY_TARGETS and output not in extra:
         raise InputError(f"--sobol-output {output!r}: expected one of "
-                         f"{', '.join(SENSITIVITY_TARGETS)}")
+                         f"{', '.join(SENSITIVITY_TARGETS + tuple(extra))}")
     life = int(case["case.lifetime_years"])
 
     def f(X: np.ndarray) -> np.ndarray:
@@ -293,9 +297,14 @@ def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
             sl = slice(start, min(start + chunk_size, X.shape[0]))
             params = {k: v[sl] for k, v in params_all.items()}
             wf = np.repeat(persist[sl, None], life, axis=1)
-            c = evaluate(case, site, params, weather_factors=wf).cashflow
-            y[sl] = {"lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,
-                     "npv_costs": c.pv_costs, "energy_first_year_kwh": c.energy_kwh[:, 1]}[output]
+            out = evaluate(case, site, params, weather_factors=wf)
+            c = out.cashflow
+            if output in extra:
+                y[sl] = extra[output](out, params)
+            else:
+                y[sl] = {"lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh":
+                         c.lcoe_nominal, "npv_costs": c.pv_costs,
+                         "energy_first_year_kwh": c.energy_kwh[:, 1]}[output]
             if progress:
                 progress(sl.stop, X.shape[0])
         return y

@@ -175,7 +175,7 @@ class SensitivityBlock:
 def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: int,
               sobol_base: int = 256, sobol_output: str = "lcoe_real_per_kwh",
               screen: bool = False, chunk_size: int = 1000, method: str = "lhs",
-              collectors: tuple = (), progress=None):
+              collectors: tuple = (), progress=None, targets: dict | None = None):
     """Monte Carlo, exceedance, Sobol, tornado (and Morris when ``screen``) for a case.
 
     Parameters
@@ -199,6 +199,8 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
         Extra per-trial outputs (see :func:`lcoe.uncertainty.engine.monte_carlo`).
     progress : callable, optional
         ``progress(stage, done, total)``.
+    targets : dict, optional
+        Further sensitivity targets (see :func:`lcoe.uncertainty.engine.model_function`).
 
     Returns
     -------
@@ -218,7 +220,7 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
                            stats=st, currency=case["case.currency"], seed=seed, notes=notes)
     if not spec.dists:
         return unc, None
-    f_tornado = model_function(case, site, spec, sobol_output, chunk_size)
+    f_tornado = model_function(case, site, spec, sobol_output, chunk_size, extra=targets)
     base_values = {d.name: (1.0 if d.name.startswith("energy.") else
                             _case_value(case, d.name)) for d in spec.dists}
     if progress:
@@ -231,7 +233,8 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
         _, x, note = sobol_sample(spec.dists, sobol_base, make_rng(sobol_seq), spec.corr)
         if note:
             sens_notes.append(note)
-        f = model_function(case, site, spec, sobol_output, chunk_size, stage("Sobol"))
+        f = model_function(case, site, spec, sobol_output, chunk_size, stage("Sobol"),
+                           extra=targets)
         y = f(x)
         sob = sobol_analyze(spec.dists, y, sobol_base, make_rng(sobol_seq.spawn(1)[0]),
                             corr=spec.corr, output=sobol_output)
@@ -242,7 +245,7 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
         if progress:
             progress("Morris screening", 0, 0)
         morris = morris_screen(spec.dists, model_function(case, site, spec, sobol_output,
-                                                          chunk_size),
+                                                          chunk_size, extra=targets),
                                20, make_rng(morris_seq), num_levels=6)
     return unc, SensitivityBlock(sobol=sob, tornado=torn, morris=morris, output=sobol_output,
                                  notes=sens_notes)

@@ -37,7 +37,19 @@ def soffice_path() -> str | None:
     return shutil.which("soffice") or shutil.which("libreoffice")
 
 
-def recalculate(paths, out_dir, timeout: float = 600.0) -> list[Path]:
+def to_pdf(path, out_dir, timeout: float = 600.0) -> Path:
+    """Print a workbook to PDF with LibreOffice (each sheet's page setup applies)."""
+    return recalculate([path], out_dir, timeout, target="pdf")[0]
+
+
+def pdf_pages(path) -> int:
+    """Number of pages of a PDF file (counts its page objects)."""
+    import re
+
+    return len(re.findall(rb"/Type\s*/Page(?!s)", Path(path).read_bytes()))
+
+
+def recalculate(paths, out_dir, timeout: float = 600.0, target: str = "xlsx") -> list[Path]:
     """Load, recalculate and save each workbook with LibreOffice, in one soffice call.
 
     Parameters
@@ -76,13 +88,13 @@ def recalculate(paths, out_dir, timeout: float = 600.0) -> list[Path]:
     env = {k: v for k, v in os.environ.items() if not k.startswith(("UNO_", "URE_"))}
     env["HOME"] = str(home)
     cmd = [exe, f"-env:UserInstallation={profile.as_uri()}", "--headless", "--norestore",
-           "--nologo", "--convert-to", "xlsx", "--outdir", str(out_dir), *map(str, paths)]
+           "--nologo", "--convert-to", target, "--outdir", str(out_dir), *map(str, paths)]
     try:
         proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, env=env,
                               cwd=str(home))
     finally:
         shutil.rmtree(home, ignore_errors=True)
-    outs = [out_dir / p.name for p in paths]
+    outs = [out_dir / (p.stem + "." + target) for p in paths]
     missing = [str(o) for o in outs if not o.is_file()]
     if missing:
         raise RuntimeError(f"soffice did not write {missing}: exit {proc.returncode}, "
