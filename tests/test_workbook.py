@@ -84,9 +84,22 @@ def runs(tmp_path_factory):
     hostile = run_case(_hostile_case(tmp), samples=0)
     lender = run_case(INPUTS / "lender_single_axis.toml", samples=64, sobol_base=0)
     columns = run_case(INPUTS / "compare_rotating_columns.toml", samples=0)
+    # the lender demo with a cash sweep, a DSRA built from cash flow and IDC paid by equity
+    text = (INPUTS / "lender_single_axis.toml").read_text(encoding="utf-8")
+    for old, new in (("min_tail_years = 2", "min_tail_years = 2\nsweep_share = 0.5\n"
+                                            "sweep_above_dscr = 1.2"),
+                     ("dsra_months = 6.0", 'dsra_months = 6.0\ndsra_funding = "cash_flow"'),
+                     ('idc = "capitalised"', 'idc = "equity"')):
+        assert old in text
+        text = text.replace(old, new)
+    swept_path = tmp / "lender_sweep.toml"
+    swept_path.write_text(text, encoding="utf-8")
+    swept = run_case(load_case(swept_path), samples=0)
     paths = {"full": tmp / "full.xlsx", "hostile": tmp / "hostile.xlsx",
              "edited": tmp / "edited.xlsx", "comparison": tmp / "comparison.xlsx",
-             "lender": tmp / "lender.xlsx", "columns": tmp / "columns.xlsx"}
+             "lender": tmp / "lender.xlsx", "columns": tmp / "columns.xlsx",
+             "swept": tmp / "swept.xlsx"}
+    write_workbook(swept, paths["swept"])
     write_workbook(columns, paths["columns"])
     write_workbook(full, paths["full"])
     write_workbook(hostile, paths["hostile"])
@@ -94,6 +107,7 @@ def runs(tmp_path_factory):
     _edit_input(paths["full"], paths["edited"], "costs.capex_per_kw", NEW_CAPEX)
     write_comparison_workbook([full, hostile], paths["comparison"])
     return {"full": full, "hostile": hostile, "lender": lender, "columns": columns,
+            "swept": swept,
             "paths": paths, "tmp": tmp}
 
 
@@ -496,3 +510,25 @@ def test_lender_workbook_prints_in_under_40_pages(runs):
     pdf = to_pdf(runs["paths"]["lender"], runs["tmp"] / "pdf")
     pages = pdf_pages(pdf)
     assert 5 <= pages < 40, pages
+
+
+@needs_soffice
+def test_cash_sweep_reserve_and_equity_paid_idc_agree_with_engine(runs, recalculated):
+    """Cross-implementation: the sweep, a DSRA built from cash flow and IDC paid by equity,
+    recalculated by LibreOffice, vs lcoe.bank."""
+    f = runs["swept"].extras["bankability"].finance
+    assert f.prepaid[0].sum() > 0 and f.dsra.initial[0] == 0
+    wb = recalculated["swept"]
+    assert _close(_named(wb, "debt_amount"), f.debt[0])
+    assert _close(_named(wb, "equity_at_close"), f.sources_uses["sources"]["equity"][0])
+    ws = wb["Debt"]
+    labels = {ws.cell(row=r, column=1).value: r for r in range(1, ws.max_row + 1)}
+    n = f.cfads.shape[1] - 1
+    for start, expected in (("Cash sweep", f.prepaid[0]), ("Closing loan", f.debt_balance[0]),
+                            ("DSRA balance", f.dsra.balance[0]),
+                            ("Cash flow to equity", f.equity_flow[0]),
+                            ("LLCR in year", f.llcr_by_year[0])):
+        r = next(r for lab, r in labels.items() if lab and lab.startswith(start))
+        got = np.array([np.nan if v in (None, "") else v for v in
+                        (ws.cell(row=r, column=3 + t).value for t in range(n + 1))], float)
+        np.testing.assert_allclose(got, expected, rtol=REL, atol=1e-5, err_msg=start)
