@@ -137,7 +137,9 @@ def _compare(old: Path, tmp: Path, repeat: int) -> int:
         o_txt = f"{o:.2f}" if o == o else "absent"
         print(f"  {name:<22}{o_txt:>10}{n:>10.2f}{ratio:>10}{'< ' + str(targets[name]):>10}")
     o, n = first["old"], first["new"]
-    print(f"  {'first progress line':<22}{o:>10.2f}{n:>10.2f}{o / n:>9.1f}x{'< 1.0':>10}")
+    o_txt = f"{o:.2f}" if o == o else "none"  # none: nothing on the terminal until the end
+    ratio = f"{o / n:.1f}x" if o == o else "n/a"
+    print(f"  {'first progress line':<22}{o_txt:>10}{n:>10.2f}{ratio:>10}{'< 1.0':>10}")
     return 0
 
 

@@ -546,7 +546,8 @@ def _with_sobol(claim: ClaimOutcome, design: Design, cases, sites, sobol_base: i
     dists = [design.columns[j].dist for j in columns]
     corr = None if design.corr is None else design.corr[np.ix_(columns, columns)]
     design_seq, analyze_seq = seq.spawn(2)
-    _, xs, note = sobol_sample(dists, sobol_base, make_rng(design_seq), corr)
+    # corr=None: the caveat on correlated inputs comes once, from sobol_analyze below.
+    _, xs, note = sobol_sample(dists, sobol_base, make_rng(design_seq), None)
     stage = (lambda d, t: progress(f"Sobol {c}", d, t)) if progress else None
     y = ratio_model(design, cases, sites, c, columns, chunk_size, stage)(xs)
     notes = [note] if note else []

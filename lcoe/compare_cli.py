@@ -106,8 +106,10 @@ def format_comparison(result) -> str:
     """The table printed by ``lcoe compare``."""
     from .claims import audit_sentence, claim_sentence
     from .compare import drivers
+    from .export.compare_outputs import _labelled, input_labels
 
     cur = result.currency
+    labels = input_labels(result)
     lines = [f"  Comparison: {result.samples:,} trials ({result.method}, seed {result.seed}), "
              f"common random numbers; baseline {result.baseline.name}",
              f"  {'case':<34}{'LCOE real ' + cur + '/kWh (P10 / P50 / P90)':>38}"
@@ -125,10 +127,10 @@ def format_comparison(result) -> str:
         o = result.cases[c.index]
         lines += ["", "  " + claim_sentence(o.name, result.baseline.name, c.claim_ratio,
                                             c.stats, cur)]
-        top = drivers(c, top=4)
+        top = _labelled(drivers(c, top=4), labels)
         if top:
             lines.append("  The ratio depends most on: " + "; ".join(
-                f"{d['input']} (ST {d['ST']:.2f})" for d in top) + ".")
+                f"{d['label']} (ST {d['ST']:.2f})" for d in top) + ".")
     for p in result.pairs:
         lines.append(f"  {p['case']} against {p['reference']}: ratio {p['q50']:.3g} "
                      f"({p['q10']:.3g}-{p['q90']:.3g}); at most {p['claim_ratio']:.3g} in "
@@ -139,7 +141,9 @@ def format_comparison(result) -> str:
         lines += [f"    [{f['verdict']}] {f['message']}" for f in o.audit
                   if f["verdict"] != "ok"]
         lines += [f"    caution: {c}" for c in o.cautions]
-    lines += [f"  note: {n}" for n in result.notes]
+    from .labels import humanize
+
+    lines += [f"  note: {humanize(n, labels)}" for n in result.notes]
     if result.voi is not None:
         lines += [""] + result.voi.table_lines()
     return "\n".join(lines)

@@ -45,6 +45,7 @@ def _stats_block(values: np.ndarray, deterministic: float) -> dict:
 def comparison_dict(result: ComparisonResult, provenance: dict | None = None) -> dict:
     """The content of ``comparison.json`` as a plain dict (see the module docstring)."""
     cur = result.currency
+    labels = input_labels(result)
     cases = []
     for o in result.cases:
         e, t = o.base.energy, o.trials
@@ -66,6 +67,7 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
             "poa_irradiation_kwh_m2": e.poa_kwh_m2[0],
             "cell_area_m2": e.cell_area_m2[0], "land_area_m2": e.land_area_m2[0],
             "n_bodies": None if e.n_bodies is None else e.n_bodies[0],
+            "loss_chain_kwh": {k: float(v[0]) for k, v in e.loss_chain_kwh.items()},
             "claim": claim, "audit": o.audit, "audit_worst": worst_verdict(o.audit),
             "cautions": o.cautions,
         })
@@ -83,7 +85,7 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
                                   "breakeven_energy_per_kw_kwh_median",
                                   "breakeven_energy_per_kw_kwh_p90")},
             "summary": claim_sentence(o.name, result.baseline.name, cl.claim_ratio, st, cur),
-            "drivers": drivers(cl, top=len(sob.rows) if sob else 0),
+            "drivers": _labelled(drivers(cl, top=len(sob.rows) if sob else 0), labels),
             "drivers_method": None if sob is None else sob.method,
             "drivers_notes": list(cl.sobol_notes) + ([] if sob is None else sob.warnings),
         })
@@ -94,10 +96,35 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
         "schema_version": SCHEMA_VERSION, "currency": cur, "samples": result.samples,
         "seed": result.seed, "method": result.method, "how": METHOD,
         "baseline": cases[0], "candidates": candidates, "pairs": result.pairs,
-        "inputs": shared, "notes": result.notes,
+        "inputs": shared, "notes": result.notes, "labels": labels,
         "cautions": _cautions(result), **(provenance or {}),
         **({"value_of_information": result.voi.to_summary()} if result.voi else {}),
     })
+
+
+def input_labels(result: ComparisonResult) -> dict:
+    """Human label with unit of every uncertain input of the comparison, by design name."""
+    from ..labels import labeller
+
+    out = {}
+    for col in result.design.columns:
+        text = labeller(result.cases[col.cases[0]].case)(col.path)
+        out.setdefault(col.path, text)
+        if col.dist.name != col.path:  # same input, different distributions: cases named
+            text += col.dist.name[len(col.path):]
+        out[col.dist.name] = text
+    return out
+
+
+def _labelled(rows: list, labels: dict) -> list:
+    """Driver rows with a human ``label`` (unit included) beside the dotted ``input``."""
+    out = []
+    for r in rows:
+        members = r.get("members") or [r["input"]]
+        text = labels.get(r["input"], r["input"]) if members == [r["input"]] else \
+            f"{r['input'][:1].upper()}{r['input'][1:]} (group of {len(members)} inputs)"
+        out.append({**r, "label": text})
+    return out
 
 
 def _cautions(result: ComparisonResult) -> list[str]:
@@ -116,9 +143,23 @@ def comparison_json(result: ComparisonResult, provenance: dict | None = None) ->
 
 def render_figures(result: ComparisonResult) -> dict[str, bytes]:
     """PNG bytes by file name: the cases' LCOE and the candidates' ratio, as cumulative curves."""
-    from .plots import BLUE, GREEN, GREY, ORANGE, RED, fig_cumulative, figure_png
+    from .plots import figure_png
 
-    COLORS = (BLUE, ORANGE, GREEN, RED)  # the order fig_cumulative draws its curves in
+    out = {name: figure_png(fig) for name, fig in build_figures(result).items()}
+    if result.voi is not None:
+        from .voi_outputs import PICTURE, voi_png
+
+        out[PICTURE] = voi_png(result.voi)
+    return out
+
+
+def build_figures(result: ComparisonResult) -> dict:
+    """The comparison's pictures as matplotlib Figures by file name.
+
+    Case i keeps colour ``CASE_COLORS[i]`` in both pictures; each claimed bound is drawn once
+    (one line per distinct ratio) and each candidate's probability goes in its own legend entry.
+    """
+    from .plots import CASE_COLORS, GREY, fig_cumulative
 
     cur = result.currency
     fig = fig_cumulative({o.name: o.trials.lcoe_real for o in result.cases},
@@ -130,27 +171,26 @@ def render_figures(result: ComparisonResult) -> dict[str, bytes]:
     ax.axvline(base_median, color=GREY, linewidth=1.0, linestyle="--")
     ax.text(base_median, 0.97, "baseline median ", color=GREY, fontsize=8, rotation=90,
             va="top", ha="right")
-    out = {"lcoe_cumulative.png": figure_png(fig)}
-    fig = fig_cumulative({result.cases[c.index].name: c.ratio for c in result.claims},
-                         "LCOE ratio, candidate / baseline (trial by trial) [-]",
-                         title=f"Cost per kWh relative to {result.baseline.name}")
+    out = {"lcoe_cumulative.png": fig}
+    curves = {f"{result.cases[c.index].name}: at most {c.claim_ratio:.3g} in "
+              f"{100 * c.stats['prob_claim_holds']:.1f} % of trials": c.ratio
+              for c in result.claims}
+    fig = fig_cumulative(curves, "LCOE ratio, candidate / baseline (trial by trial) [-]",
+                         title=f"Cost per kWh relative to {result.baseline.name}",
+                         colors=[CASE_COLORS[c.index % len(CASE_COLORS)]
+                                 for c in result.claims])
     ax = fig.axes[0]
     ax.axvline(1.0, color=GREY, linewidth=0.8)
-    for i, c in enumerate(result.claims):
-        ax.axvline(c.claim_ratio, color=COLORS[i % len(COLORS)], linewidth=1.2, linestyle="--",
-                   label=f"claimed bound {c.claim_ratio:.3g}: holds in "
-                         f"{100 * c.stats['prob_claim_holds']:.1f} % of trials")
-    ax.legend(loc="lower right", frameon=False, fontsize=9)
+    for bound in sorted({round(c.claim_ratio, 12) for c in result.claims}):
+        ax.axvline(bound, color="black", linewidth=1.2, linestyle="--",
+                   label=f"claimed bound {bound:.3g}")
+    ax.legend(loc="lower right", frameon=False, fontsize=8)
     left = min([c.claim_ratio for c in result.claims] +
                [float(np.quantile(c.ratio, 0.005)) for c in result.claims])
     right = max([1.0] + [float(np.quantile(c.ratio, 0.995)) for c in result.claims])
     pad = 0.05 * (right - left)
     ax.set_xlim(left - pad, right + pad)
-    out["lcoe_ratio.png"] = figure_png(fig)
-    if result.voi is not None:
-        from .voi_outputs import PICTURE, voi_png
-
-        out[PICTURE] = voi_png(result.voi)
+    out["lcoe_ratio.png"] = fig
     return out
 
 
@@ -326,4 +366,15 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
             out.write_text(PAGE, voi_page_html(result.voi, figures[PICTURE]))
         out.write_with("comparison.xlsx",
                        lambda p: write_comparison_workbook(result, p, provenance))
+        from .compare_report import compare_report_html
+
+        data = comparison_dict(result, provenance)
+        extra = []
+        if result.voi is not None:
+            from .voi_outputs import PAGE
+
+            extra.append(f"<h2>Value of further information</h2><p>What resolving each "
+                         f"uncertainty before deciding would be worth: see "
+                         f"<a href=\"{PAGE}\">{PAGE}</a> beside this page.</p>")
+        out.write_text("report.html", compare_report_html(data, figures, extra))
     return out.target

@@ -113,7 +113,7 @@ def fig_lcoe_distribution(values: np.ndarray, stats: Mapping, currency: str,
     return fig
 
 
-def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12):
+def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12, label=str):
     """Sobol first-order (S1) and total (ST) indices with their confidence half-widths.
 
     Parameters
@@ -124,9 +124,11 @@ def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12):
         Name of the analysed output.
     top : int
         Largest number of factors shown.
+    label : callable
+        Human label with unit of an input or group name (default: the name itself).
     """
     rows = list(rows)[:top]
-    fig = _figure((8.0, max(3.0, 0.42 * len(rows) + 1.6)))
+    fig = _figure((9.0, max(3.0, 0.42 * len(rows) + 1.6)))
     ax = fig.add_subplot()
     y = np.arange(len(rows))
     h = 0.38
@@ -134,7 +136,7 @@ def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12):
             color=BLUE, label="S1 (first order)", error_kw={"elinewidth": 1, "capsize": 2})
     ax.barh(y + h / 2, [r["ST"] for r in rows], height=h, xerr=[r["ST_conf"] for r in rows],
             color=ORANGE, label="ST (total)", error_kw={"elinewidth": 1, "capsize": 2})
-    ax.set_yticks(y, [_short(r["input"]) for r in rows])
+    ax.set_yticks(y, [_short(label(r["input"]), 48) for r in rows])
     ax.invert_yaxis()
     ax.axvline(0, color="black", linewidth=0.8)
     ax.set_xlabel("Share of the output's variance [-] (bars: index, whiskers: confidence)")
@@ -145,7 +147,7 @@ def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12):
     return fig
 
 
-def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12):
+def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12, label=str):
     """One-at-a-time swings: the output with each input at its 10th and 90th percentile.
 
     Parameters
@@ -159,18 +161,28 @@ def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12):
         Unit of the output.
     top : int
         Largest number of inputs shown.
+    label : callable
+        Human label with unit of an input name (default: the name itself).
+
+    Notes
+    -----
+    When both percentiles move the output the same way from the base case, the two bars are
+    drawn side by side (half height each) so that neither hides the other.
     """
     rows = list(rows)[:top]
-    fig = _figure((8.0, max(3.0, 0.42 * len(rows) + 1.6)))
+    fig = _figure((9.0, max(3.0, 0.42 * len(rows) + 1.6)))
     ax = fig.add_subplot()
     base = rows[0]["y_base"] if rows else 0.0
     y = np.arange(len(rows))
     for i, r in enumerate(rows):
-        ax.barh(i, r["y_low"] - base, left=base, color=BLUE, height=0.6,
+        lo, hi = r["y_low"] - base, r["y_high"] - base
+        same_side = lo * hi > 0.0
+        h, off = (0.3, 0.15) if same_side else (0.6, 0.0)
+        ax.barh(i - off, lo, left=base, color=BLUE, height=h,
                 label="input at its 10th percentile" if i == 0 else None)
-        ax.barh(i, r["y_high"] - base, left=base, color=ORANGE, height=0.6,
+        ax.barh(i + off, hi, left=base, color=ORANGE, height=h,
                 label="input at its 90th percentile" if i == 0 else None)
-    ax.set_yticks(y, [_short(r["input"]) for r in rows])
+    ax.set_yticks(y, [_short(label(r["input"]), 48) for r in rows])
     ax.invert_yaxis()
     ax.axvline(base, color="black", linewidth=1)
     ax.set_xlabel(f"{output_label(output)} [{unit}] (base case {base:.4g})")
@@ -298,8 +310,12 @@ def fig_dscr_fan(years: np.ndarray, bands: Mapping[float, np.ndarray],
     return fig
 
 
+#: Colours of cases, in order: case i of a command keeps CASE_COLORS[i] in every chart.
+CASE_COLORS = (BLUE, ORANGE, GREEN, RED, GREY, "#6b4c9a", "#1b998b", "#c05746")
+
+
 def fig_cumulative(curves: Mapping[str, np.ndarray], xlabel: str,
-                   title: str = "Cumulative distribution"):
+                   title: str = "Cumulative distribution", colors: Sequence[str] | None = None):
     """Empirical cumulative distributions of several runs (e.g. the LCOE of compared cases).
 
     Parameters
@@ -309,17 +325,19 @@ def fig_cumulative(curves: Mapping[str, np.ndarray], xlabel: str,
     xlabel : str
         Axis label with unit, e.g. ``"LCOE real [USD/kWh]"``.
     title : str
+    colors : sequence of str, optional
+        Colour of each curve, in order (default :data:`CASE_COLORS`).
     """
     fig = _figure()
     ax = fig.add_subplot()
-    colors = (BLUE, ORANGE, GREEN, RED, GREY, "#6b4c9a", "#1b998b", "#c05746")
+    colors = tuple(colors) if colors else CASE_COLORS
     for i, (label, values) in enumerate(curves.items()):
         v = np.sort(np.asarray(values, dtype=float)[np.isfinite(values)])
         if v.size == 0:
             continue
         p = (np.arange(1, v.size + 1) - 0.5) / v.size
         ax.plot(v, p, color=colors[i % len(colors)], linewidth=2,
-                label=f"{_short(label, 40)} (median {np.median(v):.4g})")
+                label=f"{_short(label, 80)} (median {np.median(v):.4g})")
     for q in (0.1, 0.5, 0.9):
         ax.axhline(q, color=GREY, linewidth=0.7, linestyle=":")
     ax.set_ylim(0, 1)
@@ -379,6 +397,12 @@ def render_figures(result) -> dict[str, bytes]:
     -------
     dict of str to bytes
     """
+    figs = build_figures(result)
+    return {name: figure_png(figs[name]) for name in PICTURES if name in figs}
+
+
+def build_figures(result) -> dict:
+    """Every picture the run supports, as matplotlib Figures by file name."""
     cur = result.case["case.currency"]
     e = result.base.energy
     figs = {}
@@ -393,13 +417,15 @@ def render_figures(result) -> dict[str, bytes]:
             f"{cur}/kWh" if "lcoe" in sens.output else (cur if "npv" in sens.output
                                                          else "kWh"))
         if sens.sobol is not None and sens.sobol.rows:
-            figs["sobol_indices.png"] = fig_sobol(sens.ranked(), sens.output)
+            figs["sobol_indices.png"] = fig_sobol(sens.ranked(), sens.output,
+                                                  label=sens.label)
         if sens.tornado:
-            figs["tornado.png"] = fig_tornado(sens.tornado, sens.output, unit)
+            figs["tornado.png"] = fig_tornado(sens.tornado, sens.output, unit,
+                                              label=sens.label)
     figs["monthly_energy.png"] = fig_monthly_energy(e.monthly_kwh[0])
     figs["loss_chain.png"] = fig_loss_chain({k: v[0] for k, v in e.loss_chain_kwh.items()})
     fan = dscr_bands(result)
     if fan is not None:
         years, bands, lockup, det = fan
         figs["dscr_fan.png"] = fig_dscr_fan(years, bands, lockup=lockup, deterministic=det)
-    return {name: figure_png(figs[name]) for name in PICTURES if name in figs}
+    return figs

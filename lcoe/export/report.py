@@ -179,7 +179,7 @@ def _drivers_html(result: RunResult) -> str:
         t = sens.tornado[0]
         lo, hi = sorted((t["y_low"], t["y_high"]))
         parts.append(f"<p>Moved alone between its 10th and 90th percentile, "
-                     f"<b>{_e(t['input'])}</b> moves {_e(output_label(sens.output))} from "
+                     f"<b>{_e(sens.label(t['input']))}</b> moves {_e(output_label(sens.output))} from "
                      f"{lo:.4g} to {hi:.4g} (base case {t['y_base']:.4g}), the largest "
                      f"swing of any single input.</p>")
     return "".join(parts)
@@ -199,7 +199,13 @@ def _notes(result: RunResult) -> list[str]:
             if wide:
                 notes.append(f"{len(wide)} Sobol indices have a confidence half-width above "
                              f"10 % of the index; more base samples give tighter intervals.")
-    return notes
+    from ..labels import humanize, labeller
+
+    label = labeller(result.case)
+    labels = dict(sens.labels) if sens is not None else {}
+    if unc is not None:
+        labels.update({d.name: label(d.name) for d in unc.spec.dists if d.name not in labels})
+    return list(dict.fromkeys(humanize(n, labels) for n in notes))  # each caveat once
 
 
 def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> str:

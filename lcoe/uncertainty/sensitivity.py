@@ -182,6 +182,12 @@ def sobol_sample(
     return u, uniforms_to_values(dists, u), " ".join(notes)
 
 
+#: Indices (and interval half-widths) below this are rounding residue, read as exactly 0 and
+#: not flagged: an input that cancels out of the output (e.g. from both sides of a ratio)
+#: leaves differences of order 1e-16 of the output in float64, i.e. indices of 1e-16 to 1e-12.
+NOISE_FLOOR = 1e-9
+
+
 def _sobol_rows(problem, y, n, num_resamples, conf_level, seed) -> list[dict]:
     """Run SALib's estimator on the first ``n`` base blocks of ``y`` and build rows."""
     factors = _factors(problem)
@@ -198,6 +204,10 @@ def _sobol_rows(problem, y, n, num_resamples, conf_level, seed) -> list[dict]:
         row = {"input": name, "members": list(members)}
         for key in ("S1", "ST"):
             value, conf = float(si[key][k]), float(si[f"{key}_conf"][k])
+            if abs(value) < NOISE_FLOOR and conf < NOISE_FLOOR:  # rounding residue: exactly 0
+                row[key], row[f"{key}_conf"] = 0.0, 0.0
+                row[f"{key}_includes_zero"] = row[f"{key}_wide"] = False
+                continue
             row[key], row[f"{key}_conf"] = value, conf
             row[f"{key}_includes_zero"] = bool(value - conf <= 0.0 <= value + conf)
             row[f"{key}_wide"] = bool(conf > WIDE_FRACTION * abs(value))

@@ -114,9 +114,14 @@ class SensitivityBlock:
     morris: list | None
     output: str
     notes: list = field(default_factory=list)
+    labels: dict = field(default_factory=dict)
+
+    def label(self, name: str) -> str:
+        """Human label with unit of an input or group (the dotted key when unknown)."""
+        return self.labels.get(name, name)
 
     def to_summary(self) -> dict:
-        out = {"output": self.output, "notes": self.notes,
+        out = {"output": self.output, "notes": self.notes, "labels": self.labels,
                "tornado": self.tornado}
         if self.sobol is not None:
             s = self.sobol
@@ -142,7 +147,7 @@ class SensitivityBlock:
             return ""
         top, share = [], 0.0
         for r in rows:
-            top.append(r["input"])
+            top.append(self.label(r["input"]))
             share += max(r["S1"], 0.0)
             if share >= 0.6 or len(top) == 3:
                 break
@@ -154,18 +159,24 @@ class SensitivityBlock:
 
     def table_lines(self) -> list[str]:
         if self.sobol is None:
-            lines = [f"  Drivers of {self.output} (one at a time, P10 to P90 of each input):"]
+            lines = [f"  Drivers of {OUTPUT_LABELS.get(self.output, self.output)} (one at a "
+                     f"time, P10 to P90 of each input):"]
             for r in self.tornado[:8]:
-                lines.append(f"    {r['input']:<38} swing {r['swing']:.4g}")
+                lines.append(f"    {self.label(r['input'])[:46]:<46} swing {r['swing']:.4g}")
             return lines
-        lines = [f"  Drivers of {self.output} (Sobol, N = {self.sobol.base_samples}):"]
+        lines = [f"  Drivers of {OUTPUT_LABELS.get(self.output, self.output)} (Sobol, "
+                 f"N = {self.sobol.base_samples}):"]
         for r in self.ranked()[:8]:
             flag = " (interval includes 0)" if r["ST_includes_zero"] else ""
-            lines.append(f"    {r['input']:<38} S1 {r['S1']:6.3f} ± {r['S1_conf']:.3f}   "
+            lines.append(f"    {self.label(r['input'])[:46]:<46} S1 {r['S1']:6.3f} ± "
+                         f"{r['S1_conf']:.3f}   "
                          f"ST {r['ST']:6.3f} ± {r['ST_conf']:.3f}{flag}")
         if self.sobol:
             wide = [w for w in self.sobol.warnings if "wide interval" in w]
-            lines += [f"  note: {w}" for w in self.sobol.warnings if "wide interval" not in w]
+            from ..labels import humanize
+
+            lines += [f"  note: {humanize(w, self.labels)}" for w in self.sobol.warnings
+                      if "wide interval" not in w]
             if wide:
                 lines.append(f"  note: {len(wide)} indices have a confidence half-width above "
                              f"10 % of the index; raise --sobol for tighter intervals")
@@ -226,11 +237,11 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
     if progress:
         progress("tornado (one input at a time)", 0, 0)
     torn = tornado(spec.dists, f_tornado, base_values)
-    sens_notes = ["Sobol indices assume independent inputs; the Monte Carlo applies the "
-                  "correlations, the Sobol design does not."]
+    sens_notes = []
     sob = None
     if sobol_base and sobol_base > 0:
-        _, x, note = sobol_sample(spec.dists, sobol_base, make_rng(sobol_seq), spec.corr)
+        # corr=None: the caveat on correlated inputs comes once, from sobol_analyze below.
+        _, x, note = sobol_sample(spec.dists, sobol_base, make_rng(sobol_seq), None)
         if note:
             sens_notes.append(note)
         f = model_function(case, site, spec, sobol_output, chunk_size, stage("Sobol"),
@@ -248,7 +259,22 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
                                                           chunk_size, extra=targets),
                                20, make_rng(morris_seq), num_levels=6)
     return unc, SensitivityBlock(sobol=sob, tornado=torn, morris=morris, output=sobol_output,
-                                 notes=sens_notes)
+                                 notes=sens_notes, labels=input_labels(case, spec.dists))
+
+
+def input_labels(case: Case, dists) -> dict:
+    """Human labels with units of the uncertain inputs and Sobol groups of ``case``."""
+    from ..labels import labeller
+
+    label = labeller(case)
+    out = {d.name: label(d.name) for d in dists}
+    groups: dict = {}
+    for d in dists:
+        if d.group:
+            groups.setdefault(d.group, []).append(d.name)
+    for g, members in groups.items():
+        out[g] = f"{g[:1].upper()}{g[1:]} (group of {len(members)} inputs)"
+    return out
 
 
 def _case_value(case: Case, path: str) -> float:

@@ -1,0 +1,142 @@
+"""Readers see labels with units, never dotted keys: the run report and charts of the demo and
+the lender case, the comparison page and its charts; Sobol noise reads as 0; the compare page
+renders in Chromium; each case keeps its colour; the tornado never hides a bar."""
+
+from __future__ import annotations
+
+import html
+import json
+import re
+
+import numpy as np
+import pytest
+from conftest import DEMO, INPUTS
+from helpers.browser import chromium_path, render
+
+from lcoe.labels import input_label
+
+#: A dotted input key or an output key, as the case file and the JSON spell them.
+KEY = re.compile(r"\b(?:case|site|plant|costs|finance|revenue|tax|debt|equity|claim|energy)"
+                 r"\.[a-z_]+|\blcoe_(?:real|nominal)_per_kwh\b|\benergy_first_year_kwh\b")
+
+
+def _page_text(path) -> str:
+    page = re.sub(r'src="data:[^"]+"', "", path.read_text(encoding="utf-8"))
+    page = re.sub(r"<style>.*?</style>", "", page, flags=re.S)
+    return html.unescape(re.sub(r"<[^>]+>", " ", page))
+
+
+def _chart_text(figures: dict) -> str:
+    from matplotlib.text import Text
+
+    return "\n".join(t.get_text() for fig in figures.values() for t in fig.findobj(Text))
+
+
+def test_labels_come_from_the_schema_with_units():
+    assert input_label("costs.capex_per_kw", "USD") == "Capex [USD/kW]"
+    items = {("costs.replacement", 0): "inverters"}
+    assert input_label("costs.replacement[0].cost_per_kw", "USD", items) == \
+        "Inverters replacement cost [USD/kW]"
+    assert input_label("energy.resource") == "Long-term solar resource (energy factor) [-]"
+    assert input_label("plant.dc_loss_fraction") == "DC losses [-]"
+
+
+@pytest.mark.parametrize("case", [DEMO, INPUTS / "lender_single_axis.toml"])
+def test_run_report_and_charts_show_no_dotted_key(tmp_path, case):
+    from lcoe.export.plots import build_figures
+    from lcoe.runner import run_case, write_outputs
+
+    result = run_case(case, samples=64, sobol_base=16)
+    write_outputs(result, tmp_path / "o")
+    text = _page_text(tmp_path / "o" / "report.html")
+    assert not KEY.findall(text), KEY.findall(text)
+    charts = _chart_text(build_figures(result))
+    assert not KEY.findall(charts), KEY.findall(charts)
+    assert "Capex [USD/kW]" in charts or "Costs (group" in charts
+    assert text.count("assume independent inputs") <= 1  # each caveat once
+
+
+@pytest.fixture(scope="module")
+def demo_compare(tmp_path_factory):
+    from lcoe.cli import main
+
+    out = tmp_path_factory.mktemp("cmp") / "o"
+    assert main(["demo", "--compare", "--out", str(out), "--samples", "64",
+                 "--sobol-ratio", "16", "--quiet"]) == 0
+    return out
+
+
+def test_compare_page_and_charts_show_no_dotted_key(demo_compare):
+    text = _page_text(demo_compare / "report.html")
+    assert not KEY.findall(text), KEY.findall(text)
+    data = json.loads((demo_compare / "comparison.json").read_text())
+    for c in data["candidates"]:  # the claim is quoted verbatim on the page
+        if c["claim"].get("text"):
+            assert " ".join(c["claim"]["text"].split()) in " ".join(text.split())
+        assert all("label" in d for d in c["drivers"])  # JSON keeps key and label
+    for heading in ("The claims, tested", "Loss chains side by side", "Break-even capex",
+                    "Probability that the claim holds"):
+        assert heading in text
+
+
+def test_compare_colours_and_one_bound_per_ratio():
+    from lcoe.case import load_case
+    from lcoe.compare import run_comparison
+    from lcoe.export.compare_outputs import build_figures
+    from lcoe.export.plots import CASE_COLORS
+
+    cases = [load_case(INPUTS / n) for n in ("demo_fixed_tilt.toml",
+                                             "compare_single_axis.toml",
+                                             "compare_rotating_columns.toml")]
+    result = run_comparison(cases, samples=32, sobol_base=0, claim_ratio=0.8)
+    figs = build_figures(result)
+    first = [ln.get_color() for ln in figs["lcoe_cumulative.png"].axes[0].get_lines()][:3]
+    assert first == list(CASE_COLORS[:3])
+    ratio_ax = figs["lcoe_ratio.png"].axes[0]
+    curves = [ln.get_color() for ln in ratio_ax.get_lines() if len(ln.get_xdata()) > 2]
+    assert curves == [CASE_COLORS[1], CASE_COLORS[2]]  # candidates keep their colours
+    bounds = [ln for ln in ratio_ax.get_lines() if ln.get_linestyle() == "--"]
+    assert len(bounds) == 1  # both candidates test 0.8: the bound is drawn once
+    chart = _chart_text(figs)
+    assert not KEY.findall(chart), KEY.findall(chart)
+
+
+@pytest.mark.skipif(chromium_path() is None, reason="Chromium is not installed")
+def test_compare_page_renders_in_chromium(demo_compare, tmp_path):
+    from matplotlib.image import imread
+
+    shown = render(demo_compare / "report.html", tmp_path / "shot")
+    assert "Uncaught" not in shown.log and "ERROR:CONSOLE" not in shown.log
+    assert "The claims, tested" in shown.dom and "Cautions" in shown.dom
+    assert shown.dom.count("data:image/png;base64,") >= 2
+    grey = imread(shown.screenshot)[..., :3].mean(axis=2)
+    assert grey.std() > 0.05 and np.mean(grey < 0.5) > 0.005  # not a blank page
+
+
+def test_tornado_draws_both_bars_when_both_percentiles_fall_on_one_side():
+    from lcoe.export.plots import fig_tornado
+
+    rows = [{"input": "plant.tilt_deg", "y_low": 1.10, "y_high": 1.05, "y_base": 1.0}]
+    ax = fig_tornado(rows, "lcoe_real_per_kwh", "USD/kWh", label=input_label).axes[0]
+    bars = [p for p in ax.patches]
+    assert len(bars) == 2
+    (a, b) = sorted(bars, key=lambda p: p.get_y())
+    assert a.get_y() + a.get_height() <= b.get_y() + 1e-12  # side by side, not one over other
+    assert {round(p.get_width(), 12) for p in bars} == {0.1, 0.05}
+
+
+def test_sobol_noise_reads_as_zero():
+    # An input that does not enter the output at all gives indices of rounding size only:
+    # they read as exactly 0 and are not flagged (analytic: S1 = ST = 0 for it).
+    from lcoe.rng import make_rng
+    from lcoe.uncertainty.distributions import Distribution
+    from lcoe.uncertainty.sensitivity import sobol_analyze, sobol_sample
+
+    dists = [Distribution(name=n, dist="uniform", params={"low": 0.0, "high": 1.0})
+             for n in ("a", "b", "c")]
+    _, x, _ = sobol_sample(dists, 256, make_rng(1))
+    y = (x[:, 0] + 2.0 * x[:, 1]) / (1.0 + 0.0 * x[:, 2])
+    res = sobol_analyze(dists, y, 256, make_rng(2))
+    c = next(r for r in res.rows if r["input"] == "c")
+    assert c["S1"] == 0.0 and c["ST"] == 0.0
+    assert not c["ST_includes_zero"] and not c["wide"]
