@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 from conftest import DEMO, INPUTS
 
+from lcoe.case import load_case
 from lcoe.cli import main
 from lcoe.errors import InputError
 from lcoe.sweep import (
@@ -283,7 +284,7 @@ def test_failed_runs_reported_and_the_rest_written_on_cluster(tmp_path, cluster,
     assert all(f["attempts"] == 2 for f in s["failures"])
     with open(out / "sweep.csv", newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
-    assert [r["site"] for r in rows] == ["Dunecrest", "Dunecrest"]
+    assert [r["Site"] for r in rows] == ["Dunecrest", "Dunecrest"]
     serial = run_sweep(load_plan(plan))
     assert [(f.site, f.technology, f.attempts) for f in serial.failures] == \
         [(f["site"], f["technology"], f["attempts"]) for f in s["failures"]]
@@ -349,9 +350,17 @@ def test_cli_writes_table_workbook_json_and_charts(tmp_path, capsys):
         reader = csv.reader(fh)
         header = next(reader)
         rows = list(reader)
-    assert header == ["site", "technology", "lcoe_real_q10", "lcoe_real_q50", "lcoe_real_q90",
-                      "energy_p50_kwh", "energy_p90_kwh", "prob_cheapest"]
-    assert len(rows) == 6 and rows[-1][:2] == ["'=Saltpan", "tech_single_axis"]  # neutralised
+    # Headers with units, technologies by case name, energy per kW and the nominal LCOE.
+    assert header == ["Site", "Technology", "LCOE real P10 [USD/kWh]", "LCOE real P50 [USD/kWh]",
+                      "LCOE real P90 [USD/kWh]", "LCOE nominal P50 [USD/kWh]",
+                      "Energy P50 [MWh/year]", "Energy P90 [MWh/year]",
+                      "Specific yield P50 [kWh/kW/year]", "Specific yield P90 [kWh/kW/year]",
+                      "Probability cheapest at the site [-]"]
+    single_axis = load_case(INPUTS / "tech_single_axis.toml").name
+    assert len(rows) == 6 and rows[-1][:2] == ["'=Saltpan", single_axis]  # neutralised
+    assert len(rows[0][3].split(".")[1]) <= 4 and "." not in rows[0][8]  # rounded
+    kw = load_case(INPUTS / "demo_fixed_tilt.toml")["plant.dc_capacity_kw"]
+    assert float(rows[0][8]) == pytest.approx(1000 * float(rows[0][6]) / kw, abs=0.6)
     s = json.loads((out / "sweep.json").read_text(encoding="utf-8"))
     assert s["kind"] == "sweep" and s["plan"]["samples"] == 40 and s["failures"] == []
     assert len(s["rows"]) == 6 and len(s["sites"]) == 3 and "numpy" in s["versions"]
@@ -360,7 +369,7 @@ def test_cli_writes_table_workbook_json_and_charts(tmp_path, capsys):
     assert [c.value for c in ws[1]] == header
     name = ws.cell(row=6, column=1)
     assert name.value == "=Saltpan" and name.data_type == "s"  # text, never a formula
-    assert ws.cell(row=2, column=4).value == pytest.approx(float(rows[0][3]))
+    assert ws.cell(row=2, column=4).value == pytest.approx(float(rows[0][3]), abs=5e-5)
     assert {"Sweep", "Sites", "About"} <= set(wb.sheetnames)
     for png in ("sweep_ranking.png", "sweep_sites.png"):
         img = imread(out / png)

@@ -16,9 +16,24 @@ from .cells import write_csv
 from .workbook import put_text
 
 SCHEMA_VERSION = 1
-#: Columns of ``sweep.csv`` and of the workbook's table, in order.
+#: Fields of a sweep row (``sweep.json`` keys), in order.
 CSV_COLUMNS = ("site", "technology", "lcoe_real_q10", "lcoe_real_q50", "lcoe_real_q90",
                "energy_p50_kwh", "energy_p90_kwh", "prob_cheapest")
+#: The readable table of ``sweep.csv`` and the Sweep sheet: header (unit in brackets; the
+#: currency replaces "currency"), the row field or derived quantity, decimals shown.
+TABLE = (
+    ("Site", "site", None),
+    ("Technology", "technology_name", None),
+    ("LCOE real P10 [currency/kWh]", "lcoe_real_q10", 4),
+    ("LCOE real P50 [currency/kWh]", "lcoe_real_q50", 4),
+    ("LCOE real P90 [currency/kWh]", "lcoe_real_q90", 4),
+    ("LCOE nominal P50 [currency/kWh]", "lcoe_nominal_q50", 4),
+    ("Energy P50 [MWh/year]", "energy_p50_mwh", 1),
+    ("Energy P90 [MWh/year]", "energy_p90_mwh", 1),
+    ("Specific yield P50 [kWh/kW/year]", "yield_p50_kwh_per_kw", 0),
+    ("Specific yield P90 [kWh/kW/year]", "yield_p90_kwh_per_kw", 0),
+    ("Probability cheapest at the site [-]", "prob_cheapest", 3),
+)
 #: What each column means (JSON and workbook).
 COLUMN_NOTES = {
     "lcoe_real_q10": "10th percentile of the real LCOE over the trials [currency/kWh]",
@@ -56,15 +71,53 @@ def _put(ws, row: int, col: int, value, number_format: str) -> None:
         put_text(ws, row, col, value)
 
 
-def _row_values(row) -> list:
-    return [getattr(row, c) for c in CSV_COLUMNS]
+def tech_names(result) -> dict:
+    """Readable name of each technology label: its case name (the label added when two
+    technologies share a case name)."""
+    techs = result.plan.technologies
+    names = [t.case_name for t in techs]
+    return {t.label: (t.case_name if names.count(t.case_name) == 1 else
+                      f"{t.case_name} ({t.label})") for t in techs}
+
+
+def table_rows(result) -> list[dict]:
+    """Every completed site x technology as a dict of the fields of :data:`TABLE` (and the
+    raw row fields), energy per kW from each run's DC capacity."""
+    dc_kw = {(r.site, r.technology): float(r.raw["plant"]["dc_capacity_kw"])
+             for r in result.plan.runs}
+    names = tech_names(result)
+    out = []
+    for row in result.rows:
+        kw = dc_kw[(row.site, row.technology)]
+        out.append({**{c: getattr(row, c) for c in CSV_COLUMNS},
+                    "lcoe_real_mean": row.lcoe_real_mean,
+                    "lcoe_nominal_q50": row.lcoe_nominal_q50,
+                    "technology_name": names.get(row.technology, row.technology),
+                    "dc_capacity_kw": kw,
+                    "energy_p50_mwh": row.energy_p50_kwh / 1000.0,
+                    "energy_p90_mwh": row.energy_p90_kwh / 1000.0,
+                    "yield_p50_kwh_per_kw": row.energy_p50_kwh / kw,
+                    "yield_p90_kwh_per_kw": row.energy_p90_kwh / kw})
+    return out
+
+
+def table_header(result) -> list[str]:
+    """Headers of :data:`TABLE` with the plan's currency."""
+    return [h.replace("currency", result.plan.currency) for h, _, _ in TABLE]
 
 
 def write_sweep_csv(result, path: Path) -> None:
-    """One row per completed site x technology, columns :data:`CSV_COLUMNS`."""
-    rows = ([str(v) for v in vals[:2]] + [float(v) for v in vals[2:]]
-            for vals in map(_row_values, result.rows))
-    write_csv(path, CSV_COLUMNS, rows)  # names neutralised, numbers stay numbers
+    """The readable table (:data:`TABLE`): headers with units, values rounded to the digits
+    that mean something (full precision stays in ``sweep.json``); names neutralised, numbers
+    stay numbers (:func:`lcoe.export.cells.write_csv`)."""
+
+    def value(v, d):
+        if d is None:
+            return str(v)
+        return int(round(v)) if d == 0 else round(float(v), d)
+
+    write_csv(path, table_header(result),
+              ([value(row[k], d) for _, k, d in TABLE] for row in table_rows(result)))
 
 
 def sweep_dict(result) -> dict:
@@ -77,12 +130,13 @@ def sweep_dict(result) -> dict:
                  "seed": plan.seed, "chunk_trials": plan.chunk_trials, "method": plan.method,
                  "currency": plan.currency, "uncertain_inputs": list(plan.input_names)},
         "technologies": [{"label": t.label, "path": t.path, "sha256": t.sha256,
-                          "case_name": t.case_name} for t in plan.technologies],
+                          "case_name": t.case_name, "name": tech_names(result)[t.label]}
+                         for t in plan.technologies],
         "columns": COLUMN_NOTES,
         "formula": LCOE_FORMULA,
-        "rows": [{**{c: getattr(r, c) for c in CSV_COLUMNS},
-                  "lcoe_real_mean": r.lcoe_real_mean, "lcoe_nominal_q50": r.lcoe_nominal_q50}
-                 for r in result.rows],
+        "table": {"columns": [{"header": h, "field": k} for h, (_, k, _) in
+                              zip(table_header(result), TABLE)]},
+        "rows": table_rows(result),
         "sites": [{"name": s.name, "latitude_deg": s.latitude_deg,
                    "longitude_deg": s.longitude_deg, "cheapest": s.cheapest,
                    "prob_cheapest": s.prob_cheapest, "cheapest_by_median": s.cheapest_by_median}
@@ -111,27 +165,27 @@ def write_sweep_workbook(result, path: Path) -> None:
     wb = Workbook()
     ws = wb.active
     ws.title = "Sweep"
-    _header(ws, CSV_COLUMNS)
-    for i, row in enumerate(result.rows, start=2):
-        vals = _row_values(row)
-        put_text(ws, i, 1, vals[0])
-        put_text(ws, i, 2, vals[1])
-        for j, v in enumerate(vals[2:], start=3):
-            fmt = "0.0000" if CSV_COLUMNS[j - 1].startswith(("lcoe", "prob")) else "#,##0"
-            _put(ws, i, j, v, fmt)
-    for j, width in enumerate((26, 26, 14, 14, 14, 16, 16, 14), start=1):
-        ws.column_dimensions[chr(64 + j)].width = width
+    _header(ws, table_header(result))
+    for i, row in enumerate(table_rows(result), start=2):
+        for j, (_, key, digits) in enumerate(TABLE, start=1):
+            if digits is None:
+                put_text(ws, i, j, row[key])
+            else:
+                _put(ws, i, j, row[key], "#,##0" + ("." + "0" * digits if digits else ""))
+    for j in range(1, len(TABLE) + 1):
+        ws.column_dimensions[chr(64 + j)].width = 30 if j <= 2 else 17
 
     wsites = wb.create_sheet("Sites")
-    _header(wsites, ("site", "latitude_deg", "longitude_deg", "most_often_cheapest",
-                        "prob_cheapest", "cheapest_by_median"))
+    _header(wsites, ("Site", "Latitude [deg]", "Longitude [deg]", "Most often cheapest",
+                     "Its probability of being cheapest [-]", "Cheapest by median LCOE"))
+    names = tech_names(result)
     for i, s in enumerate(result.sites, start=2):
         put_text(wsites, i, 1, s.name)
         _put(wsites, i, 2, s.latitude_deg, "0.000")
         _put(wsites, i, 3, s.longitude_deg, "0.000")
-        put_text(wsites, i, 4, s.cheapest or "(none completed)")
+        put_text(wsites, i, 4, names.get(s.cheapest, s.cheapest) or "(none completed)")
         _put(wsites, i, 5, s.prob_cheapest, "0.000")
-        put_text(wsites, i, 6, s.cheapest_by_median or "")
+        put_text(wsites, i, 6, names.get(s.cheapest_by_median, s.cheapest_by_median) or "")
 
     if result.failures:
         wf = wb.create_sheet("Failures")
@@ -207,9 +261,10 @@ def plot_ranking(result, path: Path) -> None:
                  f"trials each)\nsites ordered by their cheapest median; filled marker = most "
                  f"often cheapest", fontsize=11)
     ax.grid(axis="y", alpha=0.3)
-    handles = [Line2D([], [], marker="o", color=colours[t], linestyle="-", label=t)
+    names = tech_names(result)
+    handles = [Line2D([], [], marker="o", color=colours[t], linestyle="-", label=names[t])
                for t in techs]
-    ax.legend(handles=handles, title="technology", fontsize=9, loc="upper left")
+    ax.legend(handles=handles, title="Technology", fontsize=9, loc="upper left")
     if not order:
         ax.text(0.5, 0.5, "no site x technology completed", transform=ax.transAxes,
                 ha="center")
@@ -255,8 +310,9 @@ def plot_site_map(result, path: Path) -> None:
     ax.grid(alpha=0.3)
     used = [t.label for t in result.plan.technologies
             if any(s.cheapest == t.label for s in result.sites)]
+    names = tech_names(result)
     handles = [Line2D([], [], marker="o", linestyle="", color=colours[t], markeredgecolor="black",
-                      markersize=8, label=t) for t in used]
+                      markersize=8, label=names[t]) for t in used]
     if any(s.cheapest is None for s in result.sites):
         handles.append(Line2D([], [], marker="x", linestyle="", color="grey",
                               label="no run completed"))
