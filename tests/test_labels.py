@@ -140,3 +140,37 @@ def test_sobol_noise_reads_as_zero():
     c = next(r for r in res.rows if r["input"] == "c")
     assert c["S1"] == 0.0 and c["ST"] == 0.0
     assert not c["ST_includes_zero"] and not c["wide"]
+
+
+@pytest.fixture(scope="module")
+def small_sweep(tmp_path_factory):
+    from lcoe.cli import main
+
+    d = tmp_path_factory.mktemp("sweep")
+    plan = d / "plan.toml"
+    assert main(["new", str(plan), "--kind", "sweep"]) == 0
+    plan.write_text(plan.read_text().replace("samples = 200", "samples = 8")
+                    .replace("chunk_trials = 100", "chunk_trials = 8"))
+    assert main(["sweep", str(plan), "--out", str(d / "o"), "--quiet"]) == 0
+    return d / "o"
+
+
+def test_sweep_page_has_units_names_and_no_dotted_key(small_sweep):
+    text = _page_text(small_sweep / "report.html")
+    assert not KEY.findall(text), KEY.findall(text)
+    for heading in ("Which technology is cheapest where", "LCOE real P50 [USD/kWh]",
+                    "Specific yield P50 [kWh/kW/year]", "Probability cheapest at the site [-]"):
+        assert heading in text
+    assert "New single-axis tracker plant" in text  # technologies by case name
+
+
+@pytest.mark.skipif(chromium_path() is None, reason="Chromium is not installed")
+def test_sweep_page_renders_in_chromium(small_sweep, tmp_path):
+    from matplotlib.image import imread
+
+    shown = render(small_sweep / "report.html", tmp_path / "shot")
+    assert "Uncaught" not in shown.log and "ERROR:CONSOLE" not in shown.log
+    assert "Every site x technology" in shown.dom
+    assert shown.dom.count("data:image/png;base64,") == 2
+    grey = imread(shown.screenshot)[..., :3].mean(axis=2)
+    assert grey.std() > 0.05 and np.mean(grey < 0.5) > 0.005

@@ -51,7 +51,8 @@ CRN_NOTE = ("Common random numbers: an uncertain input of the same name takes th
             "draw in trial i of every site x technology (the same rank, and the same value where "
             "the distributions agree), and the year-to-year weather scores of trial i are shared "
             "too; prob_cheapest compares technologies trial by trial.")
-FILES = ("sweep.csv", "sweep.json", "sweep.xlsx", "sweep_ranking.png", "sweep_sites.png")
+FILES = ("sweep.csv", "sweep.json", "sweep.xlsx", "sweep_ranking.png", "sweep_sites.png",
+         "report.html")
 
 
 def _header(ws, labels) -> None:
@@ -361,5 +362,15 @@ def write_sweep_outputs(result, out_dir, force: bool = False) -> None:
         out.write_with("sweep.csv", lambda p: write_sweep_csv(result, p))
         out.write_text("sweep.json", sweep_json(result))
         out.write_with("sweep.xlsx", lambda p: write_sweep_workbook(result, p))
-        out.write_with("sweep_ranking.png", lambda p: plot_ranking(result, p))
-        out.write_with("sweep_sites.png", lambda p: plot_site_map(result, p))
+        import io
+
+        figures = {}
+        for name, plot in (("sweep_ranking.png", plot_ranking), ("sweep_sites.png",
+                                                                 plot_site_map)):
+            buf = io.BytesIO()
+            plot(result, buf)
+            figures[name] = buf.getvalue()
+            out.write_with(name, lambda p, png=figures[name]: p.write_bytes(png))
+        from .sweep_report import sweep_report_html
+
+        out.write_text("report.html", sweep_report_html(sweep_dict(result), figures))
