@@ -6,9 +6,12 @@ AC losses and availability for every sample and hour at once, and reduces the ho
 annual, monthly and loss-chain totals. Hourly arrays have shape (n_samples, n_hours) and are
 built chunk by chunk, so peak memory is bounded by the chunk size, not by the number of samples.
 
-Loss order (as in the domain brief): DC losses -> inverter efficiency -> clipping at the AC
-rating -> AC losses -> availability -> the plant's own consumption (drives of rotating bodies).
-Clipping is reported as its own line.
+Loss order: light on the plane in an open field -> shading and the narrower sky and ground
+view between rows (or bodies) -> angle-of-incidence loss (beam, sky and ground diffuse) ->
+soiling -> plus the rear side (bifacial) -> cell temperature -> DC losses -> inverter
+efficiency -> clipping at the AC rating -> AC losses -> availability -> the plant's own
+consumption (drives) -> moving-part outages (set by :func:`lcoe.model.evaluate`). Each is a
+named step of :data:`LOSS_CHAIN`; clipping is reported as its own line.
 
 A plant of flat modules has one plane of array; a plant of 3-D bodies has one per facet
 (:class:`lcoe.irradiance.FacetIrradiance`): each facet gets its own cell temperature and DC

@@ -124,6 +124,11 @@ def _section_intro(section: str) -> list[str]:
                 "# ---- sunlight can destroy the receiver within seconds to minutes on loss of "
                 "tracking", "# ---- or cooling, and burns skin and eyes: design and "
                 "maintenance follow local codes", "# ---- and licensed professionals."]
+    if section == "plant.soiling":
+        return ['# ---- Soiling. model = "monthly" needs 12 loss fractions, January first, e.g.',
+                "# ---- monthly_loss = [0.02, 0.02, 0.03, 0.03, 0.02, 0.01, 0.01, 0.01, 0.01, "
+                "0.01, 0.02, 0.02]", '# ---- model = "kimber" needs rain in the weather file '
+                "(a precip_mm column)."]
     if section == "plant.body":
         return ['# ---- plant.mount = "body": bodies covered with cells. With shape = "facets" '
                 "list", "# ---- the pieces instead: [[plant.body.facet]] with tilt_deg, "

@@ -559,8 +559,8 @@ def write_case_sheet(wb, result: RunResult) -> None:
 
     Holds the ``[uncertain]`` and ``[[correlation]]`` tables, ``[site.monthly]``, the
     monthly soiling profile, the debt-sizing constraints, the construction drawdown, the
-    top-level tables present in the case file, the case's folder
-    (for a relative weather path) and its source and SHA-256.
+    top-level tables present in the case file, the case's folder (for a relative weather
+    path) and its source and SHA-256.
     """
     case = result.case
     monthly = getattr(case, "monthly", None)
