@@ -207,6 +207,16 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
                     keep_hourly: bool) -> EnergyResult:
     """Energy of the samples ``idx`` that share one geometry, with areas and body count."""
     geometry = _geometry(case, full, int(idx[0]))
+    if geometry.rows:  # a sampled row height or width must still clear the ground
+        from .rows import lowest_row_height_m
+
+        tilt = geometry.tilt_deg if geometry.mount == "fixed" else geometry.max_rotation_deg
+        lowest = lowest_row_height_m(geometry.row_width_m, tilt)
+        if geometry.row_height_m < lowest:
+            raise InputError(f"{case.source}: plant.row_height_m = {geometry.row_height_m:g} "
+                             f"in sample {int(idx[0])}: allowed >= {lowest:.3g} m for rows "
+                             f"{geometry.row_width_m:g} m wide at {tilt:g} deg (the lower "
+                             f"edge must clear the ground); truncate its distribution")
     sub = {k: full[k][idx] for k in ENERGY_PARAMS}
     dc_kw, eff = full["plant.dc_capacity_kw"][idx], full["plant.module_efficiency"][idx]
     parasitic_kw, n_bodies = None, None

@@ -283,3 +283,22 @@ def test_bad_row_and_soiling_input_exit_2(tmp_path, extra, key):
     r = _cli("check", case)
     assert r.returncode == 2, r.stdout
     assert r.stderr.count("\n") == 1 and key in r.stderr and "Traceback" not in r.stderr
+
+
+def test_sampled_row_height_below_the_ground_is_refused(demo_case, demo_site):
+    with pytest.raises(InputError, match="plant.row_height_m = 0.2 in sample 1"):
+        evaluate(demo_case, demo_site, {"plant.row_height_m": np.array([1.5, 0.2])})
+
+
+def test_negative_rain_refused(tmp_path, bundled_weather):
+    from lcoe.weather import read_weather
+
+    path, _ = _rain_weather_csv(tmp_path, bundled_weather)
+    text = path.read_text().splitlines()
+    head = text[0].split(",")
+    row = text[5].split(",")
+    row[head.index("precip_mm")] = "-1.0"
+    text[5] = ",".join(row)
+    path.write_text("\n".join(text) + "\n")
+    with pytest.raises(InputError, match="row 6: precip_mm = -1 mm is negative"):
+        read_weather(path, "start")
