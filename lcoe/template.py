@@ -250,8 +250,9 @@ def template_text(kind: str = "fixed") -> str:
                       f"{'# ' if off else ''}sizing = [{{case = \"P50\", min_dscr = 1.30}}, "
                       '{case = "P99_1yr", min_dscr = 1.00}]']
         if f.path == "construction.commitment_fee_fraction":
-            lines += ["# Share of capex drawn at the start of each period (sums to 1; absent = "
-                      "no construction period):",
+            lines += ["# Share of capex drawn at the start of each construction period [-]; "
+                      "allowed: a list of", "# 1 to 120 shares >= 0 that sum to 1 (absent = no "
+                      "construction period)",
                       f"{'# ' if off else ''}drawdown = [0.25, 0.35, 0.25, 0.15]"]
         if f.path == "costs.land_lease_per_year":
             lines += ["", "# Scheduled replacements, one table each (add as many as needed):",
