@@ -33,7 +33,7 @@ def part_engine(n: int = 2000) -> dict:
 
     from lcoe.case import load_case
     from lcoe.model import prepare
-    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.study.single import monte_carlo
     from lcoe.uncertainty.spec import read_spec
 
     case = load_case(DEMO)

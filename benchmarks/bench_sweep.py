@@ -85,7 +85,7 @@ def identical(a, b) -> bool:
 def single_case_cost(plan, samples: int) -> float:
     """Seconds per trial of the single-case engine on the plan's first site x technology."""
     from lcoe.model import prepare
-    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.study.single import monte_carlo
     from lcoe.uncertainty.spec import read_spec
 
     case = plan.runs[0].case()

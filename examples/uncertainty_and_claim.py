@@ -11,7 +11,7 @@ import numpy as np
 from lcoe.case import load_case
 from lcoe.compare import run_comparison
 from lcoe.model import prepare
-from lcoe.uncertainty.engine import energy_exceedance, monte_carlo
+from lcoe.study.single import energy_exceedance, monte_carlo
 from lcoe.uncertainty.spec import read_spec
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"

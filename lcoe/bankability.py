@@ -20,9 +20,9 @@ import numpy as np
 from .bank.metrics import BASE_CASE, FinanceResult, breakeven_tariff, project_finance
 from .case import Case
 from .errors import InputError
-from .finance import IrrResult, investment_irr, irr, npv
+from .finance import IrrResult, investment_irr, irr, mirr, npv
 from .model import ModelOutput
-from .uncertainty.engine import QUANTILES, Z90, Z99, stats
+from .uncertainty.stats import QUANTILES, Z90, Z99, stats
 from .uncertainty.spec import UncertainSpec
 
 #: DSCR below which a year counts as a payment default (common practice).
@@ -133,6 +133,9 @@ class BankabilityBlock:
         Flat real tariff giving the unlevered post-tax project flow NPV zero at the case's
         discount rate (the WACC definition) [currency/kWh].
     target_irr, lockup_dscr, discount_rate : float
+    loan_rate : float
+        Loan interest rate [1/year]: the finance rate of the MIRR (reinvestment at the
+        discount rate).
     currency : str
     mc : dict or None
         Monte Carlo statistics (see :meth:`add_trials`).
@@ -157,6 +160,7 @@ class BankabilityBlock:
     tariff_escalation: float = 0.0
     mc: dict | None = None
     notes: list = field(default_factory=list)
+    loan_rate: float = 0.0
 
     @property
     def gearing(self) -> float:
@@ -240,6 +244,12 @@ class BankabilityBlock:
                 "project_pre_tax": irr(f.project_flow_pre_tax[0]),
                 "equity": irr(f.equity_flow[0])}
 
+    def mirr(self, which: str) -> float:
+        """MIRR of the deterministic ``"project"`` (post-tax) or ``"equity"`` flow [1/year]."""
+        f = self.finance
+        flow = f.project_flow_post_tax if which == "project" else f.equity_flow
+        return float(mirr(flow[0], self.loan_rate, self.discount_rate)[0])
+
     def trial_finance(self, case: Case):
         """``fn(model_output, params) -> FinanceResult`` of trials run with the sized loan."""
         debt = float(self.finance.debt[0])
@@ -260,14 +270,19 @@ class BankabilityBlock:
         return run
 
     def collector(self, case: Case):
-        """Per-trial collector for :func:`lcoe.uncertainty.engine.monte_carlo`."""
+        """Per-trial collector for :func:`lcoe.study.single.monte_carlo`."""
         run = self.trial_finance(case)
         target = self.target_irr
+        loan_rate = float(case["debt.interest_rate"])
+
+        def fr_rate(params: dict):
+            return np.asarray(params.get("finance.discount_rate", case["finance.discount_rate"]))
 
         def collect(out: ModelOutput, params: dict, sl) -> dict:
             fr = run(out, params)
             return {"min_dscr": fr.min_dscr, "dscr_by_year": fr.dscr,
                     "equity_irr": fr.equity_irr,
+                    "equity_mirr": mirr(fr.equity_flow, loan_rate, fr_rate(params)),
                     "equity_npv_at_target": npv(target, fr.equity_flow)}
 
         return collect
@@ -339,10 +354,18 @@ class BankabilityBlock:
             "prob_dscr_below_1": float(np.mean(worst < DEFAULT_DSCR)) if d.size else 0.0,
             "prob_lockup": float(np.mean(worst < self.lockup_dscr)) if d.size else 0.0,
             "prob_equity_below_target": float(np.mean(outputs["equity_npv_at_target"] < 0)),
-            "equity_irr": stats(outputs["equity_irr"][np.isfinite(outputs["equity_irr"])])
-            if np.isfinite(outputs["equity_irr"]).sum() > 1 else None,
+            "equity_irr": stats(outputs["equity_irr"]),
+            "equity_mirr": stats(outputs["equity_mirr"]) if "equity_mirr" in outputs else None,
             "dscr_fan": {"years": years.tolist(), **fan}, "tenor_years": tenor,
         }
+        missing = np.flatnonzero(~np.isfinite(outputs["equity_irr"]))
+        if missing.size:
+            shown = ", ".join(str(i) for i in missing[:10]) + (" ..." if missing.size > 10
+                                                               else "")
+            self.notes.append(f"Monte Carlo equity IRR: {missing.size} of {dscr_y.shape[0]} "
+                              f"trials have no investment root (the NPV never falls through "
+                              f"zero as the rate rises) and are left out of its statistics "
+                              f"(trials {shown}); every other trial is used")
 
     def to_summary(self) -> dict:
         f = self.finance
@@ -381,6 +404,13 @@ class BankabilityBlock:
             "sources_and_uses": {side: {k: float(v[0]) for k, v in f.sources_uses[side].items()}
                                  for side in ("uses", "sources")},
             "by_year": self.by_year(),
+            "irr_rule": IRR_RULE,
+            "project_mirr": float(mirr(f.project_flow_post_tax[0], self.loan_rate,
+                                       self.discount_rate)[0]),
+            "equity_mirr": float(mirr(f.equity_flow[0], self.loan_rate,
+                                      self.discount_rate)[0]),
+            "mirr_rates": {"finance_rate": self.loan_rate,
+                           "reinvest_rate": self.discount_rate},
             "payback_year": f.payback_year[0],
             "breakeven_tariff_per_kwh": self.breakeven_tariff,
             "breakeven_definition": "flat real tariff (year-0 money, escalating with "
@@ -461,25 +491,42 @@ class BankabilityBlock:
             if m["min_dscr"]:
                 lines.append(f"    Min DSCR           P10 {m['min_dscr']['q10']:.2f}x, P50 "
                              f"{m['min_dscr']['q50']:.2f}x, P90 {m['min_dscr']['q90']:.2f}x")
+        lines.append(f"    MIRR               project {100 * self.mirr('project'):.2f} %, "
+                     f"equity {100 * self.mirr('equity'):.2f} % (finance rate = loan rate "
+                     f"{100 * self.loan_rate:.2f} %, reinvestment = discount rate "
+                     f"{100 * self.discount_rate:.2f} %)")
+        if self.mc and self.mc.get("equity_irr") and self.mc["equity_irr"]["n"]:
+            e = self.mc["equity_irr"]
+            lines.append(f"    Equity IRR trials  P10 {100 * e['q10']:.2f} %, P50 "
+                         f"{100 * e['q50']:.2f} %, P90 {100 * e['q90']:.2f} %, mean "
+                         f"{100 * e['mean']:.2f} % ({e['n']} of {self.mc['trials']} trials)")
         if any(len(r.roots) > 1 for r in irrs.values()):
-            lines.append("    note: cash flows that turn negative again late in life "
-                         "(replacements, decommissioning) give several IRRs; all are shown, "
-                         "none is chosen. Read the NPV, or the IRR nearest the discount rate, "
-                         "with care")
+            lines.append(f"    note: {IRR_RULE}")
         lines += [f"    note: {n}" for n in self.notes]
         return lines
 
 
+#: The IRR rule, stated wherever several roots appear.
+IRR_RULE = ("Cash flows that turn negative again late in life (replacements, decommissioning) "
+            "can have several IRRs: the IRR reported is the investment root, the rate at which "
+            "the NPV turns from positive to negative as the rate rises; all roots are listed "
+            "beside it, and the MIRR (finance rate = loan rate, reinvestment rate = discount "
+            "rate) is single-valued.")
+
+
 def _irr_value(r: IrrResult):
-    """The unique IRR, or None when there are several roots or none."""
+    """The investment root (see :func:`lcoe.finance.irr`), or None when there is none."""
     return float(r.value) if np.isfinite(r.value) else None
 
 
 def _irr_text(r: IrrResult) -> str:
+    if np.isfinite(r.value) and len(r.roots) > 1:
+        return (f"{100 * r.value:.2f} % (investment root; all roots "
+                + ", ".join(f"{100 * x:.2f} %" for x in r.roots) + ")")
     if np.isfinite(r.value):
         return f"{100 * r.value:.2f} %"
     if r.roots:
-        return "several roots: " + ", ".join(f"{100 * x:.2f} %" for x in r.roots)
+        return "roots " + ", ".join(f"{100 * x:.2f} %" for x in r.roots) + f" ({r.reason})"
     return f"none ({r.reason})"
 
 
@@ -582,4 +629,5 @@ def run_bankability(case: Case, base: ModelOutput, spec: UncertainSpec) -> Banka
                             tariff_escalation=case["revenue.tariff_escalation"],
                             after_tax_lcoe=float(at[0]), target_irr=case["equity.target_irr"],
                             lockup_dscr=case["debt.lockup_dscr"], discount_rate=r,
-                            currency=case["case.currency"], notes=notes)
+                            currency=case["case.currency"], notes=notes,
+                            loan_rate=float(case["debt.interest_rate"]))

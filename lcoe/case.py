@@ -10,7 +10,7 @@ import hashlib
 import math
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
@@ -169,6 +169,13 @@ class Case:
     def __getitem__(self, path: str) -> Any:
         return self.values[path]
 
+    def __reduce__(self):
+        """Pickle with plain dicts (read-only views do not pickle), for worker processes."""
+        state = {f.name: getattr(self, f.name) for f in fields(self)}
+        for key in ("values", "uncertain"):
+            state[key] = dict(state[key])
+        return (_case_from_state, (state,))
+
     @property
     def name(self) -> str:
         return str(self.values["case.name"])
@@ -191,6 +198,12 @@ class Case:
         _check_mount(vals, self.body_facets, self.source)
         _check_moving_parts(vals, self.moving_parts, self.source)
         return replace(self, values=MappingProxyType(vals))
+
+
+def _case_from_state(state: dict) -> Case:
+    """Rebuild a pickled :class:`Case` (see ``Case.__reduce__``)."""
+    return Case(**{**state, "values": MappingProxyType(state["values"]),
+                   "uncertain": MappingProxyType(state["uncertain"])})
 
 
 def load_case(path: str | Path) -> Case:

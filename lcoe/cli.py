@@ -91,7 +91,9 @@ def _cmd_run(args) -> int:
         with collect_warnings() as caught:
             result = run_case(case, samples=args.samples, seed=args.seed,
                               sobol_base=args.sobol, sobol_output=args.sobol_output,
-                              screen=args.screen, method=args.method, progress=progress)
+                              screen=args.screen, method=args.method, progress=progress,
+                              workers=getattr(args, "workers", 1),
+                              scheduler=getattr(args, "scheduler", None))
         result.notes.extend(caught)  # library warnings go into the run's notes, not the terminal
         write_outputs(result, stage, progress=progress, hourly=args.hourly)
     progress.close()
@@ -201,6 +203,9 @@ def _run_options(sp, default_help: str) -> None:
 def _add_run(sp) -> None:
     sp.add_argument("case", help="case file (.toml) or an edited workbook (.xlsx)")
     _run_options(sp, "default outputs/<case name>")
+    from .compare_cli import add_execution_options
+
+    add_execution_options(sp)
     sp.set_defaults(func=_cmd_run, replace_own=False)
 
 

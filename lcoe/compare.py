@@ -1,24 +1,22 @@
-"""Several cases side by side with common random numbers, and the test of a vendor's claim.
+"""Several cases side by side, trial by trial, and the test of a vendor's claim.
 
 The first case is the baseline; every other case is a candidate compared with it trial by
-trial. Common random numbers: an uncertain input that cases share by name (the same dotted
-path in ``[uncertain]`` with the same distribution, or the same persistent energy component
-``[uncertain.energy] <name>_sd`` with the same standard deviation) gets one column of uniforms
-that every case reads, so a trial draws the same value for it in every case; the year-to-year
-weather of a trial is one draw too (the same standard normal scores, or the same years of a
-multi-year weather file). Inputs of one case alone get their own columns. All uniforms come
-from one Latin hypercube (or random) design drawn from one seed, with the cases' rank
-correlations applied to the shared design (Iman & Conover 1982), so a shared column stays
-identical across cases. The ratio of two cases' LCOE is then free of the noise of inputs they
-share and shows only what differs between them.
+trial. The trials come from the study layer (:mod:`lcoe.study`) with its one sharing rule:
+cases at the same site share that site's weather (year-to-year factors and ``resource_sd``);
+inputs declared once in a ``--shared`` file are one draw per trial for every case; each case's
+own ``[uncertain]`` inputs and energy-model components are its own, independent of the other
+cases unless the shared file declares a cross-case rank correlation
+(``between = ["<case>/<input>", "<case>/<input>"]``). The ratio of two cases' LCOE then
+carries the uncertainty of what differs between them and not the noise of what they share.
 
-Shapes: ``n`` trials, ``D`` columns of the shared design; every per-case array is (n,).
+Shapes: ``n`` trials; every per-case array is (n,).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 
@@ -34,13 +32,26 @@ from .claims import (
     ratio_stats,
 )
 from .errors import InputError
-from .model import ModelOutput, Site, cash_flow, evaluate, prepare
+from .model import ModelOutput, cash_flow, evaluate
 from .rng import make_rng
+from .study import SHARING_RULE
+from .study.design import TrialDesign
+from .study.design import build_design as build_trial_design
+from .study.shared import NO_SHARED, SharedInputs, apply_shared, resolve_pairs
+from .study.trials import (
+    CHUNK_TRIALS,
+    StudyRun,
+    evaluate_runs,
+    failure_error,
+    prepared,
+    site_key,
+    split_inputs,
+)
 from .tech.concentrator_model import cautions
 from .uncertainty.distributions import Distribution
-from .uncertainty.engine import stats
-from .uncertainty.sampling import correlation_matrix, sample_inputs
-from .uncertainty.spec import ENERGY_FACTOR_FLOOR, UncertainSpec, read_spec
+from .uncertainty.sampling import uniforms_to_values
+from .uncertainty.spec import read_spec
+from .uncertainty.stats import stats
 
 #: Defaults of a comparison.
 DEFAULT_SAMPLES = 2000
@@ -51,22 +62,25 @@ CAPEX_STEP = 100.0
 
 @dataclass(frozen=True)
 class Column:
-    """One column of the shared design.
+    """One column of the comparison's trial design, for display.
 
     Attributes
     ----------
     dist : Distribution
-        Its distribution, named for display (the dotted path, or ``path [case]`` when cases
-        give the same path different distributions) and with its Sobol group.
+        The distribution of its first case, named by the column label (the dotted path, with
+        ``[case]`` or ``[site]`` when it is not shared by the whole study).
     path : str
         The case input (``energy.<name>`` for a persistent energy factor).
     cases : tuple of int
         Indices of the cases that read it (more than one: shared).
+    kind : str
+        ``"study"`` (declared once), ``"site"`` (a site's resource) or ``"run"`` (a case's own).
     """
 
     dist: Distribution
     path: str
     cases: tuple
+    kind: str = "run"
 
     @property
     def shared(self) -> bool:
@@ -75,89 +89,87 @@ class Column:
 
 @dataclass(frozen=True)
 class Design:
-    """Columns of the shared design and which column each case's inputs read.
+    """The trial design of a comparison and its columns.
 
     Attributes
     ----------
+    trials : TrialDesign
+    runs : list of StudyRun
+        One per case, baseline first.
     columns : list of Column
-    case_columns : list of list of int
-        For case c, the column of each of its uncertain inputs, in the order of
-        ``specs[c].dists``.
-    specs : list of UncertainSpec
-    corr : numpy.ndarray or None
-        (D, D) target rank correlation of the columns.
     """
 
+    trials: TrialDesign
+    runs: list
     columns: list
-    case_columns: list
-    specs: list
-    corr: np.ndarray | None
 
     @property
-    def dists(self) -> list:
-        return [c.dist for c in self.columns]
+    def case_columns(self) -> tuple:
+        return self.trials.member_columns
 
 
-def _dist_key(d: Distribution) -> tuple:
-    return (d.name, d.dist, tuple(sorted(d.params.items())), d.low, d.high)
+def case_label(case: Case) -> str:
+    """The label of a case in cross-case correlations: its file name without the extension."""
+    return Path(case.source).stem
 
 
-def build_design(cases: Sequence[Case], specs: Sequence[UncertainSpec]) -> Design:
-    """Merge the cases' uncertain inputs into one design (see the module docstring).
+def site_name(case: Case) -> str:
+    """A short name of a case's site for column labels."""
+    if case.monthly is not None:
+        return f"{case['site.latitude_deg']:g}, {case['site.longitude_deg']:g}"
+    return case.weather_path.name if case.weather_path else "bundled weather"
+
+
+def study_runs(cases: Sequence[Case], shared: SharedInputs = NO_SHARED,
+               collectors: Callable | None = None, equity: bool = False) -> list[StudyRun]:
+    """The runs of a comparison: each case at its site with the shared inputs merged in.
+
+    ``collectors(case)`` gives a run's collector; with ``equity`` every run also collects the
+    project-finance outputs of its loan (the equity NPV at the target IRR feeds the value of
+    information, :mod:`lcoe.compare_voi`).
+    """
+    merged, used = apply_shared(cases, shared)
+    sites: dict[str, str] = {}
+    runs = []
+    for case, own_shared in zip(merged, used):
+        key = site_key(case)
+        sites.setdefault(key, site_name(case))
+        spec = read_spec(case)
+        cols = (collectors(case),) if collectors else ()
+        if equity:
+            from .bankability import run_bankability
+
+            site = prepared(case)[0]
+            cols += (run_bankability(case, evaluate(case, site), spec).collector(case),)
+        runs.append(StudyRun(label=case.name, case_label=case_label(case), site=sites[key],
+                             case=case, spec=spec, shared=own_shared, collectors=cols))
+    return runs
+
+
+def build_design(runs: Sequence[StudyRun], samples: int, seed: int, method: str = "lhs",
+                 shared: SharedInputs = NO_SHARED) -> Design:
+    """The comparison's trial design (:func:`lcoe.study.design.build_design`) with its columns.
 
     Raises
     ------
     InputError
-        Two cases give different rank correlations for the same pair of shared inputs.
+        Conflicting or unknown correlations (see :mod:`lcoe.study.shared`).
     """
-    keys: dict[tuple, int] = {}
-    found: list[tuple[Distribution, list[int]]] = []
-    case_columns = []
-    for c, spec in enumerate(specs):
-        cols = []
-        for d in spec.dists:
-            k = _dist_key(d)
-            if k not in keys:
-                keys[k] = len(found)
-                found.append((d, []))
-            found[keys[k]][1].append(c)
-            cols.append(keys[k])
-        case_columns.append(cols)
-    paths = [d.name for d, _ in found]
+    members = [r.member() for r in runs]
+    cross = resolve_pairs(shared.pairs, members, shared.source or "--shared")
+    td = build_trial_design(members, samples, seed, method, cross,
+                            source=shared.source or "compared cases")
     columns = []
-    for d, users in found:
-        clash = paths.count(d.name) > 1
-        label = d.name if not clash else f"{d.name} [{', '.join(cases[u].name for u in users)}]"
+    for j, label in enumerate(td.columns):
+        users = tuple(m for m, cols in enumerate(td.member_columns) if j in cols)
+        first = users[0]
+        d = runs[first].spec.dists[td.member_columns[first].index(j)]
         group = d.group
-        if group and len(users) == 1:
-            group = f"{group} [{cases[users[0]].name}]"
+        if group and td.kinds[j] == "run":
+            group = f"{group} [{runs[first].label}]"
         columns.append(Column(dist=replace(d, name=label, group=group), path=d.name,
-                              cases=tuple(users)))
-    pairs: dict[frozenset, tuple] = {}
-    for c, spec in enumerate(specs):
-        if spec.corr is None:
-            continue
-        n_d = len(spec.dists)
-        for i in range(n_d):
-            for j in range(i + 1, n_d):
-                rho = float(spec.corr[i, j])
-                if rho == 0.0:
-                    continue
-                gi, gj = case_columns[c][i], case_columns[c][j]
-                key = frozenset((gi, gj))
-                if key in pairs and pairs[key][0] != rho:
-                    raise InputError(
-                        f"{cases[c].source}: correlation between {paths[gi]} and {paths[gj]} "
-                        f"= {rho:g}: expected {pairs[key][0]:g} as in {pairs[key][1]}, since "
-                        f"the cases share these inputs")
-                pairs[key] = (rho, cases[c].source, gi, gj)
-    names = [col.dist.name for col in columns]
-    corr = None
-    if pairs:
-        corr = correlation_matrix(names, [(names[gi], names[gj], rho)
-                                          for rho, _, gi, gj in pairs.values()],
-                                  "compared cases", key="correlation")
-    return Design(columns=columns, case_columns=case_columns, specs=list(specs), corr=corr)
+                              cases=users, kind=td.kinds[j]))
+    return Design(trials=td, runs=list(runs), columns=columns)
 
 
 @dataclass(frozen=True)
@@ -285,6 +297,8 @@ class ComparisonResult:
         (n, D) design rows the trials were run with (columns of ``design``).
     voi : VoiBlock or None
         Value of information of the choice between the cases (:mod:`lcoe.compare_voi`).
+    execution : str
+        How the trials ran (does not change the numbers).
     """
 
     cases: list
@@ -299,81 +313,57 @@ class ComparisonResult:
     provenance: dict = field(default_factory=dict)
     inputs: np.ndarray | None = None
     voi: object = None
+    execution: str = "serial (in process)"
 
     @property
     def baseline(self) -> CaseOutcome:
         return self.cases[0]
 
 
-def share_sites(cases: Sequence[Case]) -> list[Site]:
-    """Prepared sites, one per distinct weather and location (read once, POA cache shared)."""
-    sites: dict[tuple, Site] = {}
-    out = []
-    for case in cases:
-        key = (str(case.weather_path), repr(sorted((case.monthly or {}).items())),
-               case["site.latitude_deg"], case["site.longitude_deg"], case["site.altitude_m"],
-               case["site.timezone"], case["site.weather_time_label"])
-        if key not in sites:
-            sites[key] = prepare(case)
-        out.append(sites[key])
-    return out
+class ComparisonProbes:
+    """Per-trial collector: the finance probes that give exact break-even values.
 
-
-def _case_params(design: Design, c: int, x: np.ndarray) -> tuple[dict, np.ndarray]:
-    """Case c's parameter arrays and persistent energy factor from design rows x (n, D)."""
-    params, persist = {}, np.ones(x.shape[0])
-    for d, col in zip(design.specs[c].dists, design.case_columns[c]):
-        if d.name.startswith("energy."):
-            persist = persist * x[:, col]
-        else:
-            params[d.name] = x[:, col]
-    return params, persist
-
-
-def _yearly_factors(case: Case, site: Site, spec: UncertainSpec, z: np.ndarray,
-                    u_year: np.ndarray) -> np.ndarray:
-    """(n, N) year-to-year factors of a case from the shared draws ``z`` and ``u_year``."""
-    life = int(case["case.lifetime_years"])
-    w = site.weather
-    if not w.typical_year and w.n_years > 1:
-        yearly = evaluate(case, site).energy.yearly_kwh[0]
-        ratios = yearly / yearly.mean()
-        return ratios[np.minimum((u_year[:, :life] * ratios.size).astype(int), ratios.size - 1)]
-    if spec.interannual_cov > 0:
-        return np.maximum(1.0 + spec.interannual_cov * z[:, :life], ENERGY_FACTOR_FLOOR)
-    return np.ones((z.shape[0], life))
-
-
-def _evaluate_rows(case: Case, site: Site, params: dict, factors: np.ndarray,
-                   persist: np.ndarray, collect=None) -> dict:
-    """Model outputs of one chunk of trials, with the finance probes for break-even values.
-
-    ``collect``: a bankability collector; its equity NPV at the target IRR is kept.
+    LCOE is affine in capex and of the form A / s + B in a factor s on the energy, so one
+    probe of each gives the slope and the two terms exactly.
     """
-    out = evaluate(case, site, params, weather_factors=factors)
-    extra = {} if collect is None else {
-        "equity_npv": collect(out, out.params, slice(None))["equity_npv_at_target"]}
-    full, e = out.params, out.energy
-    capex = full["costs.capex_per_kw"]
-    probe = dict(full, **{"costs.capex_per_kw": capex + CAPEX_STEP})
-    slope = (cash_flow(case, probe, e, factors).lcoe_real - out.cashflow.lcoe_real) / CAPEX_STEP
-    doubled = replace(e, annual_kwh=2.0 * e.annual_kwh)
-    a, b = energy_scale_terms(out.cashflow.lcoe_real,
-                              cash_flow(case, full, doubled, factors).lcoe_real)
-    long_term = e.annual_kwh * persist
-    return {"lcoe_real": out.cashflow.lcoe_real, "lcoe_nominal": out.cashflow.lcoe_nominal,
-            "energy_per_kw_kwh": long_term / e.dc_capacity_kw,
-            "energy_per_cell_m2_kwh": long_term / e.cell_area_m2,
-            "energy_per_land_m2_kwh": long_term / e.land_area_m2,
-            "capex_per_kw": capex, "lcoe_slope_per_capex": slope,
-            "energy_scale_a": a, "energy_scale_b": b, **extra}
+
+    def __init__(self, case: Case):
+        self.case = case
+
+    def __call__(self, out: ModelOutput, params: dict, sl) -> dict:
+        case, full, e, factors = self.case, out.params, out.energy, out.weather_factors
+        capex = full["costs.capex_per_kw"]
+        probe = dict(full, **{"costs.capex_per_kw": capex + CAPEX_STEP})
+        slope = (cash_flow(case, probe, e, factors).lcoe_real - out.cashflow.lcoe_real) \
+            / CAPEX_STEP
+        doubled = replace(e, annual_kwh=2.0 * e.annual_kwh)
+        a, b = energy_scale_terms(out.cashflow.lcoe_real,
+                                  cash_flow(case, full, doubled, factors).lcoe_real)
+        return {"capex_per_kw": np.broadcast_to(capex, (sl.stop - sl.start,)).astype(float),
+                "lcoe_slope_per_capex": slope, "energy_scale_a": a, "energy_scale_b": b}
+
+
+def case_trials(out: dict) -> CaseTrials:
+    """A case's per-trial results from the study's outputs."""
+    long_term = out["physics_kwh"] * out["persistent_factor"]
+    return CaseTrials(lcoe_real=out["lcoe_real_per_kwh"],
+                      lcoe_nominal=out["lcoe_nominal_per_kwh"],
+                      energy_per_kw_kwh=long_term / out["dc_capacity_kw"],
+                      energy_per_cell_m2_kwh=long_term / out["cell_area_m2"],
+                      energy_per_land_m2_kwh=long_term / out["land_area_m2"],
+                      capex_per_kw=out["capex_per_kw"],
+                      lcoe_slope_per_capex=out["lcoe_slope_per_capex"],
+                      energy_scale_a=out["energy_scale_a"], energy_scale_b=out["energy_scale_b"],
+                      equity_npv=out.get("equity_npv_at_target"))
 
 
 def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: int = 1,
                    claim_ratio: float | None = None, sobol_base: int = DEFAULT_SOBOL_BASE,
-                   method: str = "lhs", chunk_size: int = 1000,
+                   method: str = "lhs", chunk_size: int = CHUNK_TRIALS,
                    progress: Callable[[str, int, int], None] | None = None,
-                   voi_bootstrap: int = 100) -> ComparisonResult:
+                   shared: SharedInputs = NO_SHARED, workers: int = 1,
+                   scheduler: str | None = None, voi_bootstrap: int = 100
+                   ) -> ComparisonResult:
     """Compare cases with common random numbers and test each candidate's claim.
 
     Parameters
@@ -383,8 +373,8 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
     samples : int
         Monte Carlo trials (>= 2).
     seed : int
-        Seed of the one generator; the Monte Carlo and the Sobol designs use generators
-        spawned from it.
+        Seed of the study: the trial blocks use ``SeedSequence(seed, spawn_key=(0, b))``,
+        the Sobol designs child 1.
     claim_ratio : float, optional
         Claimed bound on candidate / baseline LCOE for every candidate; None: each
         candidate's ``claim.lcoe_ratio``, or 1 (as cheap as the baseline) when it states none.
@@ -392,11 +382,15 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
         Sobol base samples N per candidate (0 skips the drivers of the ratio).
     method : {"lhs", "random"}
     chunk_size : int
-        Trials per model call (memory bound; results do not depend on it).
+        Trials per task (memory bound; results do not depend on it).
     progress : callable, optional
         ``progress(stage, done, total)``.
     voi_bootstrap : int
         Bootstrap resamples of the value-of-information step (0 skips it).
+    shared : SharedInputs
+        Inputs declared once for the comparison and cross-case correlations.
+    workers, scheduler
+        Where the trials run (see :func:`lcoe.study.trials.evaluate_runs`).
 
     Returns
     -------
@@ -416,39 +410,21 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
         dup = next(n for n in names if names.count(n) > 1)
         raise InputError(f"case.name = {dup!r} is used by two compared cases: expected distinct "
                          f"names (they label every output)")
-    sites = share_sites(cases)
-    specs = [read_spec(c) for c in cases]
-    design = build_design(cases, specs)
-    mc_seq, sobol_seq = np.random.SeedSequence(seed).spawn(2)
-    rng = make_rng(mc_seq)
-    n_cols = len(design.columns)
-    x = sample_inputs(design.dists, samples, rng, design.corr, method) if n_cols else \
-        np.empty((samples, 0))
-    max_life = max(int(c["case.lifetime_years"]) for c in cases)
-    z = rng.standard_normal((samples, max_life))
-    u_year = rng.random((samples, max_life))
-
+    with_equity = bool(voi_bootstrap) and all("revenue" in c.sections for c in cases)
+    runs = study_runs(cases, shared, ComparisonProbes, equity=with_equity)
+    design = build_design(runs, samples, seed, method, shared)
+    _, sobol_seq = np.random.SeedSequence(seed).spawn(2)
+    tick = (lambda d, t: progress("trials", d, t)) if progress else None
+    res = evaluate_runs(design.trials, runs, chunk_size, workers, scheduler, tick)
+    err = failure_error(res, runs)
+    if err is not None:
+        raise err
     outcomes = []
-    with_equity = voi_bootstrap and all("revenue" in c.sections for c in cases)
-    for c, (case, site, spec) in enumerate(zip(cases, sites, specs)):
-        params_all, persist = _case_params(design, c, x)
-        factors = persist[:, None] * _yearly_factors(case, site, spec, z, u_year)
-        collect = None
-        if with_equity:  # value of information on the equity's NPV (lcoe.compare_voi)
-            from .bankability import run_bankability
-
-            collect = run_bankability(case, evaluate(case, site), spec).collector(case)
-        cols: dict[str, np.ndarray] = {}
-        for start in range(0, samples, chunk_size):
-            sl = slice(start, min(start + chunk_size, samples))
-            chunk = _evaluate_rows(case, site, {k: v[sl] for k, v in params_all.items()},
-                                   factors[sl], persist[sl], collect)
-            for k, v in chunk.items():
-                cols.setdefault(k, np.empty(samples))[sl] = v
-            if progress:
-                progress(f"case {c + 1}", sl.stop, samples)
-        base = evaluate(case, site)
-        outcomes.append((case, site, base, CaseTrials(**cols)))
+    for run, out in zip(runs, res.outputs):
+        site = prepared(run.case)[0]
+        outcomes.append((run.case, site, evaluate(run.case, site), case_trials(out)))
+    cases = [r.case for r in runs]
+    sites = [o[1] for o in outcomes]
 
     base_facts = case_facts(outcomes[0][0], outcomes[0][1], outcomes[0][2])
     claims, results = [], []
@@ -464,7 +440,7 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
                                    audit=findings, cautions=cautions(case)))
     if sobol_base:
         seqs = sobol_seq.spawn(len(claims))
-        claims = [_with_sobol(claim, design, cases, sites, sobol_base, sq, chunk_size, progress)
+        claims = [_with_sobol(claim, design, sobol_base, sq, chunk_size, progress)
                   for claim, sq in zip(claims, seqs)]
     pairs = []
     for claim in claims:
@@ -473,10 +449,10 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
             pairs.append({"case": results[claim.index].name, "reference": results[ref].name,
                           "claim_ratio": claim.claim_ratio,
                           **ratio_stats(ratio, claim.claim_ratio)})
-    notes = _design_notes(design, cases)
+    notes = _design_notes(design) + res.notes
     result = ComparisonResult(cases=results, claims=claims, design=design, samples=samples,
                               seed=seed, method=method, currency=cases[0]["case.currency"],
-                              pairs=pairs, notes=notes, inputs=x)
+                              pairs=pairs, notes=notes, execution=res.execution)
     if voi_bootstrap:  # value of information: a separate step on the trials already run
         from .compare_voi import comparison_voi
 
@@ -504,52 +480,62 @@ def _claim_test(c: int, case: Case, trials: CaseTrials, base: CaseTrials,
                         ratio=ratio, stats=st, capex_star=capex_star, energy_star=energy_star)
 
 
-def ratio_model(design: Design, cases: Sequence[Case], sites: Sequence[Site], c: int,
-                columns: Sequence[int], chunk_size: int = 1000, progress=None
+def ratio_model(design: Design, c: int, columns: Sequence[int],
+                chunk_size: int = CHUNK_TRIALS, progress=None
                 ) -> Callable[[np.ndarray], np.ndarray]:
-    """``f(X) -> Y``: LCOE_real of case c over the baseline's, both on the same rows.
+    """``f(U) -> Y``: LCOE_real of case c over the baseline's, both on the same rows.
 
-    ``X`` (n, len(columns)) holds the values of the given design columns; year-to-year weather
-    is left out (every year at its mean, as in :func:`lcoe.uncertainty.engine.model_function`),
-    persistent energy factors are in.
+    ``U`` (n, len(columns)) holds uniforms of the given design columns; each case maps them
+    through its own distributions. Year-to-year weather is left out (every year at its mean,
+    as in :func:`lcoe.study.single.model_function`), persistent energy factors are in.
     """
-    def f(xs: np.ndarray) -> np.ndarray:
-        full = np.zeros((xs.shape[0], len(design.columns)))
-        full[:, list(columns)] = xs
-        out = np.ones(xs.shape[0])
+    def f(us: np.ndarray) -> np.ndarray:
+        full = np.full((us.shape[0], len(design.columns)), 0.5)
+        full[:, list(columns)] = us
+        out = np.ones(us.shape[0])
         for k, sign in ((0, -1.0), (c, 1.0)):
-            case, site = cases[k], sites[k]
-            params_all, persist = _case_params(design, k, full)
-            life = int(case["case.lifetime_years"])
-            for start in range(0, xs.shape[0], chunk_size):
-                sl = slice(start, min(start + chunk_size, xs.shape[0]))
+            run = design.runs[k]
+            site = prepared(run.case)[0]
+            cols = list(design.case_columns[k])
+            X = uniforms_to_values(run.spec.dists, full[:, cols]) if cols else \
+                np.empty((us.shape[0], 0))
+            params_all, persist = split_inputs(run.spec, X)
+            life = int(run.case["case.lifetime_years"])
+            for start in range(0, us.shape[0], chunk_size):
+                sl = slice(start, min(start + chunk_size, us.shape[0]))
                 params = {p: v[sl] for p, v in params_all.items()}
                 wf = np.repeat(persist[sl, None], life, axis=1)
-                out[sl] *= evaluate(case, site, params, weather_factors=wf).cashflow.lcoe_real \
-                    ** sign
+                out[sl] *= evaluate(run.case, site, params,
+                                    weather_factors=wf).cashflow.lcoe_real ** sign
                 if progress:
-                    progress(sl.stop + (xs.shape[0] if k else 0), 2 * xs.shape[0])
+                    progress(sl.stop + (us.shape[0] if k else 0), 2 * us.shape[0])
         return out
 
     return f
 
 
-def _with_sobol(claim: ClaimOutcome, design: Design, cases, sites, sobol_base: int,
+def _with_sobol(claim: ClaimOutcome, design: Design, sobol_base: int,
                 seq: np.random.SeedSequence, chunk_size: int, progress) -> ClaimOutcome:
-    """Sobol indices of the candidate's LCOE ratio over the inputs of the two cases."""
+    """Sobol indices of the candidate's LCOE ratio over the design columns of the two cases.
+
+    The Sobol design is drawn in uniform space (each column uniform on (0, 1)); each case maps
+    a column through its own distribution, as in the Monte Carlo.
+    """
     from .uncertainty.sensitivity import sobol_analyze, sobol_sample
 
     c = claim.index
     columns = sorted(set(design.case_columns[0]) | set(design.case_columns[c]))
     if not columns:
         return replace(claim, sobol_notes=["No uncertain inputs: no drivers to rank."])
-    dists = [design.columns[j].dist for j in columns]
-    corr = None if design.corr is None else design.corr[np.ix_(columns, columns)]
+    dists = [Distribution(name=design.columns[j].dist.name, dist="uniform",
+                          params={"low": 0.0, "high": 1.0}, group=design.columns[j].dist.group)
+             for j in columns]
+    corr = None if design.trials.corr is None else design.trials.corr[np.ix_(columns, columns)]
     design_seq, analyze_seq = seq.spawn(2)
     # corr=None: the caveat on correlated inputs comes once, from sobol_analyze below.
-    _, xs, note = sobol_sample(dists, sobol_base, make_rng(design_seq), None)
+    _, us, note = sobol_sample(dists, sobol_base, make_rng(design_seq), None)
     stage = (lambda d, t: progress(f"Sobol {c}", d, t)) if progress else None
-    y = ratio_model(design, cases, sites, c, columns, chunk_size, stage)(xs)
+    y = ratio_model(design, c, columns, chunk_size, stage)(us)
     notes = [note] if note else []
     if np.ptp(y) == 0.0:
         return replace(claim, sobol_notes=notes + ["The ratio does not vary: no drivers."])
@@ -560,16 +546,19 @@ def _with_sobol(claim: ClaimOutcome, design: Design, cases, sites, sobol_base: i
     return replace(claim, sobol=sob, sobol_notes=notes)
 
 
-def _design_notes(design: Design, cases: Sequence[Case]) -> list[str]:
-    shared = [col.dist.name for col in design.columns if col.shared]
-    notes = [("Common random numbers: " + ", ".join(shared) + " drawn once per trial for "
-              "every case that has them.") if shared else
-             "No uncertain input is shared by name and distribution: the cases' draws are "
-             "independent apart from the year-to-year weather."]
-    split = sorted({col.path for col in design.columns if col.dist.name != col.path})
-    if split:
-        notes.append(f"{', '.join(split)}: different distributions in the cases, so each case "
-                     f"draws its own (labelled 'path [case]').")
+def _design_notes(design: Design) -> list[str]:
+    study = [col.dist.name for col in design.columns if col.kind == "study"]
+    site = [col.dist.name for col in design.columns if col.kind == "site" and col.shared]
+    notes = [SHARING_RULE]
+    if study:
+        notes.append("Declared once for the comparison (one draw per trial for every case "
+                     "that has it): " + ", ".join(study) + ".")
+    if site:
+        notes.append("Shared by the cases at one site: " + ", ".join(site) +
+                     " and the year-to-year weather.")
+    if not study:
+        notes.append("No input is declared for the whole comparison (--shared): each case's "
+                     "own inputs are drawn independently of the other cases.")
     return notes
 
 

@@ -10,6 +10,8 @@ from .errors import InputError
 #: The bundled comparison demo: baseline first (fixed tilt), then the candidates.
 DEMO_COMPARE = ("demo_fixed_tilt.toml", "compare_single_axis.toml",
                 "compare_rotating_columns.toml")
+#: Inputs declared once for the bundled comparison (one market: discount rate and inflation).
+DEMO_SHARED = "compare_shared.toml"
 
 
 def _claim_ratio(text: str) -> float:
@@ -34,6 +36,20 @@ def add_options(p, samples_default: bool = True) -> None:
     p.add_argument("--sobol-ratio", type=int, default=DEFAULT_SOBOL_BASE, metavar="N",
                    help=f"Sobol base samples for the drivers of each ratio (default "
                         f"{DEFAULT_SOBOL_BASE}; 0 = skip)")
+    add_execution_options(p)
+
+
+def add_execution_options(p) -> None:
+    """``--workers`` and ``--scheduler`` (run, compare and sweep)."""
+    from .cli import _non_negative_int
+
+    how = p.add_mutually_exclusive_group()
+    how.add_argument("--workers", type=_non_negative_int, default=1, metavar="N",
+                     help="worker processes on a local dask cluster bound to 127.0.0.1 "
+                          "(default 1 = serial in this process); the numbers do not change")
+    how.add_argument("--scheduler", metavar="ADDRESS",
+                     help="submit the trials to an existing dask scheduler, e.g. "
+                          "tcp://127.0.0.1:8786")
 
 
 def add_compare_options(p, non_negative_int, default_seed: int) -> None:
@@ -52,6 +68,10 @@ def add_compare_options(p, non_negative_int, default_seed: int) -> None:
     p.add_argument("--quiet", action="store_true", help="print nothing but errors")
     p.add_argument("--method", choices=("lhs", "random"), default="lhs",
                    help="Monte Carlo sampling: Latin hypercube (default) or random")
+    p.add_argument("--shared", metavar="FILE.toml",
+                   help="inputs declared once for the whole comparison ([uncertain]: one draw "
+                        "per trial for every case) and rank correlations, also between two "
+                        "cases' own inputs (between = [\"case/input\", \"case/input\"])")
     add_options(p)
     p.set_defaults(func=cmd_compare, replace_own=False)
 
@@ -69,7 +89,9 @@ def cmd_compare(args) -> int:
                          "(lcoe compare BASELINE.toml CANDIDATE.toml ...)")
     from .errors import collect_warnings
     from .output import publish
+    from .study.shared import NO_SHARED, read_shared
 
+    shared = read_shared(args.shared) if getattr(args, "shared", None) else NO_SHARED
     cases = [load_case(p) for p in args.cases]
     out = Path(args.out) if args.out else Path("outputs") / f"compare_{Path(args.cases[0]).stem}"
     samples = args.samples if args.samples is not None else 2000
@@ -78,7 +100,9 @@ def cmd_compare(args) -> int:
             result = run_comparison(cases, samples=samples, seed=args.seed,
                                     claim_ratio=args.claim_ratio, sobol_base=args.sobol_ratio,
                                     method=getattr(args, "method", "lhs"),
-                                    progress=Progress(not args.quiet))
+                                    progress=Progress(not args.quiet), shared=shared,
+                                    workers=getattr(args, "workers", 1),
+                                    scheduler=getattr(args, "scheduler", None))
         result.notes.extend(caught)  # library warnings go into the notes, not the terminal
         write_compare_outputs(result, stage, provenance={"provenance": provenance(args.seed)})
     if not args.quiet:
@@ -97,6 +121,7 @@ def run_demo_compare(args) -> int:
             raise InputError(f"{p}: bundled demo case not found (install from a clone of the "
                              f"repository with pip install -e .)")
     args.cases = [str(p) for p in paths]
+    args.shared = str(INPUTS_DIR / DEMO_SHARED)
     args.replace_own = args.out is None
     args.out = args.out or str(Path("outputs") / "demo_compare")
     return cmd_compare(args)

@@ -315,16 +315,18 @@ def annuity_payment(rate, n_periods, principal):
 # --------------------------------------------------------------------------------------------
 @dataclass(frozen=True)
 class IrrResult:
-    """Every internal rate of return of one cash flow.
+    """Every internal rate of return of one cash flow, and the one to report.
 
     Attributes
     ----------
     roots : list of float
         All rates in (-0.99, 10] [1/year] at which the NPV crosses zero, ascending.
     value : float
-        The root when there is exactly one, else NaN.
+        The investment root: the highest rate at which the NPV turns from positive to negative
+        as the rate rises (the only root when there is one that way); NaN when there is none.
     reason : str
-        Why ``value`` is NaN (empty when it is not).
+        Why ``value`` is NaN, or, with several roots, which one ``value`` is (empty for a
+        single root).
     sign_changes : int
         Number of sign changes of the cash flow (Descartes: an upper bound on the roots).
     """
@@ -333,6 +335,13 @@ class IrrResult:
     value: float = float("nan")
     reason: str = ""
     sign_changes: int = 0
+
+
+#: What ``IrrResult.reason`` says when the investment root is reported among several roots.
+SEVERAL_ROOTS = ("several IRRs: the investment root is reported (the NPV turns from positive "
+                 "to negative as the rate rises)")
+#: ``IrrResult.reason`` when the NPV crosses zero only from negative to positive.
+NO_INVESTMENT_ROOT = "no investment root (the NPV only rises through zero as the rate rises)"
 
 
 def _scaled_npv(u: np.ndarray, cf: np.ndarray) -> np.ndarray:
@@ -360,12 +369,19 @@ def irr(cashflows) -> IrrResult:
     Returns
     -------
     IrrResult
-        ``value`` is the IRR [1/year] when exactly one root lies in (-0.99, 10]; otherwise NaN
-        with ``reason`` "no sign change in cash flows", "NPV does not cross zero in (-99 %,
-        1000 %]" or "several IRRs" (``roots`` lists them).
+        ``roots`` lists every root in (-0.99, 10] [1/year]; ``value`` is the investment root
+        (see Notes), or NaN with ``reason`` "no sign change in cash flows", "NPV does not cross
+        zero in (-99 %, 1000 %]" or :data:`NO_INVESTMENT_ROOT`.
 
     Notes
     -----
+    Rule for several sign changes (e.g. a decommissioning cost at the end): the reported IRR
+    is the investment root, the highest rate at which the NPV turns from positive to negative
+    as the rate rises; above it the project destroys value at any higher rate. For flows
+    -100, +230, -132 (roots 10 % and 20 %) it is 20 %; for a project with a final cost whose
+    roots are -91 % and 6.6 % it is 6.6 %. All roots are reported beside it, and the MIRR
+    (:func:`mirr`) is a single-valued companion.
+
     The NPV is scanned on a grid of ``IRR_GRID_POINTS`` points uniform in ``u = log(1 + r)``
     (spacing about 0.0017 in u) for sign changes; each bracket is refined with Brent's method
     (``scipy.optimize.brentq``, xtol 1e-14). A root is only reported where the NPV changes sign
@@ -390,23 +406,29 @@ def irr(cashflows) -> IrrResult:
     u = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), IRR_GRID_POINTS)
     g = _scaled_npv(u, cf)
     sg = np.sign(g)
-    roots = [float(np.expm1(u[k])) for k in np.flatnonzero(sg[1:] == 0) + 1]
     from scipy.optimize import brentq  # imported here: slow to import
 
+    found = []  # (root, NPV falls through zero as the rate rises)
+    for k in np.flatnonzero(sg[1:] == 0) + 1:
+        before = sg[k - 1]
+        after = sg[k + 1] if k + 1 < sg.size else -before
+        found.append((float(np.expm1(u[k])), before > 0 > after))
     for k in np.flatnonzero(sg[:-1] * sg[1:] < 0):
         a, b = np.expm1(u[k]), np.expm1(u[k + 1])
         root = brentq(lambda r: float(_scaled_npv(np.log1p(r), cf)), a, b, xtol=1e-14)
-        roots.append(float(root))
-    roots.sort()
+        found.append((float(root), bool(sg[k] > 0)))
+    found.sort()
+    roots = [r for r, _ in found]
     if not roots:
         return IrrResult([], float("nan"), "NPV does not cross zero in (-99 %, 1000 %]", changes)
-    if len(roots) > 1:
-        return IrrResult(roots, float("nan"), "several IRRs", changes)
-    return IrrResult(roots, roots[0], "", changes)
+    falling = [r for r, down in found if down]
+    if not falling:
+        return IrrResult(roots, float("nan"), NO_INVESTMENT_ROOT, changes)
+    return IrrResult(roots, falling[-1], SEVERAL_ROOTS if len(roots) > 1 else "", changes)
 
 
 def irr_many(cashflows) -> np.ndarray:
-    """Unique IRR of each sample's cash flow, NaN where there is none or several.
+    """IRR of each sample's cash flow: the investment root (see :func:`irr`), NaN where none.
 
     Parameters
     ----------
@@ -416,14 +438,15 @@ def irr_many(cashflows) -> np.ndarray:
     Returns
     -------
     numpy.ndarray, shape (n_samples,)
-        IRR [1/year] in (-0.99, 10], or NaN.
+        IRR [1/year] in (-0.99, 10], or NaN where the flow has no investment root.
 
     Notes
     -----
     Rows with exactly one sign change have exactly one root for r > -1 (Descartes); when the
     NPV changes sign between the ends of the search interval, that root is found by bisection
     in ``u = log(1 + r)``, vectorised over those rows, to the last bit of u. Rows with no sign
-    change are NaN; rows with several sign changes go through :func:`irr` one by one.
+    change are NaN; rows with several sign changes go through :func:`irr` one by one (their
+    investment root).
     """
     cf = as_flows(cashflows, "cashflows")
     if not np.all(np.isfinite(cf)):
@@ -502,6 +525,49 @@ def investment_irr(cashflows, grid_points: int = 400) -> np.ndarray:
         b = np.where(positive, b, m)
     out[rows] = np.expm1(0.5 * (a + b))
     return out
+
+
+def mirr(cashflows, finance_rate, reinvest_rate) -> np.ndarray:
+    """Modified internal rate of return of each sample's cash flow.
+
+    Parameters
+    ----------
+    cashflows : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
+        Yearly cash flows [currency], column 0 = year 0.
+    finance_rate : float or array_like (n_samples,)
+        Rate at which the negative flows are discounted to year 0 [1/year] (e.g. the loan
+        rate).
+    reinvest_rate : float or array_like (n_samples,)
+        Rate at which the positive flows are compounded to the last year [1/year] (e.g. the
+        discount rate).
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_samples,)
+        MIRR [1/year]; NaN for a flow without both positive and negative values.
+
+    Notes
+    -----
+    MIRR = (FV of the positive flows at the reinvestment rate / -PV of the negative flows at
+    the finance rate)^(1/n) - 1, n the number of years after year 0. Single-valued whatever the
+    number of sign changes.
+
+    References
+    ----------
+    .. [1] numpy-financial, ``mirr`` (docstring example: flows -4500, -800, 800, 800, 600, 600,
+       800, 800, 700, 3000 at 8 % and 5.5 % give 0.0665972).
+    """
+    cf = as_flows(cashflows, "cashflows")
+    n = cf.shape[1] - 1
+    f = per_sample(check_rate(finance_rate, "finance_rate", "mirr"), cf.shape[0], "finance_rate")
+    r = per_sample(check_rate(reinvest_rate, "reinvest_rate", "mirr"), cf.shape[0],
+                   "reinvest_rate")
+    t = np.arange(n + 1, dtype=float)
+    fv_pos = np.sum(np.where(cf > 0, cf, 0.0) * (1.0 + r[:, None]) ** (n - t), axis=1)
+    pv_neg = -np.sum(np.where(cf < 0, cf, 0.0) / (1.0 + f[:, None]) ** t, axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = (fv_pos / pv_neg) ** (1.0 / n) - 1.0
+    return np.where((fv_pos > 0) & (pv_neg > 0), out, np.nan)
 
 
 # --------------------------------------------------------------------------------------------

@@ -51,7 +51,7 @@ def read_case(case: Case | str | Path) -> Case:
 def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DEFAULT_SEED,
              sobol_base: int = DEFAULT_SOBOL_BASE, sobol_output: str = "lcoe_real_per_kwh",
              screen: bool = False, method: str = "lhs", chunk_size: int = 1000,
-             progress=None) -> RunResult:
+             progress=None, workers: int = 1, scheduler: str | None = None) -> RunResult:
     """Run a case: the deterministic case and, when it has uncertain inputs, the study.
 
     Parameters
@@ -75,6 +75,10 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
         Trials per model call (memory bound; results do not depend on it).
     progress : callable, optional
         ``progress(stage, done, total)``; ``total == 0`` names a phase as it starts.
+    workers : int
+        Monte Carlo on a local dask cluster of that many worker processes (1 = serial).
+    scheduler : str, optional
+        Monte Carlo on an existing dask scheduler (``tcp://HOST:PORT``).
 
     Returns
     -------
@@ -110,13 +114,13 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
             extras["resource_information"] = resource_information_value(case, base, spec)
     n = (DEFAULT_SAMPLES if not spec.is_empty else 0) if samples is None else samples
     if n:
-        from .uncertainty.study import run_study
+        from .study.case_study import run_study
 
         collectors = (bank.collector(case),) if bank is not None else ()
         targets = bank.sensitivity_targets(case) if bank is not None else None
         unc, sens = run_study(case, site, spec, n, seed, sobol_base, sobol_output, screen,
                               chunk_size, method, collectors=collectors, progress=progress,
-                              targets=targets)
+                              targets=targets, workers=workers, scheduler=scheduler)
         extras["uncertainty"] = unc
         if sens is not None:
             extras["sensitivity"] = sens

@@ -1,47 +1,34 @@
 """``lcoe sweep``: many sites x many technologies, each with its full Monte Carlo.
 
-Orchestration only: the plan is read by :mod:`lcoe.sweep_plan`, each chunk of trials is
-evaluated by :func:`lcoe.sweep_trials.evaluate_chunk` (common random numbers), the files are
-written by :mod:`lcoe.export.sweep_outputs`.
+Orchestration only: the plan is read by :mod:`lcoe.sweep_plan`, the trials are drawn and
+evaluated by the study layer (:mod:`lcoe.study`: one trial design, one sharing rule, one
+executor), the files are written by :mod:`lcoe.export.sweep_outputs`.
 
 Execution: serial in this process (``workers=1``, or when dask is not installed), on a local
 dask.distributed cluster of worker processes bound to 127.0.0.1 (``workers > 1``), or on an
-existing cluster (``scheduler="tcp://HOST:PORT"``). The work is split per site x technology x
-chunk of trials and each chunk's random numbers come from the sweep's seed and the chunk's
-position, so the numbers are bit-identical whichever way the sweep runs. A failed task is
-retried once; a site x technology with a chunk that still fails is reported (site, technology,
-error) and left out of the table, while the other results are written.
-
-With ``--scheduler``, the workers must have lcoe installed and see the plan's weather files at
-the same paths (sites given by monthly values need no file). Start them with
-``distributed.worker.profile.enabled: false`` and without ``MALLOC_TRIM_THRESHOLD_`` in their
-environment for full speed (see :func:`local_cluster`).
+existing cluster (``scheduler="tcp://HOST:PORT"``). The numbers are bit-identical whichever way
+the sweep runs and whatever the chunk size. A failed task is retried once; a site x technology
+with a chunk that still fails is reported (site, technology, error) and left out of the table,
+while the other results are written.
 """
 
 from __future__ import annotations
 
-import re
 import sys
 import time
-import uuid
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
+from .study import SHARING_RULE
+from .study.executor import ATTEMPTS
+from .study.trials import evaluate_chunk, evaluate_runs
 from .sweep_plan import SweepPlan, load_plan
-from .sweep_trials import ChunkResult, ChunkTask, evaluate_chunk, prob_cheapest
 
-#: Seconds to wait for an existing dask scheduler to answer.
-CONNECT_TIMEOUT_S = 5.0
-#: Attempts per task (the first run and one retry).
-ATTEMPTS = 2
 #: Percentiles of the table (a fraction of 1).
 Q_LOW, Q_HIGH = 0.10, 0.90
-DASK_MISSING_NOTE = ("dask.distributed is not installed (pip install -e '.[distributed]'): "
-                     "ran serially in this process")
 
 
 @dataclass(frozen=True)
@@ -178,222 +165,26 @@ class SweepResult:
     voi: list = field(default_factory=list)
 
 
-def make_tasks(plan: SweepPlan) -> list[ChunkTask]:
-    """Every site x technology x chunk of the plan, run-major."""
-    return [ChunkTask(run_index=i, run=run, chunk_index=c, start=a, stop=b, seed=plan.seed,
-                      input_names=plan.input_names, corr=plan.corr, life_max=plan.life_max,
-                      method=plan.method)
-            for i, run in enumerate(plan.runs) for c, (a, b) in enumerate(plan.chunks)]
-
-
-def _one_line(exc: BaseException) -> str:
-    return f"{type(exc).__name__}: {' '.join(str(exc).split())}"
-
-
-def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None):
-    """Run ``fn(task)`` for every task in this process, each tried up to :data:`ATTEMPTS` times.
-
-    Returns
-    -------
-    results : list
-        ``fn``'s result per task, None where it failed.
-    errors : dict of int to str
-        Task position -> one-line error of the last attempt.
-    """
-    results, errors = [None] * len(tasks), {}
-    for i, task in enumerate(tasks):
-        for _ in range(ATTEMPTS):
-            try:
-                results[i] = fn(task)
-                errors.pop(i, None)
-                break
-            except Exception as exc:  # reported with its site and technology, not raised
-                errors[i] = _one_line(exc)
-        if progress:
-            progress(i + 1, len(tasks))
-    return results, errors
-
-
-def run_batch(fn: Callable, batch: Sequence) -> list:
-    """Run ``fn`` on each task of a batch in one worker call, each tried up to ATTEMPTS times.
-
-    Returns a list of ``(result, None)`` or ``(None, one-line error)`` in batch order.
-    """
-    results, errors = run_serial(batch, fn)
-    return [(r, errors.get(i)) for i, r in enumerate(results)]
-
-
-#: Batches per worker: a dask task carries several chunks, so that scheduling and transfer cost
-#: little next to the model (one chunk takes tens of milliseconds), while the batches still
-#: balance the load.
-BATCHES_PER_WORKER = 4
-
-
-def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | None = None,
-                  affinity: Callable | None = None):
-    """Run ``fn(task)`` for every task on a dask.distributed client, one retry per task.
+def prob_cheapest(lcoe: np.ndarray) -> np.ndarray:
+    """Probability of each technology being the cheapest, trial by trial.
 
     Parameters
     ----------
-    client : distributed.Client
-    tasks : sequence
-    fn : callable
-    progress : callable, optional
-        ``progress(done, total)``.
-    affinity : callable, optional
-        ``affinity(task) -> key``: tasks with the same key go into the same batches, so that a
-        worker prepares what they share (a site's weather) once. Tasks are sent in batches of
-        several (:data:`BATCHES_PER_WORKER` per worker); a failing task is retried on its own
-        and reported alone.
+    lcoe : numpy.ndarray
+        (n_trials, k) LCOE of k technologies at one site; row i is trial i of each, drawn by
+        the one trial design [currency/kWh].
 
     Returns
     -------
-    Same as :func:`run_serial`.
+    numpy.ndarray
+        (k,) fraction of trials in which each column is the lowest (a tie goes to the first
+        column) [-]; sums to 1.
     """
-    from distributed import as_completed
-
-    token = uuid.uuid4().hex[:12]
-    workers = sorted(client.scheduler_info().get("workers", {}))
-    order = sorted(range(len(tasks)), key=lambda i: (str(affinity(tasks[i])), i)) \
-        if affinity is not None else list(range(len(tasks)))
-    size = max(1, -(-len(tasks) // max(1, BATCHES_PER_WORKER * max(1, len(workers)))))
-    batches = [order[a:a + size] for a in range(0, len(order), size)]
-    futures = []
-    for b, members in enumerate(batches):
-        where = {}
-        if workers:
-            where = {"workers": [workers[b % len(workers)]], "allow_other_workers": True}
-        futures.append(client.submit(run_batch, fn, [tasks[i] for i in members],
-                                     key=f"lcoe-sweep-{token}-{b}", retries=ATTEMPTS - 1,
-                                     pure=False, **where))
-    position = {f.key: b for b, f in enumerate(futures)}
-    results, errors = [None] * len(tasks), {}
-    done = 0
-    try:
-        for fut in as_completed(futures):
-            members = batches[position[fut.key]]
-            if fut.status == "finished":
-                for i, (res, err) in zip(members, fut.result()):
-                    results[i] = res
-                    if err is not None:
-                        errors[i] = err
-            else:
-                try:
-                    exc = fut.exception()
-                except BaseException as cancelled:  # a cancelled task has no exception
-                    if isinstance(cancelled, KeyboardInterrupt):
-                        raise
-                    exc = cancelled
-                for i in members:
-                    errors[i] = _one_line(exc)
-            fut.release()
-            done += len(members)
-            if progress:
-                progress(done, len(tasks))
-    finally:
-        client.cancel([f for f in futures if not f.done()])
-    return results, errors
-
-
-def _site_of(task):
-    """Affinity key of a chunk: its site (a worker prepares each site's weather once)."""
-    return getattr(getattr(task, "run", None), "site", None)
-
-
-def connect(address: str, timeout_s: float = CONNECT_TIMEOUT_S):
-    """A dask.distributed client of the scheduler at ``address`` (``tcp://HOST:PORT``).
-
-    Raises
-    ------
-    InputError
-        Malformed address, dask missing, or no scheduler answering within ``timeout_s``.
-    """
-    if not re.fullmatch(r"(tcp|tls)://(\[[0-9a-fA-F:]+\]|[A-Za-z0-9_.-]+):\d{1,5}", address):
-        raise InputError(f"--scheduler {address!r}: expected an address such as "
-                         f"tcp://127.0.0.1:8786")
-    try:
-        from distributed import Client
-    except ImportError:
-        raise InputError(f"--scheduler {address}: dask.distributed is not installed "
-                         f"(pip install -e '.[distributed]')") from None
-    try:
-        return Client(address, timeout=timeout_s)
-    except (OSError, TimeoutError) as exc:
-        raise InputError(f"--scheduler {address}: no dask scheduler answered within "
-                         f"{timeout_s:g} s ({' '.join(str(exc).split())[:120]}); check the "
-                         f"address and that the scheduler is running") from None
-
-
-def local_cluster(workers: int):
-    """A LocalCluster of ``workers`` single-threaded processes on 127.0.0.1, no dashboard."""
-    import logging
-
-    import dask
-    from distributed import LocalCluster
-
-    # Two worker defaults slow this model down, measured on 24 chunks of a 4-site sweep with one
-    # worker (serial in this process: 3.2 s): MALLOC_TRIM_THRESHOLD_ in the workers' environment
-    # (it pins glibc's mmap threshold, so every (n, 8760) hourly temporary is a fresh mmap whose
-    # pages fault in again; 8.6 s with it) and the sampling profiler (a thread walking every stack
-    # every 10 ms; 7.4 s with it). Without both: 3.3 s. The workers keep one BLAS/OpenMP thread
-    # each. Task failures are reported by the sweep itself, so the workers' logs are silenced.
-    environ = {k: v for k, v in dask.config.get("distributed.nanny.pre-spawn-environ",
-                                                {}).items() if k != "MALLOC_TRIM_THRESHOLD_"}
-    with dask.config.set({"distributed.nanny.pre-spawn-environ": environ,
-                          "distributed.worker.profile.enabled": False}):
-        # The scheduler always serves a small HTTP API: bind it to 127.0.0.1 on a free port
-        # (not the default 8787, which may be taken) and leave the dashboard off.
-        return LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                            host="127.0.0.1", dashboard_address="127.0.0.1:0",
-                            scheduler_kwargs={"dashboard": False},
-                            silence_logs=logging.CRITICAL)
-
-
-def execute(tasks: Sequence, fn: Callable = evaluate_chunk, workers: int = 1,
-            scheduler: str | None = None, progress: Callable | None = None):
-    """Run the tasks the requested way.
-
-    Parameters
-    ----------
-    tasks : sequence
-    fn : callable
-        Top-level function ``fn(task) -> result`` (importable by the workers).
-    workers : int
-        1: serial in this process; more: a local cluster of that many worker processes.
-    scheduler : str, optional
-        Address of an existing scheduler (overrides ``workers``).
-    progress : callable, optional
-        ``progress(done, total)`` after each task.
-
-    Returns
-    -------
-    results : list
-    errors : dict of int to str
-    execution : str
-        What ran (for the report).
-    notes : list of str
-    """
-    if workers < 1:
-        raise InputError(f"--workers {workers}: expected a whole number >= 1")
-    if scheduler:
-        client = connect(scheduler)
-        try:
-            n = len(client.scheduler_info().get("workers", {}))
-            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
-        finally:
-            client.close()
-        return results, errors, f"dask scheduler {scheduler} ({n} workers)", []
-    if workers > 1:
-        try:
-            from distributed import Client
-        except ImportError:
-            results, errors = run_serial(tasks, fn, progress)
-            return results, errors, "serial (in process)", [DASK_MISSING_NOTE]
-        with local_cluster(workers) as cluster, Client(cluster) as client:
-            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
-        return results, errors, f"local dask cluster, {workers} worker processes", []
-    results, errors = run_serial(tasks, fn, progress)
-    return results, errors, "serial (in process)", []
+    lcoe = np.asarray(lcoe, dtype=float)
+    if lcoe.ndim != 2 or lcoe.shape[0] == 0 or lcoe.shape[1] == 0:
+        raise ValueError(f"lcoe has shape {lcoe.shape}: expected (n_trials >= 1, k >= 1)")
+    wins = np.bincount(np.argmin(lcoe, axis=1), minlength=lcoe.shape[1])
+    return wins / lcoe.shape[0]
 
 
 def _sites_note(names: list, n_sites: int, note: str) -> str:
@@ -402,42 +193,30 @@ def _sites_note(names: list, n_sites: int, note: str) -> str:
     return f"{where}: {note}"
 
 
-def summarise(plan: SweepPlan, tasks: Sequence[ChunkTask], results: Sequence,
-              errors: dict) -> tuple[list, list, list, dict, list]:
-    """Assemble chunk results into the table, the site summaries and the failures.
+def summarise(plan: SweepPlan, out) -> tuple[list, list, list, dict, list]:
+    """Assemble the study's outputs into the table, the site summaries and the failures.
 
     Returns
     -------
     rows, sites, failures, trials, notes
     """
-    by_run: dict[int, list] = {i: [None] * len(plan.chunks) for i in range(len(plan.runs))}
-    failed: dict[int, Failure] = {}
-    site_notes: dict[str, list] = {}
-    for pos, task in enumerate(tasks):
-        res: ChunkResult | None = results[pos]
-        if res is None:
-            if task.run_index not in failed:
-                failed[task.run_index] = Failure(site=task.run.site,
-                                                 technology=task.run.technology,
-                                                 chunk=task.chunk_index, attempts=ATTEMPTS,
-                                                 error=errors.get(pos, "no result"))
-            continue
-        by_run[task.run_index][task.chunk_index] = res
-        for note in res.notes:
-            names = site_notes.setdefault(note, [])
-            if task.run.site not in names:
-                names.append(task.run.site)
-    notes = [_sites_note(names, len(plan.sites), note) for note, names in site_notes.items()]
+    failed = {m: Failure(site=plan.runs[m].site, technology=plan.runs[m].technology,
+                         chunk=chunk, attempts=ATTEMPTS, error=err)
+              for m, (chunk, err) in out.errors.items()}
+    site_of = {r.label: plan.runs[i].site for i, r in enumerate(plan.study_runs)}
+    notes = []
+    for note, labels in out.site_notes.items():
+        names = list(dict.fromkeys(site_of[label] for label in labels))
+        notes.append(_sites_note(names, len(plan.sites), note))
     trials = {}
     for i, run in enumerate(plan.runs):
-        if i in failed:
+        o = out.outputs[i]
+        if o is None:
             continue
-        parts = by_run[i]
         trials[(run.site, run.technology)] = RunTrials(
-            names=parts[0].names, X=np.concatenate([p.X for p in parts]),
-            lcoe_real=np.concatenate([p.lcoe_real for p in parts]),
-            lcoe_nominal=np.concatenate([p.lcoe_nominal for p in parts]),
-            energy_kwh=np.concatenate([p.energy_kwh for p in parts]))
+            names=tuple(plan.study_runs[i].spec.names), X=o["X"],
+            lcoe_real=o["lcoe_real_per_kwh"], lcoe_nominal=o["lcoe_nominal_per_kwh"],
+            energy_kwh=o["energy_kwh"])
     rows, sites = [], []
     for site in plan.sites:
         techs = [t.label for t in plan.technologies if (site.name, t.label) in trials]
@@ -454,7 +233,7 @@ def summarise(plan: SweepPlan, tasks: Sequence[ChunkTask], results: Sequence,
                 lcoe_real_mean=float(tr.lcoe_real.mean()),
                 lcoe_nominal_q50=float(np.quantile(tr.lcoe_nominal, 0.5)),
                 energy_p50_kwh=float(np.quantile(tr.energy_kwh, 0.5)),
-                energy_p90_kwh=float(np.quantile(tr.energy_kwh, 1.0 - Q_HIGH)),
+                energy_p90_kwh=float(np.quantile(tr.energy_kwh, Q_LOW)),  # exceeded 90 %
                 prob_cheapest=float(p)))
         best = int(np.argmax(probs)) if techs else None
         sites.append(SiteSummary(
@@ -482,7 +261,7 @@ def run_sweep(plan: SweepPlan | str | Path, workers: int = 1, scheduler: str | N
     progress : callable, optional
         ``progress(done, total)`` over tasks.
     fn : callable
-        Chunk evaluator (default :func:`lcoe.sweep_trials.evaluate_chunk`).
+        Chunk evaluator (default :func:`lcoe.study.trials.evaluate_chunk`).
 
     Returns
     -------
@@ -492,13 +271,14 @@ def run_sweep(plan: SweepPlan | str | Path, workers: int = 1, scheduler: str | N
 
     if not isinstance(plan, SweepPlan):
         plan = load_plan(plan)
-    tasks = make_tasks(plan)
     t0 = time.perf_counter()
-    results, errors, execution, notes = execute(tasks, fn, workers, scheduler, progress)
+    out = evaluate_runs(plan.design, plan.study_runs, plan.chunk_trials, workers, scheduler,
+                        progress, fn)
     elapsed = time.perf_counter() - t0
-    rows, sites, failures, trials, run_notes = summarise(plan, tasks, results, errors)
+    rows, sites, failures, trials, run_notes = summarise(plan, out)
     return SweepResult(plan=plan, rows=rows, sites=sites, failures=failures, trials=trials,
-                       execution=execution, notes=list(plan.notes) + run_notes + notes,
+                       execution=out.execution,
+                       notes=[SHARING_RULE] + list(plan.notes) + run_notes + out.notes,
                        provenance=provenance(plan.seed), elapsed_s=elapsed)
 
 
@@ -559,19 +339,14 @@ def _cmd_sweep(args) -> int:
 
 def add_sweep_options(s) -> None:
     """Arguments and options of ``lcoe sweep`` on its subparser ``s``."""
-    from .cli import _non_negative_int
+    from .compare_cli import add_execution_options
 
     s.description = ("Run every site x technology of a sweep plan with its full Monte Carlo. "
                      "Exit status 2 for bad input (nothing written), 1 when some runs failed "
                      "(the rest is written).")
     s.add_argument("plan", help="sweep plan (.toml)")
     s.add_argument("--out", help="output folder (default outputs/<plan name>)")
-    how = s.add_mutually_exclusive_group()
-    how.add_argument("--workers", type=_non_negative_int, default=1, metavar="N",
-                     help="worker processes on a local dask cluster bound to 127.0.0.1 "
-                          "(default 1 = serial in this process)")
-    how.add_argument("--scheduler", metavar="ADDRESS",
-                     help="submit to an existing dask scheduler, e.g. tcp://127.0.0.1:8786")
+    add_execution_options(s)
     s.add_argument("--force", action="store_true",
                    help="replace an output folder written by lcoe before, as a whole")
     s.add_argument("--quiet", action="store_true", help="print nothing but errors")

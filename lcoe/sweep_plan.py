@@ -24,10 +24,15 @@ a site x technology is that file with its ``[site]`` table replaced by the plan'
 in a case file, with the plan and the site named as the source. The ``[uncertain]`` tables are
 merged key by key (``[uncertain.energy]`` too), the plan winning.
 
-Common random numbers need one joint distribution of uniforms for the whole sweep: the rank
-correlations of all runs are merged into one matrix over the union of the uncertain inputs.
-The same pair with two different ranks is an error; a pair given for one technology also
-applies to another that has both inputs (a note says so).
+Uncertainty follows the study's one sharing rule (:mod:`lcoe.study`): the plan's
+``[uncertain]`` inputs are declared once for the whole sweep (one draw per trial for every
+site x technology that has the input; a technology may repeat the same distribution, a
+different one is refused); the plan's ``[uncertain.energy]`` may give the sites' weather
+uncertainty (``interannual_cov``, ``resource_sd``), which replaces the technologies' values
+(they describe the technology file's own site); everything else a technology declares is its
+own, drawn independently for every site x technology. ``[[correlation]]`` pairs of the plan
+name two shared inputs, two inputs within every run that has both, or two technologies' own
+inputs as ``"<technology>/<input>"`` (linked at every site).
 """
 
 from __future__ import annotations
@@ -37,16 +42,17 @@ import hashlib
 import json
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 
 from .case import Case, case_from_dict, load_case, read_toml
 from .errors import InputError, field_error, unknown_key_error
-from .uncertainty.sampling import correlation_matrix
-from .uncertainty.spec import UncertainSpec, read_spec
+from .study.design import TrialDesign, build_design, chunk_bounds
+from .study.shared import check_used, merge_uncertain, read_pairs, resolve_pairs
+from .study.trials import StudyRun
+from .uncertainty.spec import UncertainSpec, read_spec, valid_paths
 
 #: Keys of the ``[sweep]`` table.
 SWEEP_KEYS = ("samples", "seed", "technologies", "chunk_trials", "method")
@@ -56,6 +62,8 @@ PLAN_KEYS = ("sweep", "sites", "uncertain", "correlation")
 DEFAULT_SAMPLES = 500
 DEFAULT_SEED = 20261201
 DEFAULT_CHUNK_TRIALS = 250
+#: ``[uncertain.energy]`` keys a plan may give: the weather of its sites.
+SITE_ENERGY_KEYS = ("interannual_cov", "resource_sd")
 #: Longest site name accepted [characters] (names label table rows and chart ticks).
 MAX_NAME_LENGTH = 60
 
@@ -116,6 +124,8 @@ class RunDef:
     raw : dict
         The full case as nested TOML tables (site replaced, uncertainty merged).
     lifetime_years : int
+    shared : tuple of str
+        The plan's shared inputs this run takes.
     """
 
     site: str
@@ -124,6 +134,7 @@ class RunDef:
     base_dir: str
     raw: dict
     lifetime_years: int
+    shared: tuple = ()
 
     def case(self) -> Case:
         """The validated :class:`~lcoe.case.Case` of this run."""
@@ -151,12 +162,10 @@ class SweepPlan:
     sites : tuple of SweepSite
     runs : tuple of RunDef
         Site-major order: every technology of the first site, then the second site, ...
-    input_names : tuple of str
-        Union of the sampled inputs of all runs (columns of the common uniforms).
-    corr : numpy.ndarray or None
-        (d, d) rank correlation over ``input_names``; None when no pair is given.
-    life_max : int
-        Longest lifetime of any run [years] (columns of the common year-to-year draws).
+    study_runs : tuple of StudyRun
+        The same runs as the study layer evaluates them.
+    design : TrialDesign
+        The sweep's trial design (sharing rule, correlations, seed).
     currency : str
     notes : tuple of str
     """
@@ -170,9 +179,8 @@ class SweepPlan:
     technologies: tuple
     sites: tuple
     runs: tuple
-    input_names: tuple
-    corr: np.ndarray | None
-    life_max: int
+    study_runs: tuple
+    design: TrialDesign
     currency: str
     notes: tuple = field(default_factory=tuple)
 
@@ -181,25 +189,10 @@ class SweepPlan:
         """(start, stop) trial indices of every chunk (same for every run)."""
         return chunk_bounds(self.samples, self.chunk_trials)
 
-
-def chunk_bounds(n: int, chunk_trials: int) -> tuple[tuple[int, int], ...]:
-    """Split ``n`` trials into ceil(n / chunk_trials) chunks whose sizes differ by at most 1.
-
-    Parameters
-    ----------
-    n : int
-        Number of trials (>= 1).
-    chunk_trials : int
-        Largest chunk (>= 1).
-
-    Returns
-    -------
-    tuple of (int, int)
-        (start, stop) of each chunk, covering 0..n in order.
-    """
-    k = -(-n // chunk_trials)
-    edges = [i * n // k for i in range(k + 1)]
-    return tuple((edges[i], edges[i + 1]) for i in range(k))
+    @property
+    def input_names(self) -> tuple:
+        """Every sampled input of the runs, in order of first appearance."""
+        return tuple(dict.fromkeys(n for r in self.study_runs for n in r.spec.names))
 
 
 def raw_sha256(raw: Mapping) -> str:
@@ -241,24 +234,24 @@ def load_plan(path: str | Path) -> SweepPlan:
     techs, tech_raw = _read_technologies(sweep.get("technologies"), src, base_dir)
     sites = _read_sites(data.get("sites"), src)
     plan_unc = _table(data.get("uncertain"), "uncertain", src)
-    plan_pairs = _read_pairs(data.get("correlation", []), src)
-    runs, specs = [], []
+    plan_energy = _plan_energy(plan_unc.pop("energy", None), src)
+    plan_pairs = read_pairs(data.get("correlation", []), src)
+    runs, study_runs = [], []
     for site in sites:
         for tech in techs:
-            run, spec = _build_run(site, tech, tech_raw[tech.label], plan_unc, plan_pairs,
+            run, spec = _build_run(site, tech, tech_raw[tech.label], plan_unc, plan_energy,
                                    src, base_dir)
             runs.append(run)
-            specs.append(spec)
-    names = tuple(dict.fromkeys(n for s in specs for n in s.names))
-    _check_plan_pairs(plan_pairs, names, src)
-    corr, notes = _common_correlation(runs, specs, names, src)
-    if corr is not None:
-        smallest = min(b - a for a, b in chunk_bounds(samples, chunk_trials))
-        if smallest <= len(names):
-            raise InputError(f"{src}: sweep.chunk_trials = {chunk_trials} with sweep.samples = "
-                             f"{samples} gives chunks of {smallest} trials: expected more trials "
-                             f"per chunk than the {len(names)} uncertain inputs that the rank "
-                             f"correlation reorders")
+            study_runs.append(StudyRun(label=f"{site.name} / {tech.label}",
+                                       case_label=tech.label, site=site.name, case=run.case(),
+                                       spec=spec, shared=frozenset(run.shared)))
+    check_used(plan_unc, [frozenset(r.shared) for r in runs], src,
+               [t.path for t in techs])
+    members = [r.member() for r in study_runs]
+    by_site = [[i for i, r in enumerate(runs) if r.site == s.name] for s in sites]
+    cross = resolve_pairs(plan_pairs, members, src, groups=by_site)
+    design = build_design(members, samples, seed, method, cross, source=src)
+    notes = []
     currencies = {t.label: case_currency(tech_raw[t.label]) for t in techs}
     if len(set(currencies.values())) > 1:
         raise InputError(f"{src}: sweep.technologies use different currencies ({currencies}); "
@@ -277,7 +270,7 @@ def load_plan(path: str | Path) -> SweepPlan:
     return SweepPlan(path=src, sha256=hashlib.sha256(raw_bytes).hexdigest(), samples=samples,
                      seed=seed, chunk_trials=chunk_trials, method=method,
                      technologies=tuple(techs), sites=tuple(sites), runs=tuple(runs),
-                     input_names=names, corr=corr, life_max=max(r.lifetime_years for r in runs),
+                     study_runs=tuple(study_runs), design=design,
                      currency=next(iter(currencies.values())), notes=tuple(notes))
 
 
@@ -355,97 +348,38 @@ def _float_or_nan(v: Any) -> float:
     return float(v) if ok else math.nan  # the case validation reports a bad value
 
 
-def _read_pairs(value: Any, src: str) -> list[dict]:
-    if not isinstance(value, list):
-        raise field_error(src, "correlation", value, "a list of [[correlation]] tables")
-    for i, entry in enumerate(value):
-        ok = isinstance(entry, Mapping) and set(entry) == {"between", "rank"}
-        between = entry.get("between") if ok else None
-        if not (ok and isinstance(between, list) and len(between) == 2 and
-                all(isinstance(b, str) for b in between) and between[0] != between[1]):
-            raise field_error(src, f"correlation[{i}]", entry,
-                              "a table with between = [input_a, input_b] and rank = r")
-        rank = entry["rank"]
-        if isinstance(rank, bool) or not isinstance(rank, (int, float)) or \
-                not -1.0 <= rank <= 1.0:
-            raise field_error(src, f"correlation[{i}].rank", rank, "a number in [-1, 1]")
-    return [dict(e) for e in value]
-
-
-def _merge_uncertain(tech: Mapping, plan: Mapping) -> dict:
-    """The technology's ``[uncertain]`` with the plan's keys on top (energy merged by key)."""
-    out = copy.deepcopy(dict(tech))
-    for key, value in plan.items():
-        if key == "energy" and isinstance(value, Mapping) and isinstance(out.get(key), Mapping):
-            out[key] = {**out[key], **copy.deepcopy(dict(value))}
-        else:
-            out[key] = copy.deepcopy(value)
-    return out
-
-
-def _pair_key(entry: Mapping) -> frozenset:
-    return frozenset(entry["between"])
+def _plan_energy(value: Any, src: str) -> dict:
+    """The plan's ``[uncertain.energy]``: only the sites' weather uncertainty."""
+    if value is None:
+        return {}
+    if not isinstance(value, Mapping):
+        raise field_error(src, "uncertain.energy", value, "a table [uncertain.energy]")
+    for key in value:
+        if key not in SITE_ENERGY_KEYS:
+            raise field_error(src, f"uncertain.energy.{key}", value[key],
+                              "only the sites' weather (interannual_cov, resource_sd); a "
+                              "technology's energy-model uncertainty (model_sd, ...) is its "
+                              "own: give it in the technology file")
+    return dict(value)
 
 
 def _build_run(site: SweepSite, tech: Technology, tech_raw: Mapping, plan_unc: Mapping,
-               plan_pairs: list, src: str, base_dir: Path) -> tuple[RunDef, UncertainSpec]:
+               plan_energy: Mapping, src: str, base_dir: Path) -> tuple[RunDef, UncertainSpec]:
     """Build and validate the case of one site x technology."""
     source = f"{src} (site '{site.name}', technology '{tech.label}')"
     raw = copy.deepcopy(dict(tech_raw))
     raw["site"] = copy.deepcopy(site.table)
-    raw["uncertain"] = _merge_uncertain(tech_raw.get("uncertain", {}), plan_unc)
-    overridden = {_pair_key(e) for e in plan_pairs}
-    own = [e for e in raw.get("correlation", [])
-           if not (isinstance(e, Mapping) and isinstance(e.get("between"), list)
-                   and all(isinstance(b, str) for b in e["between"])
-                   and _pair_key(e) in overridden)]
-    raw["correlation"] = []
+    own = dict(tech_raw.get("uncertain", {}))
+    energy = {**dict(own.pop("energy", {}) or {}), **plan_energy}
+    raw["uncertain"] = own
     case0 = case_from_dict(raw, source=source, base_dir=base_dir)
-    names = set(read_spec(replace(case0, correlation=())).names)
-    pairs = own + [copy.deepcopy(e) for e in plan_pairs if set(e["between"]) <= names]
-    raw["correlation"] = pairs
-    spec = read_spec(replace(case0, correlation=tuple(pairs)))
+    merged, used = merge_uncertain(own, plan_unc, valid_paths(case0), src, tech.path)
+    if energy:
+        merged["energy"] = energy
+    raw["uncertain"] = merged
+    case = case_from_dict(raw, source=source, base_dir=base_dir)
+    spec = read_spec(case)
     run = RunDef(site=site.name, technology=tech.label, source=source, base_dir=str(base_dir),
-                 raw=raw, lifetime_years=int(case0["case.lifetime_years"]))
+                 raw=raw, lifetime_years=int(case["case.lifetime_years"]),
+                 shared=tuple(sorted(used)))
     return run, spec
-
-
-def _check_plan_pairs(plan_pairs: list, names: tuple, src: str) -> None:
-    """A plan-level pair must name inputs that some run samples."""
-    if plan_pairs:
-        correlation_matrix(names, [(*e["between"], float(e["rank"])) for e in plan_pairs],
-                           src, key="correlation")
-
-
-def _common_correlation(runs, specs, names: tuple, src: str):
-    """One rank-correlation matrix over ``names`` for the whole sweep, and notes."""
-    given: dict[frozenset, tuple[float, str]] = {}
-    per_run: list[set] = []
-    for run in runs:
-        explicit = set()
-        for e in run.raw["correlation"]:
-            key, rank = _pair_key(e), float(e["rank"])
-            explicit.add(key)
-            if key in given and given[key][0] != rank:
-                a, b = sorted(key)
-                raise InputError(f"{src}: correlation between {a} and {b} is {given[key][0]:g} "
-                                 f"in technology '{given[key][1]}' but {rank:g} in "
-                                 f"'{run.technology}'; common random numbers need one value "
-                                 f"for the whole sweep (set it once in the plan)")
-            given.setdefault(key, (rank, run.technology))
-        per_run.append(explicit)
-    if not given:
-        return None, []
-    pairs = [(*sorted(k), r) for k, (r, _) in given.items()]
-    corr = correlation_matrix(names, pairs, src, key="correlation (all technologies)")
-    notes = []
-    for run, spec, explicit in zip(runs, specs, per_run):
-        have = set(spec.names)
-        for key, (rank, origin) in given.items():
-            if key <= have and key not in explicit:
-                a, b = sorted(key)
-                note = (f"rank correlation {rank:g} between {a} and {b} (from technology "
-                        f"'{origin}') also applies to technology '{run.technology}'")
-                if note not in notes:
-                    notes.append(note)
-    return corr, notes

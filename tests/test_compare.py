@@ -11,10 +11,10 @@ import pytest
 from conftest import MINIMAL_CASE, write_case
 
 from lcoe.case import load_case
-from lcoe.compare import build_design, drivers, run_comparison
+from lcoe.compare import build_design, drivers, run_comparison, study_runs
 from lcoe.errors import InputError
 from lcoe.model import cash_flow, evaluate, prepare
-from lcoe.uncertainty.spec import read_spec
+from lcoe.study.shared import SharedInputs
 
 UNCERTAIN = """
 [uncertain]
@@ -25,6 +25,18 @@ UNCERTAIN = """
 interannual_cov = 0.04
 resource_sd = 0.04
 """
+
+
+def _shared(*paths, pairs=()):
+    """Declare some of UNCERTAIN's inputs once for the whole comparison."""
+    import tomllib
+
+    table = tomllib.loads(UNCERTAIN)["uncertain"]
+    return SharedInputs(source="shared.toml", uncertain={p: table[p] for p in paths},
+                        pairs=list(pairs))
+
+
+ALL_SHARED = ("costs.capex_per_kw", "finance.discount_rate", "plant.dc_loss_fraction")
 
 
 def _case(tmp_path, name, extra="", uncertain=UNCERTAIN, plant=""):
@@ -39,11 +51,13 @@ def tmp(tmp_path_factory):
 
 
 def test_identical_cases_give_ratio_one_in_every_trial(tmp):
-    # Analytic consequence of common random numbers: a case compared with a copy of itself
-    # (different name only) draws the same values, so its LCOE ratio is 1 in every trial, the
-    # claim "at most 1x" holds always and the break-even capex is the trial's own capex.
+    # Analytic consequence of the sharing rule: a case compared with a copy of itself at the
+    # same site, every input declared once for the comparison, draws the same values, so its
+    # LCOE ratio is 1 in every trial, the claim "at most 1x" holds always and the break-even
+    # capex is the trial's own capex.
     a, b = _case(tmp, "a"), _case(tmp, "b")
-    r = run_comparison([a, b], samples=64, seed=3, claim_ratio=1.0, sobol_base=0)
+    r = run_comparison([a, b], samples=64, seed=3, claim_ratio=1.0, sobol_base=0,
+                       shared=_shared(*ALL_SHARED))
     claim = r.claims[0]
     np.testing.assert_allclose(claim.ratio, 1.0, rtol=1e-12)
     assert claim.stats["prob_claim_holds"] == 1.0
@@ -51,16 +65,29 @@ def test_identical_cases_give_ratio_one_in_every_trial(tmp):
     assert all(col.shared for col in r.design.columns)
 
 
+def test_own_inputs_are_independent_unless_shared(tmp):
+    # Without a shared declaration the two cases' identical inputs are each their own: the
+    # same case twice then gives a ratio that varies (probability about 1/2 each way).
+    a, b = _case(tmp, "a"), _case(tmp, "b")
+    r = run_comparison([a, b], samples=400, seed=3, claim_ratio=1.0, sobol_base=0)
+    assert 0.4 < r.claims[0].stats["prob_claim_holds"] < 0.6
+    kinds = {c.dist.name: c.kind for c in r.design.columns}
+    assert kinds["energy.resource [bundled weather]"] == "site"
+    assert kinds["costs.capex_per_kw [a]"] == kinds["costs.capex_per_kw [b]"] == "run"
+
+
 def test_shared_and_case_specific_columns(tmp):
-    # The design: same path and distribution -> one column; a different distribution -> one
-    # column per case, labelled with the case; a persistent energy component shared by sd.
+    # The design: a shared input -> one column; a case's own input -> one column per case,
+    # labelled with the case; the site's resource factor is one column for both cases.
     a = _case(tmp, "a")
     b = _case(tmp, "b", uncertain=UNCERTAIN.replace("high = 1200", "high = 1500"))
-    d = build_design([a, b], [read_spec(a), read_spec(b)])
+    shared = _shared("finance.discount_rate", "plant.dc_loss_fraction")
+    d = build_design(study_runs([a, b], shared), 200, 5, shared=shared)
     names = {c.dist.name: c for c in d.columns}
-    assert names["finance.discount_rate"].shared and names["energy.resource"].shared
+    assert names["finance.discount_rate"].shared
+    assert names["energy.resource [bundled weather]"].shared
     assert "costs.capex_per_kw [a]" in names and "costs.capex_per_kw [b]" in names
-    r = run_comparison([a, b], samples=200, seed=5, sobol_base=0)
+    r = run_comparison([a, b], samples=200, seed=5, sobol_base=0, shared=shared)
     capex_a, capex_b = r.cases[0].trials.capex_per_kw, r.cases[1].trials.capex_per_kw
     assert abs(np.corrcoef(capex_a, capex_b)[0, 1]) < 0.2  # independent columns
     # Analytic: the minimal case has capex as its only cost, and the cases share every energy
@@ -109,7 +136,8 @@ def test_sobol_of_the_ratio_names_the_case_specific_input(tmp):
     a = _case(tmp, "a")
     b = _case(tmp, "b", uncertain=UNCERTAIN.replace("low = 900, mode = 1000, high = 1200",
                                                     "low = 600, mode = 800, high = 1300"))
-    r = run_comparison([a, b], samples=16, seed=2, sobol_base=64)
+    r = run_comparison([a, b], samples=16, seed=2, sobol_base=64,
+                       shared=_shared("finance.discount_rate", "plant.dc_loss_fraction"))
     rows = {d["input"]: d for d in drivers(r.claims[0], top=10)}
     capex = rows["costs.capex_per_kw [b]"]["ST"] + rows["costs.capex_per_kw [a]"]["ST"]
     assert capex > 0.9
@@ -135,7 +163,8 @@ def test_conflicting_correlations_refused(tmp):
     a = _case(tmp, "a", uncertain=UNCERTAIN + pair.format(r=0.3))
     b = _case(tmp, "b", uncertain=UNCERTAIN + pair.format(r=-0.3))
     with pytest.raises(InputError, match="correlation"):
-        run_comparison([a, b], samples=10, sobol_base=0)
+        run_comparison([a, b], samples=10, sobol_base=0,
+                       shared=_shared("costs.capex_per_kw", "finance.discount_rate"))
 
 
 def test_claims_are_audited(tmp):
@@ -192,10 +221,10 @@ def test_cli_compare_needs_two_cases(tmp):
 
 
 def test_prepared_site_is_shared(tmp):
-    from lcoe.compare import share_sites
+    from lcoe.study.trials import prepared
 
     a, b = _case(tmp, "a"), _case(tmp, "b", plant="tilt_deg = 30.0")
-    s1, s2 = share_sites([a, b])
+    s1, s2 = prepared(a)[0], prepared(b)[0]
     assert s1 is s2
     assert prepare(a).weather.n_hours == s1.weather.n_hours
 

@@ -128,7 +128,38 @@ def test_irr_two_roots_reported():
     res = irr([-100, 230, -132])
     assert res.sign_changes == 2
     assert np.allclose(res.roots, [0.10, 0.20], rtol=0, atol=1e-12)
-    assert np.isnan(res.value) and res.reason == "several IRRs"
+    # analytic check (DOMAIN.md section 8): NPV is zero at both roots
+    assert abs(-100 + 230 / 1.1 - 132 / 1.1 ** 2) < 1e-12
+    assert abs(-100 + 230 / 1.2 - 132 / 1.2 ** 2) < 1e-12
+    # the investment root: NPV -2 at 0 %, +0.23 at 15 %, -0.97 at 25 %: it falls through zero
+    # at 20 % as the rate rises, so 20 % is reported, with both roots beside it
+    assert res.value == pytest.approx(0.20, abs=1e-12) and res.reason.startswith("several")
+
+
+def test_irr_only_rising_roots_has_no_investment_root():
+    # analytic: the negated flows +100, -230, +132 have the same roots, but the NPV rises
+    # through zero at 20 % and falls at 10 %; the investment root is then 10 %
+    res = irr([100, -230, 132])
+    assert res.value == pytest.approx(0.10, abs=1e-12)
+    # a borrowing-like flow (+100 then -110): NPV rises through zero at 10 %: no investment root
+    res = irr([100, -110])
+    assert np.isnan(res.value) and res.roots == [pytest.approx(0.10, abs=1e-12)]
+    assert "no investment root" in res.reason
+
+
+def test_mirr_numpy_financial_docstring_and_rows():
+    from lcoe.finance import mirr
+
+    flows = [-4500, -800, 800, 800, 600, 600, 800, 800, 700, 3000]
+    # cross-implementation: numpy_financial.mirr docstring example -> 0.0665972
+    assert mirr(flows, 0.08, 0.055)[0] == pytest.approx(0.0665972, abs=1e-7)
+    rng = np.random.default_rng(3)
+    rows = rng.uniform(-300, 300, size=(50, 12))
+    rows[:, 0] = -1000
+    rows[:, -1] = -200  # decommissioning: several sign changes
+    want = [npf.mirr(r, 0.06, 0.075) for r in rows]
+    assert np.allclose(mirr(rows, 0.06, 0.075), want, rtol=0, atol=1e-12, equal_nan=True)
+    assert np.isnan(mirr([1, 2, 3], 0.05, 0.05)[0])
 
 
 def test_irr_none_with_reasons():
@@ -176,13 +207,14 @@ def test_irr_many_mixed_rows_and_one_dimensional_input():
     )
     got = irr_many(flows)
     assert got[0] == pytest.approx(0.28094842115996, abs=1e-12)  # numpy-financial docstring
-    assert np.isnan(got[1]) and np.isnan(got[2])
-    assert np.isnan(got[3])
+    assert got[1] == pytest.approx(0.20, abs=1e-12)  # investment root of -100, 230, -132
+    assert np.isnan(got[2])
     # cross-implementation: numpy.roots of -100 y**4 + 60 y**3 + 60 y**2 + 60 y - 30 (NPV times
     # y**4, y = 1 + r); its real roots y = 0.35539 and 1.28744 give r = -64.46 % and 28.74 %
     poly = np.roots(flows[3])
     want = np.sort(poly[np.abs(poly.imag) < 1e-12].real - 1.0)
     assert np.allclose(irr(flows[3]).roots, want, rtol=0, atol=1e-10)
+    assert got[3] == pytest.approx(want[1], abs=1e-10)  # the investment root, 28.74 %
     assert irr_many(DOC_FLOWS).shape == (1,)
 
 

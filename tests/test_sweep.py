@@ -19,16 +19,11 @@ from conftest import DEMO, INPUTS
 from lcoe.case import load_case
 from lcoe.cli import main
 from lcoe.errors import InputError
-from lcoe.sweep import (
-    DASK_MISSING_NOTE,
-    execute,
-    local_cluster,
-    make_tasks,
-    run_serial,
-    run_sweep,
-)
-from lcoe.sweep_plan import chunk_bounds, load_plan
-from lcoe.sweep_trials import common_draws, prob_cheapest, yearly_factors
+from lcoe.study.design import chunk_bounds
+from lcoe.study.executor import DASK_MISSING_NOTE, execute, local_cluster, run_serial
+from lcoe.study.trials import evaluate_chunk, make_tasks, yearly_factors
+from lcoe.sweep import prob_cheapest, run_sweep
+from lcoe.sweep_plan import load_plan
 
 needs_dask = pytest.mark.skipif(importlib.util.find_spec("distributed") is None,
                                 reason="dask.distributed not installed "
@@ -68,12 +63,16 @@ def write_plan(tmp_path, text, name="plan.toml"):
     return p
 
 
+# The technologies' own distribution of the discount rate, declared once for the whole sweep.
+SHARED_RATE = ('[uncertain]\n"finance.discount_rate" = { dist = "triangular", low = 0.06, '
+               'mode = 0.075, high = 0.095 }\n"finance.inflation" = { dist = "normal", '
+               'mean = 0.025, sd = 0.005, low = 0.0, high = 0.06 }\n')
+
+
 @pytest.fixture(scope="module")
 def small_plan(tmp_path_factory):
     d = tmp_path_factory.mktemp("sweep")
-    extra = ('[uncertain]\n"finance.discount_rate" = { dist = "uniform", low = 0.05, '
-             'high = 0.09 }\n')
-    return load_plan(write_plan(d, plan_toml(extra=extra)))
+    return load_plan(write_plan(d, plan_toml(extra=SHARED_RATE)))
 
 
 @pytest.fixture(scope="module")
@@ -93,18 +92,6 @@ def test_chunk_bounds_cover_trials_evenly(n, size):
     assert max(sizes) <= size and max(sizes) - min(sizes) <= 1
 
 
-def test_common_draws_depend_only_on_seed_and_chunk():
-    corr = np.array([[1.0, 0.6], [0.6, 1.0]])
-    u1, z1 = common_draws(5, 3, 50, 2, corr, 30)
-    u2, z2 = common_draws(5, 3, 50, 2, corr, 30)
-    assert np.array_equal(u1, u2) and np.array_equal(z1, z2)
-    u3, z3 = common_draws(5, 4, 50, 2, corr, 30)
-    assert not np.allclose(u1, u3) and not np.allclose(z1, z3)
-    assert u1.shape == (50, 2) and z1.shape == (50, 30) and np.all((u1 > 0) & (u1 < 1))
-    # Latin hypercube within the chunk: one point in each of the 50 strata of every column.
-    assert all(np.array_equal(np.sort(np.floor(u1[:, j] * 50)), np.arange(50)) for j in range(2))
-
-
 def test_yearly_factors_from_common_scores():
     z = np.random.default_rng(1).standard_normal((20000, 3))
     f = yearly_factors(z, 0.04, None)
@@ -122,32 +109,39 @@ def test_shared_input_same_draw_in_every_site_and_technology(serial_result):
     trials = serial_result.trials
     assert len(trials) == 6
     rate = [t.X[:, t.names.index("finance.discount_rate")] for t in trials.values()]
-    # The plan's distribution overrides the technologies': the same values everywhere.
+    # Declared once in the plan: the same values in every site x technology.
     assert all(np.array_equal(rate[0], r) for r in rate[1:])
-    assert rate[0].min() >= 0.05 and rate[0].max() <= 0.09
-    # Capex has a different distribution per technology: the same uniform, so the same ranks.
-    ranks = [np.argsort(t.X[:, t.names.index("costs.capex_per_kw")]) for t in trials.values()]
-    assert all(np.array_equal(ranks[0], r) for r in ranks[1:])
-    demo = trials[("Dunecrest", "demo_fixed_tilt")]
-    tracker = trials[("Dunecrest", "tech_single_axis")]
-    assert not np.array_equal(demo.X[:, demo.names.index("costs.capex_per_kw")],
-                              tracker.X[:, tracker.names.index("costs.capex_per_kw")])
+    assert rate[0].min() >= 0.06 and rate[0].max() <= 0.095
+    # Capex is each technology's own input: independent draws in every site x technology.
+    capex = [t.X[:, t.names.index("costs.capex_per_kw")] for t in trials.values()]
+    ranks = [np.argsort(np.argsort(c)) for c in capex]
+    assert not any(np.array_equal(ranks[0], r) for r in ranks[1:])
+    # The site's weather is shared by the technologies there, not across sites.
+    e = {k: t.energy_kwh / np.median(t.energy_kwh) for k, t in trials.items()}
+    same_site = np.corrcoef(e[("Dunecrest", "demo_fixed_tilt")],
+                            e[("Dunecrest", "tech_single_axis")])[0, 1]
+    other_site = np.corrcoef(e[("Dunecrest", "demo_fixed_tilt")],
+                             e[("Mossfield", "demo_fixed_tilt")])[0, 1]
+    assert same_site > 0.5 and abs(other_site) < 0.5
 
 
 def test_trial_by_trial_comparison_of_identical_plants(tmp_path):
-    """Two technologies that differ only in capex: the same energy in every trial (common
-    weather and energy factors), so the cheaper one wins every trial."""
-    base = DEMO.read_text(encoding="utf-8")
-    cheap = write_plan(tmp_path, base.replace("capex_per_kw = 1050.0", "capex_per_kw = 1000.0")
-                       .replace('"costs.capex_per_kw" = { dist = "triangular", low = 950, '
-                                'mode = 1050, high = 1250, group = "costs" }',
-                                '"costs.capex_per_kw" = { dist = "triangular", low = 900, '
-                                'mode = 1000, high = 1200, group = "costs" }'), "cheap.toml")
-    plan = write_plan(tmp_path, plan_toml(sites=site_toml("Dunecrest"), techs=(DEMO, cheap)))
+    """Two technologies that differ only in capex, every uncertain input declared once for the
+    sweep and the site's weather shared: the same energy in every trial, so the cheaper one
+    wins every trial."""
+    base = DEMO.read_text(encoding="utf-8").split("# ---- What Larkspur is unsure of")[0]
+    dear = write_plan(tmp_path, base, "dear.toml")
+    cheap = write_plan(tmp_path, base.replace("capex_per_kw = 1050.0", "capex_per_kw = 1000.0"),
+                       "cheap.toml")
+    shared = ('[uncertain]\n"plant.dc_loss_fraction" = { dist = "pert", low = 0.05, '
+              'mode = 0.08, high = 0.13 }\n' + SHARED_RATE.split("\n", 1)[1] +
+              '[uncertain.energy]\ninterannual_cov = 0.04\nresource_sd = 0.05\n')
+    plan = write_plan(tmp_path, plan_toml(sites=site_toml("Dunecrest"), techs=(dear, cheap),
+                                          extra=shared))
     result = run_sweep(plan)
-    a = result.trials[("Dunecrest", "demo_fixed_tilt")]
+    a = result.trials[("Dunecrest", "dear")]
     b = result.trials[("Dunecrest", "cheap")]
-    assert np.array_equal(a.energy_kwh, b.energy_kwh)
+    assert np.array_equal(a.energy_kwh, b.energy_kwh) and np.ptp(a.energy_kwh) > 0
     assert np.all(b.lcoe_real < a.lcoe_real)
     assert [r.prob_cheapest for r in result.rows] == [0.0, 1.0]
 
@@ -221,7 +215,7 @@ def test_sweep_agrees_with_single_case_engine(serial_result):
     numbers): the medians agree within 4 % (about 3 standard errors of the difference of two
     medians of 200 trials with a 10 % spread)."""
     from lcoe.model import prepare
-    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.study.single import monte_carlo
     from lcoe.uncertainty.spec import read_spec
 
     plan = serial_result.plan
@@ -229,7 +223,12 @@ def test_sweep_agrees_with_single_case_engine(serial_result):
     case = run.case()
     trials, _ = monte_carlo(case, prepare(case), read_spec(case), 200, seed=3)
     single = np.median(trials.outputs["lcoe_real_per_kwh"])
-    sweep = run_sweep(replace(plan, samples=200, chunk_trials=100, runs=(run,)))
+    from lcoe.study.design import build_design
+
+    one = plan.study_runs[0]
+    design = build_design([one.member()], 200, 9, "lhs")
+    sweep = run_sweep(replace(plan, samples=200, chunk_trials=100, runs=(run,),
+                              study_runs=(one,), design=design))
     assert np.median(sweep.trials[(run.site, run.technology)].lcoe_real) == \
         pytest.approx(single, rel=0.04)
 
@@ -311,8 +310,8 @@ def test_without_dask_workers_fall_back_to_serial(monkeypatch, small_plan):
     import sys
 
     monkeypatch.setitem(sys.modules, "distributed", None)  # import now raises ImportError
-    tasks = make_tasks(small_plan)[:2]
-    results, errors, how, notes = execute(tasks, workers=2)
+    tasks = make_tasks(small_plan.design, small_plan.study_runs, 20)[:2]
+    results, errors, how, notes = execute(tasks, evaluate_chunk, workers=2)
     assert how.startswith("serial") and notes == [DASK_MISSING_NOTE] and not errors
     assert all(r is not None for r in results)
 
@@ -427,25 +426,19 @@ def test_plan_level_errors(tmp_path, capsys):
     _refused(tmp_path, capsys, plan_toml(
         extra='[[correlation]]\nbetween = ["finance.discount_rate", "finance.inflaton"]\n'
               'rank = 0.5\n'), "plan.toml", "finance.inflaton", "did you mean")
-    _refused(tmp_path, capsys, plan_toml(samples=40, chunk=10), "sweep.chunk_trials = 10",
-             "uncertain inputs")
     _refused(tmp_path, capsys, plan_toml(
         extra='[uncertain]\n"plant.tilt_dg" = { dist = "uniform", low = 1, high = 2 }\n'),
-        "site 'Dunecrest'", "plant.tilt_dg")
+        "plan.toml", "plant.tilt_dg", "no case of the study has this input")
 
 
 def test_conflicting_correlations_between_technologies(tmp_path):
+    # Own inputs: each technology's pair is its own, no conflict.
     other = write_plan(tmp_path, TRACKER.read_text(encoding="utf-8").replace(
-        "rank = 0.5", "rank = 0.3"), "other.toml")
-    with pytest.raises(InputError, match="0.5 in technology 'demo_fixed_tilt' but 0.3"):
-        load_plan(write_plan(tmp_path, plan_toml(techs=(DEMO, other))))
-    # Set once in the plan, the pair applies everywhere and the conflict is gone.
-    plan = load_plan(write_plan(tmp_path, plan_toml(techs=(DEMO, other), extra=(
-        '[[correlation]]\nbetween = ["costs.capex_per_kw", "costs.fixed_om_per_kw_year"]\n'
-        'rank = 0.4\n'))))
-    i = plan.input_names.index("costs.capex_per_kw")
-    j = plan.input_names.index("costs.fixed_om_per_kw_year")
-    assert plan.corr[i, j] == 0.4
+        "rank = 0.6", "rank = 0.3"), "other.toml")
+    load_plan(write_plan(tmp_path, plan_toml(techs=(DEMO, other))))
+    # Shared inputs: one draw for all, so one rank.
+    with pytest.raises(InputError, match="0.6 in .* but 0.3"):
+        load_plan(write_plan(tmp_path, plan_toml(techs=(DEMO, other), extra=SHARED_RATE)))
 
 
 def test_non_empty_output_folder_refused_before_running(tmp_path, capsys):

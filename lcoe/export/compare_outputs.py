@@ -37,7 +37,7 @@ PICTURES = ("lcoe_cumulative.png", "lcoe_ratio.png")
 
 
 def _stats_block(values: np.ndarray, deterministic: float) -> dict:
-    from ..uncertainty.engine import stats
+    from ..uncertainty.stats import stats
 
     return {"deterministic": float(deterministic), **stats(values)}
 

@@ -87,7 +87,7 @@ def fig_lcoe_distribution(values: np.ndarray, stats: Mapping, currency: str,
     values : numpy.ndarray
         LCOE of each trial [currency/kWh], (n,).
     stats : mapping
-        :func:`lcoe.uncertainty.engine.stats` of ``values`` (keys ``mean, q10, q50, q90``).
+        :func:`lcoe.uncertainty.stats.stats` of ``values`` (keys ``mean, q10, q50, q90``).
     currency : str
     label : str
         Name of the output.

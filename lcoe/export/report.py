@@ -102,11 +102,14 @@ def _pct(x) -> str:
 
 
 def _irr(b: dict, key: str, roots_key: str) -> tuple[str, str]:
-    """Value and unit of an IRR: the unique root, or every root the engine found."""
-    if b.get(key) is not None:
-        return _pct(b[key]), "%"
+    """Value and unit of an IRR: the investment root (all roots beside it), or every root."""
     found = (b.get("irr_roots") or {}).get(roots_key) or {}
     roots = found.get("roots") or []
+    if b.get(key) is not None:
+        if len(roots) > 1:
+            return (f"{_pct(b[key])} (investment root; all roots "
+                    + ", ".join(f"{100 * x:.2f}" for x in roots) + ")"), "%"
+        return _pct(b[key]), "%"
     if roots:
         return "several roots: " + ", ".join(f"{100 * x:.2f}" for x in roots), "%"
     return f"none ({found.get('reason', 'no root')})", ""

@@ -278,8 +278,9 @@ def write_debt_sheet(wb, result: RunResult, cash_rows: dict) -> None:
             put_text(ws, r, 4, "engine: none (no debt service)")
     r += 1
     put_text(ws, r, 1, "IRR(): the spreadsheet finds one root near its 10 % guess; the engine "
-                       "finds every root and reports a value only when there is exactly one "
-                       "(a last-year decommissioning cost adds a second sign change).")
+                       "finds every root and reports the investment root (the NPV turns from "
+                       "positive to negative as the rate rises), e.g. when a last-year "
+                       "decommissioning cost adds a second sign change.")
 
     r = close_rows(wb, ws, r + 2, bank, case, capex, f"$C${y.rows['dsra']}", cur)
     write_cashflow_returns(wb, y, cash_rows, irrs["project_pre_tax"], cur)

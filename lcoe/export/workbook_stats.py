@@ -1,6 +1,6 @@
 """Distribution, Sensitivity and Comparison sheets of the workbook.
 
-These sheets show what the uncertainty study (:mod:`lcoe.uncertainty.study`) computed: the
+These sheets show what the uncertainty study (:mod:`lcoe.study.case_study`) computed: the
 percentiles of the outputs, a histogram of the LCOE, at most
 :data:`~lcoe.export.workbook.MAX_TRIALS_IN_SHEET` trials (all of them are in ``trials.csv``),
 Sobol indices with their intervals and the tornado swings. Percentiles are repeated as
@@ -28,7 +28,7 @@ from .workbook import (
     widths,
 )
 
-#: Statistics of :func:`lcoe.uncertainty.engine.stats` shown, with their probability.
+#: Statistics of :func:`lcoe.uncertainty.stats.stats` shown, with their probability.
 PERCENTILES = (("q05", 0.05), ("q10", 0.10), ("q50", 0.50), ("q90", 0.90), ("q95", 0.95))
 #: Bins of the LCOE histogram.
 HISTOGRAM_BINS = 30

@@ -10,7 +10,7 @@ from scipy.stats import norm
 from lcoe.case import load_case
 from lcoe.errors import InputError
 from lcoe.model import prepare
-from lcoe.uncertainty.engine import energy_exceedance, monte_carlo
+from lcoe.study.single import energy_exceedance, monte_carlo
 from lcoe.uncertainty.spec import read_spec
 
 UNC = """
@@ -105,7 +105,7 @@ def test_non_finite_output_names_trial(tmp_path):
         'values = [1.0, 0.9], weights = [0.5, 0.5] }\n'
     case = load_case(write_case(tmp_path, text))
     spec = read_spec(case)
-    from lcoe.uncertainty import engine
+    from lcoe.study import single as engine
 
     t, _ = monte_carlo(case, prepare(case), spec, 8, seed=1)
     t.outputs["lcoe_real_per_kwh"][3] = np.nan

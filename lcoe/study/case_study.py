@@ -13,17 +13,16 @@ import numpy as np
 from ..case import Case
 from ..model import Site, base_params
 from ..rng import make_rng
-from .engine import (
-    OUTPUTS,
-    EnergyExceedance,
-    Trials,
-    energy_exceedance,
-    model_function,
-    monte_carlo,
-    stats,
+from ..uncertainty.sensitivity import (
+    SobolResult,
+    morris_screen,
+    sobol_analyze,
+    sobol_sample,
+    tornado,
 )
-from .sensitivity import SobolResult, morris_screen, sobol_analyze, sobol_sample, tornado
-from .spec import UncertainSpec
+from ..uncertainty.spec import UncertainSpec
+from ..uncertainty.stats import stats
+from .single import OUTPUTS, EnergyExceedance, Trials, energy_exceedance, model_function, monte_carlo
 
 #: Plain names of the outputs, for sentences.
 OUTPUT_LABELS = {"lcoe_real_per_kwh": "the real cost per kWh (LCOE)",
@@ -42,10 +41,10 @@ class UncertaintyBlock:
     spec : UncertainSpec
     exceedance : EnergyExceedance
     stats : dict of str to dict
-        :func:`lcoe.uncertainty.engine.stats` of every scalar output.
+        :func:`lcoe.uncertainty.stats.stats` of every scalar output.
     currency : str
     seed : int
-        The run's seed (the trials use a generator spawned from it).
+        The run's seed (the trial design's blocks are its children).
     notes : list of str
     """
 
@@ -186,7 +185,8 @@ class SensitivityBlock:
 def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: int,
               sobol_base: int = 256, sobol_output: str = "lcoe_real_per_kwh",
               screen: bool = False, chunk_size: int = 1000, method: str = "lhs",
-              collectors: tuple = (), progress=None, targets: dict | None = None):
+              collectors: tuple = (), progress=None, targets: dict | None = None,
+              workers: int = 1, scheduler: str | None = None):
     """Monte Carlo, exceedance, Sobol, tornado (and Morris when ``screen``) for a case.
 
     Parameters
@@ -207,25 +207,26 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
         Trials per model call.
     method : {"lhs", "random"}
     collectors : tuple
-        Extra per-trial outputs (see :func:`lcoe.uncertainty.engine.monte_carlo`).
+        Extra per-trial outputs (see :func:`lcoe.study.single.monte_carlo`).
     progress : callable, optional
         ``progress(stage, done, total)``.
     targets : dict, optional
-        Further sensitivity targets (see :func:`lcoe.uncertainty.engine.model_function`).
+        Further sensitivity targets (see :func:`lcoe.study.single.model_function`).
+    workers, scheduler
+        Where the Monte Carlo trials run (see :func:`lcoe.study.single.monte_carlo`).
 
     Returns
     -------
     UncertaintyBlock, SensitivityBlock or None
     """
-    ss = np.random.SeedSequence(seed)
-    mc_seed, sobol_seq, morris_seq = ss.spawn(3)
-    mc_seed_int = int(mc_seed.generate_state(1)[0])
+    # The trial blocks use SeedSequence(seed, spawn_key=(0, b)); Sobol and Morris children 1, 2.
+    _, sobol_seq, morris_seq = np.random.SeedSequence(seed).spawn(3)
 
     def stage(name):
         return (lambda d, t: progress(name, d, t)) if progress else None
 
-    trials, notes = monte_carlo(case, site, spec, samples, mc_seed_int, method, chunk_size,
-                                collectors, stage("Monte Carlo"))
+    trials, notes = monte_carlo(case, site, spec, samples, seed, method, chunk_size,
+                                collectors, stage("Monte Carlo"), workers, scheduler)
     st = {k: stats(trials.outputs[k]) for k in OUTPUTS}
     unc = UncertaintyBlock(trials=trials, spec=spec, exceedance=energy_exceedance(trials, spec),
                            stats=st, currency=case["case.currency"], seed=seed, notes=notes)

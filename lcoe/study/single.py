@@ -1,15 +1,15 @@
-"""Monte Carlo and sensitivity runs of the one vectorised model.
+"""The study of one case (``lcoe run``): Monte Carlo trials, energy exceedance, model function.
 
-Every trial is a row. All random numbers of a run are drawn up front from one seeded generator
-(the input sample, then the year-to-year weather factors), and the trials are then evaluated in
-chunks through :func:`lcoe.model.evaluate`; results are therefore identical for the same seed
-whatever the chunk size, and peak memory is bounded by the chunk size.
+The trials are drawn by the study's trial design (:mod:`lcoe.study.design`: one seed, blocks
+of trials each from its own ``SeedSequence`` child, so results never depend on the chunk size
+or on which process evaluates a chunk) and evaluated by :func:`lcoe.study.trials.evaluate_runs`
+through the one vectorised model, serially or on dask workers.
 
 Energy uncertainty follows lenders' practice: persistent components (long-term resource, yield
 model, ...) are drawn once per trial; the year-to-year weather factor is drawn independently for
 each operating year of each trial. With a weather file of several calendar years the
-year-to-year factor is the ratio of a randomly drawn year's energy to the file's mean (the spread
-comes from the file itself); otherwise it is normal with the case's ``interannual_cov``.
+year-to-year factor is the ratio of a drawn year's energy to the file's mean (the spread comes
+from the file itself); otherwise it is normal with the case's ``interannual_cov``.
 """
 
 from __future__ import annotations
@@ -18,14 +18,14 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.stats import norm
 
 from ..case import Case
 from ..errors import InputError
 from ..model import ModelOutput, Site, evaluate
-from ..rng import make_rng
-from .sampling import sample_inputs
-from .spec import ENERGY_FACTOR_FLOOR, UncertainSpec
+from ..uncertainty.spec import UncertainSpec
+from ..uncertainty.stats import Z90, Z99
+from .design import build_design
+from .trials import CHUNK_TRIALS, StudyRun, evaluate_runs, failure_error, prepared, split_inputs
 
 #: Outputs collected from every trial, with their units.
 OUTPUTS = {
@@ -37,10 +37,9 @@ OUTPUTS = {
 #: Outputs that Sobol/tornado may target (scalar, no year-to-year noise in those designs).
 SENSITIVITY_TARGETS = ("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
                        "energy_first_year_kwh")
-QUANTILES = (0.05, 0.10, 0.50, 0.90, 0.95)
-#: z-scores of the normal method (DOMAIN.md section 4).
-Z90 = float(norm.ppf(0.90))
-Z99 = float(norm.ppf(0.99))
+#: Outputs of a chunk that are kept apart from :attr:`Trials.outputs`.
+_STRUCTURAL = ("X", "physics_kwh", "persistent_factor", "energy_factors", "energy_kwh",
+               "dc_capacity_kw", "cell_area_m2", "land_area_m2")
 
 Collector = Callable[[ModelOutput, dict, slice], dict]
 
@@ -82,76 +81,48 @@ class Trials:
         return self.X.shape[0]
 
 
-def stats(values: np.ndarray) -> dict:
-    """Mean, sd and the :data:`QUANTILES` of a sample, keyed ``mean, sd, q05, ...``."""
-    v = np.asarray(values, dtype=float)
-    out = {"mean": float(v.mean()), "sd": float(v.std(ddof=1)) if v.size > 1 else 0.0}
-    for q in QUANTILES:
-        out[f"q{int(round(q * 100)):02d}"] = float(np.quantile(v, q))
-    return out
-
-
-def _params_from(spec: UncertainSpec, X: np.ndarray) -> tuple[dict, np.ndarray]:
-    """Case-parameter arrays and the persistent energy factor (n,) from sampled rows."""
-    params, persist = {}, np.ones(X.shape[0])
-    for j, name in enumerate(spec.names):
-        if name.startswith("energy."):
-            persist = persist * X[:, j]
-        else:
-            params[name] = X[:, j]
-    return params, persist
-
-
-def _yearly_factors(spec: UncertainSpec, site: Site, case: Case, n: int,
-                    rng: np.random.Generator) -> tuple[np.ndarray, str]:
-    """(n, N) year-to-year weather factors and a note on where their spread came from."""
-    life = int(case["case.lifetime_years"])
-    w = site.weather
-    if not w.typical_year and w.n_years > 1:
-        base = evaluate(case, site)
-        yearly = base.energy.yearly_kwh[0]
-        ratios = yearly / yearly.mean()
-        picks = rng.integers(0, ratios.size, size=(n, life))
-        cov = float(ratios.std(ddof=1))
-        return ratios[picks], (f"year-to-year weather drawn from the {ratios.size} calendar "
-                               f"years of the weather file (CoV {100 * cov:.1f} %)")
-    if spec.interannual_cov > 0:
-        z = rng.standard_normal((n, life))
-        return np.maximum(1.0 + spec.interannual_cov * z, ENERGY_FACTOR_FLOOR), (
-            f"year-to-year weather normal with CoV {100 * spec.interannual_cov:.1f} % "
-            f"(independent each year)")
-    return np.ones((n, life)), "no year-to-year weather variability given"
-
-
 def interannual_cov(trials: Trials) -> float:
     """Year-to-year CoV actually used (sample estimate over all trial-years) [-]."""
     f = trials.energy_factors / trials.persistent_factor[:, None]
     return float(f.std(ddof=1)) if f.size > 1 else 0.0
 
 
+def single_run(case: Case, spec: UncertainSpec, collectors: tuple = ()) -> StudyRun:
+    """The one run of a single-case study."""
+    return StudyRun(label=case.name, case_label=case.name, site=case.name, case=case,
+                    spec=spec, collectors=tuple(collectors))
+
+
 def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int | None,
-                method: str = "lhs", chunk_size: int = 1000, collectors: tuple = (),
-                progress: Callable[[int, int], None] | None = None) -> tuple[Trials, list]:
+                method: str = "lhs", chunk_size: int = CHUNK_TRIALS, collectors: tuple = (),
+                progress: Callable[[int, int], None] | None = None, workers: int = 1,
+                scheduler: str | None = None) -> tuple[Trials, list]:
     """Run ``n`` trials of the case with its uncertain inputs.
 
     Parameters
     ----------
     case : Case
     site : Site
+        The prepared site (kept for the callers' deterministic run; the trials prepare the
+        site once per process).
     spec : UncertainSpec
     n : int
         Number of trials (>= 2).
-    seed : int or None
-        Seed of the single generator.
+    seed : int
+        Seed of the study (None draws one from fresh entropy and stores it).
     method : {"lhs", "random"}
-        Latin hypercube (default) or plain random sampling.
+        Latin hypercube (default) or plain random sampling, within each block of trials.
     chunk_size : int
-        Trials per call of the model (memory bound); results do not depend on it.
+        Trials per task (memory bound, unit of parallel work); results do not depend on it.
     collectors : tuple of callables
         ``collector(model_output, params, chunk_slice) -> dict of arrays (n_chunk, ...)``,
         extra per-trial outputs (e.g. the project-finance layer).
     progress : callable, optional
-        ``progress(done, total)`` after each chunk.
+        ``progress(done, total)`` in trials.
+    workers : int
+        1 = serial in this process; more = a local dask cluster of that many processes.
+    scheduler : str, optional
+        ``tcp://HOST:PORT`` of an existing dask scheduler.
 
     Returns
     -------
@@ -160,34 +131,38 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
     """
     if n < 2:
         raise InputError(f"--samples {n}: expected at least 2 trials")
-    rng = make_rng(seed)
-    d = len(spec.dists)
-    X = sample_inputs(spec.dists, n, rng, spec.corr, method) if d else np.empty((n, 0))
-    yearly, note = _yearly_factors(spec, site, case, n, rng)
-    params_all, persist = _params_from(spec, X)
-    factors = persist[:, None] * yearly
-    outputs: dict[str, np.ndarray] = {}
-    physics = np.empty(n)
-    for start in range(0, n, chunk_size):
-        sl = slice(start, min(start + chunk_size, n))
-        params = {k: v[sl] for k, v in params_all.items()}
-        out = evaluate(case, site, params, weather_factors=factors[sl])
-        c = out.cashflow
-        chunk = {"lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,
-                 "npv_costs": c.pv_costs, "energy_first_year_kwh": c.energy_kwh[:, 1]}
-        for col in collectors:
-            chunk.update(col(out, params, sl))
-        for k, v in chunk.items():
-            if k not in outputs:
-                outputs[k] = np.empty((n,) + np.shape(v)[1:])
-            outputs[k][sl] = v
-        physics[sl] = out.energy.annual_kwh
-        if progress:
-            progress(sl.stop, n)
-    trials = Trials(names=spec.names, X=X, outputs=outputs, energy_factors=factors,
-                    persistent_factor=persist, physics_kwh=physics, seed=seed, method=method)
+    if seed is None:
+        seed = int(np.random.SeedSequence().generate_state(1)[0])
+    run = single_run(case, spec, collectors)
+    design = build_design([run.member()], n, seed, method, source=case.source)
+    chunks = max(1, -(-n // chunk_size))
+    tick = (lambda done, total: progress(min(n, done * n // chunks), n)) if progress else None
+    res = evaluate_runs(design, [run], chunk_size, workers, scheduler, tick)
+    err = failure_error(res, [run])
+    if err is not None:
+        raise err
+    out = res.outputs[0]
+    trials = Trials(names=spec.names, X=out["X"],
+                    outputs={k: v for k, v in out.items() if k not in _STRUCTURAL},
+                    energy_factors=out["energy_factors"],
+                    persistent_factor=out["persistent_factor"], physics_kwh=out["physics_kwh"],
+                    seed=seed, method=method)
     _check_finite(trials)
-    return trials, [note]
+    return trials, [weather_note(case, site, spec), *res.notes]
+
+
+def weather_note(case: Case, site: Site, spec: UncertainSpec) -> str:
+    """Where the year-to-year spread of a run comes from."""
+    w = site.weather
+    if not w.typical_year and w.n_years > 1:
+        ratios = prepared(case)[2]
+        cov = float(ratios.std(ddof=1))
+        return (f"year-to-year weather drawn from the {ratios.size} calendar years of the "
+                f"weather file (CoV {100 * cov:.1f} %)")
+    if spec.interannual_cov > 0:
+        return (f"year-to-year weather normal with CoV {100 * spec.interannual_cov:.1f} % "
+                f"(independent each year)")
+    return "no year-to-year weather variability given"
 
 
 def _check_finite(trials: Trials) -> None:
@@ -275,7 +250,7 @@ def energy_exceedance(trials: Trials, spec: UncertainSpec) -> EnergyExceedance:
 
 
 def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
-                   chunk_size: int = 1000, progress=None,
+                   chunk_size: int = CHUNK_TRIALS, progress=None,
                    extra: dict | None = None) -> Callable[[np.ndarray], np.ndarray]:
     """``f(X) -> Y`` for the sensitivity layer: sampled inputs (n, d) -> one output (n,).
 
@@ -291,7 +266,7 @@ def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
     life = int(case["case.lifetime_years"])
 
     def f(X: np.ndarray) -> np.ndarray:
-        params_all, persist = _params_from(spec, X)
+        params_all, persist = split_inputs(spec, X)
         y = np.empty(X.shape[0])
         for start in range(0, X.shape[0], chunk_size):
             sl = slice(start, min(start + chunk_size, X.shape[0]))

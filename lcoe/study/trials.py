@@ -1,0 +1,301 @@
+"""Runs of a study, the mapping of the design's draws to each run's inputs, chunk evaluation.
+
+A chunk is a range of trials of one run. Its evaluation (in this process or in a worker):
+
+1. the run's uniforms and weather scores for the range (:meth:`TrialDesign.member_draws`);
+2. uniforms -> input values through the run's own distributions; sampled ``energy.*`` names
+   multiply into the persistent energy factor (one per trial), the others are case inputs;
+3. year-to-year weather factors from the site's scores (normal with the run's
+   ``interannual_cov``, or the calendar year of a multi-year weather file picked by the
+   score's probability);
+4. the one vectorised model :func:`lcoe.model.evaluate` with weather factors = persistent x
+   year-to-year, and the collectors of the run.
+
+Shapes: every output is (n_chunk,) or (n_chunk, k).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.special import ndtr
+
+from ..case import Case
+from ..errors import InputError, collect_warnings
+from ..model import evaluate, prepare
+from ..uncertainty.sampling import uniforms_to_values
+from ..uncertainty.spec import ENERGY_FACTOR_FLOOR, UncertainSpec
+from .design import Member, TrialDesign, chunk_bounds
+from .executor import execute
+
+#: Default trials per chunk (a task of a worker, and the memory bound of a model call).
+CHUNK_TRIALS = 1000
+#: Prepared sites and year ratios kept per process.
+CACHE_LIMIT = 256
+_CACHE: dict = {}
+
+
+def site_key(case: Case) -> str:
+    """Key of a case's site: the weather (file or monthly values) and the location."""
+    return repr((str(case.weather_path), sorted((case.monthly or {}).items()),
+                 case["site.latitude_deg"], case["site.longitude_deg"],
+                 case["site.altitude_m"], case["site.timezone"],
+                 case["site.weather_time_label"]))
+
+
+@dataclass(frozen=True)
+class StudyRun:
+    """One run of a study: a case at its site (plain data, sent to worker processes).
+
+    Attributes
+    ----------
+    label : str
+        Unique label of the run.
+    case_label : str
+        Case (technology) label used by cross-case correlations.
+    site : str
+        Site name: runs with the same site share its weather draws.
+    case : Case
+        The validated case (shared inputs merged into its ``[uncertain]``).
+    spec : UncertainSpec
+    shared : frozenset of str
+        Inputs declared once for the whole study.
+    collectors : tuple of callables
+        ``collector(model_output, params, chunk_slice) -> dict of (n_chunk, ...) arrays``,
+        extra per-trial outputs (e.g. the project-finance layer).
+    """
+
+    label: str
+    case_label: str
+    site: str
+    case: Case
+    spec: UncertainSpec
+    shared: frozenset = frozenset()
+    collectors: tuple = field(default=(), compare=False)
+
+    def member(self) -> Member:
+        """The design's view of this run."""
+        pairs = []
+        names = self.spec.names
+        if self.spec.corr is not None:
+            for i in range(len(names)):
+                for j in range(i + 1, len(names)):
+                    if self.spec.corr[i, j] != 0.0:
+                        pairs.append((names[i], names[j], float(self.spec.corr[i, j])))
+        return Member(label=self.label, case_label=self.case_label, site=self.site,
+                      names=tuple(names), shared=frozenset(self.shared) & frozenset(names),
+                      corr_pairs=tuple(pairs),
+                      lifetime_years=int(self.case["case.lifetime_years"]))
+
+
+@dataclass(frozen=True)
+class ChunkTask:
+    """Trials [start, stop) of run ``member`` of a study.
+
+    Attributes
+    ----------
+    design : TrialDesign
+    member : int
+    run : StudyRun
+    start, stop : int
+    """
+
+    design: TrialDesign
+    member: int
+    run: StudyRun
+    start: int
+    stop: int
+
+    @property
+    def site(self) -> str:
+        """Affinity key for the executor (a worker prepares each site once)."""
+        return site_key(self.run.case)
+
+
+def split_inputs(spec: UncertainSpec, X: np.ndarray) -> tuple[dict, np.ndarray]:
+    """Case-parameter arrays and the persistent energy factor (n,) from sampled rows X (n, d)."""
+    params, persist = {}, np.ones(X.shape[0])
+    for j, name in enumerate(spec.names):
+        if name.startswith("energy."):
+            persist = persist * X[:, j]
+        else:
+            params[name] = X[:, j]
+    return params, persist
+
+
+def yearly_factors(z: np.ndarray, interannual_cov: float,
+                   year_ratios: np.ndarray | None) -> np.ndarray:
+    """Year-to-year weather factors from the site's normal scores.
+
+    Parameters
+    ----------
+    z : numpy.ndarray
+        (n, N) standard normal scores (the run's N years).
+    interannual_cov : float
+        Coefficient of variation of a typical-year file's energy [-].
+    year_ratios : numpy.ndarray or None
+        Energy of each calendar year of a multi-year weather file over their mean [-]; when
+        given, year j of trial i is the year picked by the probability ``Phi(z[i, j])``.
+
+    Returns
+    -------
+    numpy.ndarray
+        (n, N) energy multipliers [-], mean about 1.
+    """
+    if year_ratios is not None:
+        k = year_ratios.size
+        pick = np.minimum((ndtr(z) * k).astype(int), k - 1)
+        return year_ratios[pick]
+    if interannual_cov > 0:
+        return np.maximum(1.0 + interannual_cov * z, ENERGY_FACTOR_FLOOR)
+    return np.ones_like(z)
+
+
+def prepared(case: Case):
+    """The case's prepared site, its notes and multi-year ratios, memoised in this process."""
+    key = (site_key(case), case.sha256, case.name)
+    if key not in _CACHE:
+        skey = ("site", site_key(case))
+        if skey not in _CACHE:
+            with collect_warnings() as caught:
+                site = prepare(case)
+            notes = tuple(site.notes) + tuple(caught)
+            _CACHE[skey] = (site, notes)
+        site, notes = _CACHE[skey]
+        ratios = None
+        if not site.weather.typical_year and site.weather.n_years > 1:
+            yearly = evaluate(case, site).energy.yearly_kwh[0]
+            ratios = yearly / yearly.mean()
+        if len(_CACHE) > CACHE_LIMIT:
+            _CACHE.clear()
+            _CACHE[skey] = (site, notes)
+        _CACHE[key] = (site, notes, ratios)
+    return _CACHE[key]
+
+
+def evaluate_chunk(task: ChunkTask) -> dict:
+    """Evaluate trials [start, stop) of one run of a study.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        ``X`` (n, d) sampled inputs; ``lcoe_real_per_kwh``, ``lcoe_nominal_per_kwh``
+        [currency/kWh], ``npv_costs`` [currency], ``energy_first_year_kwh`` (first operating
+        year, degradation included) [kWh], ``physics_kwh`` (average year of the hourly physics)
+        [kWh], ``persistent_factor`` [-], ``energy_factors`` (n, N) [-], ``energy_kwh``
+        (physics x persistent x first year's weather, no degradation) [kWh],
+        ``dc_capacity_kw``, ``cell_area_m2``, ``land_area_m2``; and the collectors' outputs.
+        Also ``notes``: tuple of remarks from preparing the site.
+    """
+    run = task.run
+    site, notes, ratios = prepared(run.case)
+    n = task.stop - task.start
+    u, z = task.design.member_draws(task.member, task.start, task.stop)
+    X = uniforms_to_values(run.spec.dists, u) if u.shape[1] else np.empty((n, 0))
+    params, persist = split_inputs(run.spec, X)
+    life = int(run.case["case.lifetime_years"])
+    yearly = yearly_factors(z[:, :life], run.spec.interannual_cov, ratios)
+    factors = persist[:, None] * yearly
+    out = evaluate(run.case, site, params, weather_factors=factors)
+    c, e = out.cashflow, out.energy
+    res = {"X": X, "lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,
+           "npv_costs": c.pv_costs, "energy_first_year_kwh": c.energy_kwh[:, 1],
+           "physics_kwh": e.annual_kwh, "persistent_factor": persist, "energy_factors": factors,
+           "energy_kwh": e.annual_kwh * persist * yearly[:, 0],
+           "dc_capacity_kw": np.broadcast_to(e.dc_capacity_kw, (n,)).astype(float),
+           "cell_area_m2": np.broadcast_to(e.cell_area_m2, (n,)).astype(float),
+           "land_area_m2": np.broadcast_to(e.land_area_m2, (n,)).astype(float)}
+    sl = slice(task.start, task.stop)
+    for col in run.collectors:
+        res.update(col(out, params, sl))
+    res["notes"] = notes
+    return res
+
+
+def make_tasks(design: TrialDesign, runs: Sequence[StudyRun],
+               chunk_trials: int = CHUNK_TRIALS) -> list[ChunkTask]:
+    """Every run x chunk, run-major."""
+    return [ChunkTask(design=design, member=m, run=run, start=a, stop=b)
+            for m, run in enumerate(runs)
+            for a, b in chunk_bounds(design.samples, chunk_trials)]
+
+
+@dataclass(frozen=True)
+class StudyOutput:
+    """What the evaluation of a study's runs gave.
+
+    Attributes
+    ----------
+    outputs : list of (dict or None)
+        Per run, every output over all trials in trial order (None when a chunk failed).
+    errors : dict of int to (int, str)
+        Run index -> (index of its first failed chunk, one-line error).
+    execution : str
+        How it ran (does not change the numbers).
+    notes : list of str
+        Executor notes.
+    site_notes : dict of str to list of str
+        Note -> labels of the runs whose site gave it.
+    """
+
+    outputs: list
+    errors: dict
+    execution: str
+    notes: list
+    site_notes: dict
+
+
+def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
+                  chunk_trials: int = CHUNK_TRIALS, workers: int = 1,
+                  scheduler: str | None = None, progress: Callable | None = None,
+                  fn: Callable = evaluate_chunk) -> StudyOutput:
+    """Evaluate every trial of every run, serially, on local workers or on a cluster.
+
+    Parameters
+    ----------
+    design : TrialDesign
+    runs : sequence of StudyRun
+        In the order of the design's members.
+    chunk_trials : int
+        Trials per task; the numbers do not depend on it.
+    workers : int
+        1 = serial in this process; more = a local dask cluster of that many processes.
+    scheduler : str, optional
+        ``tcp://HOST:PORT`` of an existing dask scheduler.
+    progress : callable, optional
+        ``progress(done, total)`` over tasks.
+    fn : callable
+        Chunk evaluator (tests replace it to inject failures).
+    """
+    if chunk_trials < 1:
+        raise InputError(f"chunk size {chunk_trials}: expected a whole number >= 1")
+    tasks = make_tasks(design, runs, chunk_trials)
+    results, errors, execution, notes = execute(tasks, fn, workers, scheduler, progress)
+    outputs: list = []
+    failed: dict[int, tuple] = {}
+    site_notes: dict[str, list] = {}
+    per_run = len(tasks) // max(1, len(runs))
+    for m, run in enumerate(runs):
+        parts = results[m * per_run:(m + 1) * per_run]
+        bad = [i for i in range(m * per_run, (m + 1) * per_run) if results[i] is None]
+        if bad:
+            failed[m] = (bad[0] - m * per_run, errors.get(bad[0], "no result"))
+            outputs.append(None)
+            continue
+        for note in parts[0]["notes"]:
+            site_notes.setdefault(note, [])
+            if run.label not in site_notes[note]:
+                site_notes[note].append(run.label)
+        outputs.append({k: np.concatenate([p[k] for p in parts])
+                        for k in parts[0] if k != "notes"})
+    return StudyOutput(outputs=outputs, errors=failed, execution=execution, notes=notes,
+                       site_notes=site_notes)
+
+
+def failure_error(out: StudyOutput, runs: Sequence[StudyRun]) -> InputError | None:
+    """The first failed run of a study that cannot go on without it, as an error, or None."""
+    for m, (_, err) in out.errors.items():
+        return InputError(f"{runs[m].case.source}: the run failed: {err}")
+    return None
