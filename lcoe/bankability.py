@@ -405,10 +405,8 @@ class BankabilityBlock:
                                  for side in ("uses", "sources")},
             "by_year": self.by_year(),
             "irr_rule": IRR_RULE,
-            "project_mirr": float(mirr(f.project_flow_post_tax[0], self.loan_rate,
-                                       self.discount_rate)[0]),
-            "equity_mirr": float(mirr(f.equity_flow[0], self.loan_rate,
-                                      self.discount_rate)[0]),
+            "project_mirr": _finite_or_none(self.mirr("project")),
+            "equity_mirr": _finite_or_none(self.mirr("equity")),
             "mirr_rates": {"finance_rate": self.loan_rate,
                            "reinvest_rate": self.discount_rate},
             "payback_year": f.payback_year[0],
@@ -491,9 +489,9 @@ class BankabilityBlock:
             if m["min_dscr"]:
                 lines.append(f"    Min DSCR           P10 {m['min_dscr']['q10']:.2f}x, P50 "
                              f"{m['min_dscr']['q50']:.2f}x, P90 {m['min_dscr']['q90']:.2f}x")
-        lines.append(f"    MIRR               project {100 * self.mirr('project'):.2f} %, "
-                     f"equity {100 * self.mirr('equity'):.2f} % (finance rate = loan rate "
-                     f"{100 * self.loan_rate:.2f} %, reinvestment = discount rate "
+        lines.append(f"    MIRR               project {_mirr_text(self.mirr('project'))}, "
+                     f"equity {_mirr_text(self.mirr('equity'))} (outflows at the loan rate "
+                     f"{100 * self.loan_rate:.2f} %, inflows reinvested at the discount rate "
                      f"{100 * self.discount_rate:.2f} %)")
         if self.mc and self.mc.get("equity_irr") and self.mc["equity_irr"]["n"]:
             e = self.mc["equity_irr"]
@@ -510,8 +508,16 @@ class BankabilityBlock:
 IRR_RULE = ("Cash flows that turn negative again late in life (replacements, decommissioning) "
             "can have several IRRs: the IRR reported is the investment root, the rate at which "
             "the NPV turns from positive to negative as the rate rises; all roots are listed "
-            "beside it, and the MIRR (finance rate = loan rate, reinvestment rate = discount "
-            "rate) is single-valued.")
+            "beside it, and the MIRR (outflows at the loan rate, inflows reinvested at the "
+            "discount rate) is single-valued.")
+
+
+def _finite_or_none(x: float):
+    return float(x) if np.isfinite(x) else None
+
+
+def _mirr_text(x: float) -> str:
+    return f"{100 * x:.2f} %" if np.isfinite(x) else "none (no positive or no negative flow)"
 
 
 def _irr_value(r: IrrResult):
