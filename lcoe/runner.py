@@ -126,6 +126,18 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
             extras["sensitivity"] = sens
         if bank is not None:
             bank.add_trials(unc.trials.outputs)
+        from .study import SHARING_RULE
+        from .study.headlines import deterministic_outside_band, sizing_against_sampled
+
+        outside = deterministic_outside_band(float(base.cashflow.lcoe_real[0]),
+                                             unc.trials.outputs["lcoe_real_per_kwh"],
+                                             "real LCOE", f"{case['case.currency']}/kWh")
+        notes += [outside] if outside else []
+        if bank is not None:
+            notes.append(sizing_against_sampled(
+                float(base.energy.annual_kwh[0]), bank.factors, unc.exceedance.sampled,
+                [c for c, _ in case.debt_sizing]))
+        unc.notes.append(SHARING_RULE)
     return RunResult(case=case, site=site, base=base, notes=notes, extras=extras,
                      provenance=provenance(seed if n else None))
 
