@@ -52,7 +52,7 @@ def _cases(path: Path):
 
 
 def _timed_mc(case, site, n: int, seed: int) -> float:
-    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.study.single import monte_carlo
     from lcoe.uncertainty.spec import read_spec
 
     spec = read_spec(case)

@@ -3,7 +3,7 @@
 Default: 20 invented sites x the 3 bundled technologies x 2,000 trials, serial in this process
 and then on 2 local worker processes (127.0.0.1 only). Prints wall times, the speed-up, trials
 per second, whether the two runs are bit-identical, and the cost per trial against the
-single-case engine (:func:`lcoe.uncertainty.engine.monte_carlo`) on one site x technology.
+single-case engine (:func:`lcoe.study.single.monte_carlo`) on one site x technology.
 
 Target: a speed-up of at least 1.6 with 2 workers on a 2-core machine.
 

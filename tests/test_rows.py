@@ -221,7 +221,7 @@ def test_monthly_soiling_and_its_scale(demo_case, demo_site):
 def test_soiling_scale_is_an_uncertain_input(demo_case, demo_site):
     from dataclasses import replace
 
-    from lcoe.uncertainty.engine import monte_carlo
+    from lcoe.study.single import monte_carlo
     from lcoe.uncertainty.spec import read_spec
 
     case = replace(demo_case, correlation=(), uncertain={"plant.soiling.scale": {

@@ -211,7 +211,7 @@ def test_no_uncertainty_reproduces_the_deterministic_model(tmp_path):
 
 
 def test_sweep_agrees_with_single_case_engine(serial_result):
-    """Statistical cross-check against lcoe.uncertainty.engine.monte_carlo (independent random
+    """Statistical cross-check against lcoe.study.single.monte_carlo (independent random
     numbers): the medians agree within 4 % (about 3 standard errors of the difference of two
     medians of 200 trials with a 10 % spread)."""
     from lcoe.model import prepare
