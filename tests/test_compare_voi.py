@@ -38,7 +38,12 @@ def comparison(tmp_path_factory):
     a = load_case(write_case(tmp, MINIMAL_CASE.replace('"t"', '"proven"') + UNCERTAIN, "a.toml"))
     b = load_case(write_case(tmp, MINIMAL_CASE.replace('"t"', '"novel"') + CANDIDATE,
                              "b.toml"))
-    return run_comparison([a, b], samples=1000, seed=3, sobol_base=0)
+    # O&M declared once for the comparison (the sharing rule of lcoe.study): one draw for both
+    from lcoe.study.shared import SharedInputs
+
+    shared = SharedInputs(source="shared.toml", pairs=[], uncertain={
+        "costs.fixed_om_per_kw_year": {"dist": "uniform", "low": 10, "high": 20}})
+    return run_comparison([a, b], samples=1000, seed=3, sobol_base=0, shared=shared)
 
 
 def test_evppi_rows_are_consistent(comparison):
