@@ -12,8 +12,6 @@ import numpy_financial as npf
 import pytest
 from conftest import INPUTS
 
-from lcoe.bank.metrics import project_finance
-from lcoe.bankability import _tax_debt_kwargs, finance_inputs
 from lcoe.case import load_case
 from lcoe.model import evaluate
 from lcoe.runner import run_case
@@ -30,17 +28,11 @@ def lender():
     unc = result.extras["uncertainty"]
     bank = result.extras["bankability"]
     # The equity flow of every trial, recomputed from the trial's inputs and energy factors
-    # with the loan sized once on the deterministic case (as the collector does).
+    # with the loan sized once on the deterministic case (the collector's own function).
     t = unc.trials
     params, _ = split_inputs(unc.spec, t.X)
     out = evaluate(case, prepared(case)[0], params, weather_factors=t.energy_factors)
-    fi = finance_inputs(case, out)
-    fr = project_finance(revenue=fi["revenue"], opex=fi["opex"], capex=fi["capex"],
-                         debt_amount=np.minimum(bank.finance.debt[0], fi["capex"]),
-                         service_profile=bank.finance.debt_service[0], max_gearing=1.0,
-                         discount_rate=np.asarray(params.get(
-                             "finance.discount_rate", case["finance.discount_rate"])),
-                         **_tax_debt_kwargs(case))
+    fr = bank.trial_finance(case)(out, params)
     return case, result, fr, params
 
 
