@@ -36,17 +36,24 @@ def test_workbook_and_csv_share_one_rule():
 
 def test_sweep_csv_names_are_neutralised_numbers_are_not(tmp_path):
     # Regression (issue 12, item 5): site and technology names went raw into sweep.csv.
-    from lcoe.export.sweep_outputs import CSV_COLUMNS, write_sweep_csv
+    from lcoe.export.sweep_outputs import table_header, write_sweep_csv
 
     row = SimpleNamespace(site=HOSTILE[0], technology=HOSTILE[1], lcoe_real_q10=-0.01,
                           lcoe_real_q50=0.05, lcoe_real_q90=0.07, energy_p50_kwh=1.5e6,
-                          energy_p90_kwh=1.4e6, prob_cheapest=1.0)
+                          energy_p90_kwh=1.4e6, prob_cheapest=1.0, lcoe_real_mean=0.05,
+                          lcoe_nominal_q50=0.06)
+    plan = SimpleNamespace(
+        currency="USD", technologies=(SimpleNamespace(label=HOSTILE[1], case_name=HOSTILE[1]),),
+        runs=(SimpleNamespace(site=HOSTILE[0], technology=HOSTILE[1],
+                              raw={"plant": {"dc_capacity_kw": 1000.0}}),))
+    result = SimpleNamespace(rows=[row], plan=plan)
     path = tmp_path / "sweep.csv"
-    write_sweep_csv(SimpleNamespace(rows=[row]), path)
+    write_sweep_csv(result, path)
     header, got = list(csv.reader(path.open(encoding="utf-8")))
-    assert header == list(CSV_COLUMNS)
+    assert header == table_header(result)
     assert got[:2] == ["'" + HOSTILE[0], "'" + HOSTILE[1]]
-    assert [float(x) for x in got[2:]] == [-0.01, 0.05, 0.07, 1.5e6, 1.4e6, 1.0]
+    assert [float(x) for x in got[2:]] == [-0.01, 0.05, 0.07, 0.06, 1500.0, 1400.0, 1500, 1400,
+                                           1.0]
     assert got[2] == "-0.01"  # a negative number is written as a number
 
 
