@@ -21,6 +21,27 @@ class InputError(ValueError):
         super().__init__(" ".join(str(message).split()))
 
 
+class ImplausibleResult(InputError):
+    """A model result that breaks physics or is absurd (see :mod:`lcoe.plausibility`).
+
+    Attributes
+    ----------
+    source : str
+        Case file.
+    text : str
+        What is wrong and which inputs to check.
+    sample : int
+        First failing sample of the model call.
+    n_bad, n : int
+        Failing samples and samples of the call.
+    """
+
+    def __init__(self, source: str, text: str, sample: int = 0, n_bad: int = 1, n: int = 1):
+        self.source, self.text, self.sample, self.n_bad, self.n = source, text, sample, n_bad, n
+        where = "" if n == 1 else f"sample {sample} ({n_bad} of {n} samples): "
+        super().__init__(f"{source}: {where}{text}")
+
+
 def field_error(source: str, field: str, value, allowed: str) -> InputError:
     """Build the one-line error for a bad field.
 

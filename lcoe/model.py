@@ -16,7 +16,7 @@ import numpy as np
 from .case import Case
 from .cashflow import CashFlow, build_cashflow, energy_by_year
 from .energy import ENERGY_PARAMS, EnergyResult, simulate
-from .errors import InputError
+from .errors import ImplausibleResult, InputError
 from .irradiance import (
     FacetIrradiance,
     Geometry,
@@ -26,6 +26,7 @@ from .irradiance import (
     plane_of_array,
     solar_position,
 )
+from .plausibility import check_output
 from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS, KIMBER_HISTORY_PATHS, ROW_MOUNTS
 from .weather import Weather, bundled_weather_path, check_timezone, read_weather
 
@@ -282,7 +283,7 @@ def rain_series(weather: Weather, source: str):
 
 def evaluate(case: Case, site: Site, params: Mapping | None = None,
              weather_factors: np.ndarray | None = None, chunk_size: int = 16,
-             keep_hourly: bool = False) -> ModelOutput:
+             keep_hourly: bool = False, guard: bool = True) -> ModelOutput:
     """Run parameter sets through the hourly physics and the cash flow.
 
     Parameters
@@ -301,6 +302,10 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
         Samples per chunk in the hourly model (memory bound).
     keep_hourly : bool
         Keep hourly delivered power (for checks; memory grows with n_s).
+    guard : bool
+        Raise :class:`~lcoe.errors.ImplausibleResult` when a sample's result breaks physics
+        or is absurd (:func:`lcoe.plausibility.check_output`); False returns every sample and
+        leaves the checks to the caller (the Monte Carlo counts failing trials).
 
     Returns
     -------
@@ -328,19 +333,20 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
         idx = np.nonzero(inverse == g)[0]
         parts.append((idx, _simulate_group(case, site, full, idx, chunk_size, keep_hourly)))
     energy = parts[0][1] if len(parts) == 1 else _merge(parts, n_s)
-    cash = cash_flow(case, full, energy, weather_factors)
+    with np.errstate(all="ignore"):  # nonsense results are caught by the guards below
+        cash = cash_flow(case, full, energy, weather_factors)
     if cash.outage_loss_fraction is not None:  # the loss chain's last step: mean over the life
         chain = dict(energy.loss_chain_kwh)
         chain["after_outages_kwh"] = chain["delivered_kwh"] * (
             1.0 - cash.outage_loss_fraction[:, 1:].mean(axis=1))
         energy = replace(energy, loss_chain_kwh=chain)
-    if not np.all(np.isfinite(cash.lcoe_real)):
-        bad = int(np.argmax(~np.isfinite(cash.lcoe_real)))
-        raise InputError(f"{case.source}: the model gave a non-finite LCOE for sample {bad} "
-                         f"(discounted energy {cash.pv_energy_real_kwh[bad]:g} kWh); "
-                         f"check that the plant delivers energy")
-    return ModelOutput(energy=energy, cashflow=cash, params=full,
-                       weather_factors=weather_factors)
+    out = ModelOutput(energy=energy, cashflow=cash, params=full, weather_factors=weather_factors)
+    if guard:
+        bad, text = check_output(case["plant.mount"], out)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise ImplausibleResult(case.source, text(i), i, int(bad.sum()), n_s)
+    return out
 
 
 def cash_flow(case: Case, params: Mapping, energy: EnergyResult,

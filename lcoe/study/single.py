@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..case import Case
-from ..errors import InputError
+from ..errors import ImplausibleResult, InputError
 from ..model import ModelOutput, Site, evaluate
 from ..uncertainty.spec import UncertainSpec
 from ..uncertainty.stats import Z90, Z99
@@ -165,6 +165,14 @@ def weather_note(case: Case, site: Site, spec: UncertainSpec) -> str:
     return "no year-to-year weather variability given"
 
 
+def _trial_text(i: int, text: str, names, x) -> str:
+    """``trial i (inputs ...): text``, the sampled inputs cut to a short list."""
+    inputs = ", ".join(f"{k} = {v:.4g}" for k, v in zip(names, x))
+    if len(inputs) > 160:
+        inputs = inputs[:157] + "..."
+    return f"trial {i} ({inputs or 'energy factors only'}): {text}"
+
+
 def _check_finite(trials: Trials) -> None:
     for key in OUTPUTS:  # collector outputs such as an IRR may legitimately have no value
         v = trials.outputs[key]
@@ -272,7 +280,14 @@ def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
             sl = slice(start, min(start + chunk_size, X.shape[0]))
             params = {k: v[sl] for k, v in params_all.items()}
             wf = np.repeat(persist[sl, None], life, axis=1)
-            out = evaluate(case, site, params, weather_factors=wf)
+            try:
+                out = evaluate(case, site, params, weather_factors=wf)
+            except ImplausibleResult as exc:
+                i = start + exc.sample
+                raise InputError(f"{case.source}: sensitivity design point "
+                                 f"{_trial_text(i, exc.text, spec.names, X[i])}; narrow the "
+                                 f"[uncertain] ranges (low/high) so that every point is a "
+                                 f"possible plant") from None
             c = out.cashflow
             if output in extra:
                 y[sl] = extra[output](out, params)
