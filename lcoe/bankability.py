@@ -253,7 +253,8 @@ class BankabilityBlock:
     def trial_finance(self, case: Case):
         """``fn(model_output, params) -> FinanceResult`` of trials run with the sized loan."""
         debt = float(self.finance.debt[0])
-        service = self.finance.debt_service[0]
+        # the schedule's last year can round to -1e-9 (repays the exact balance): not a profile
+        service = np.maximum(self.finance.debt_service[0], 0.0)
         kwargs = _tax_debt_kwargs(case)
 
         def run(out: ModelOutput, params: dict) -> FinanceResult:

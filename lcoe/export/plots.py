@@ -68,8 +68,22 @@ def _style(ax) -> None:
         ax.spines[side].set_visible(False)
 
 
+def literal_text(fig):
+    """Draw every text of ``fig`` literally and return the figure.
+
+    A ``$`` in a currency, case or site name is a dollar sign, not the start of a formula
+    (matplotlib's mathtext would fail on it or garble it). Call just before saving.
+    """
+    from matplotlib.text import Text
+
+    for text in fig.findobj(Text):
+        text.set_parse_math(False)
+    return fig
+
+
 def figure_png(fig) -> bytes:
-    """PNG bytes of a figure."""
+    """PNG bytes of a figure, its texts drawn literally (:func:`literal_text`)."""
+    literal_text(fig)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=DPI)
     return buf.getvalue()

@@ -11,6 +11,7 @@ import json
 from pathlib import Path
 
 from ..cashflow import LCOE_FORMULA
+from .plots import literal_text
 from .summary import _clean
 from .cells import write_csv
 from .workbook import put_text
@@ -270,7 +271,7 @@ def plot_ranking(result, path: Path) -> None:
         ax.text(0.5, 0.5, "no site x technology completed", transform=ax.transAxes,
                 ha="center")
     fig.tight_layout()
-    fig.savefig(path, dpi=120)
+    literal_text(fig).savefig(path, dpi=120)
     plt.close(fig)
 
 
@@ -320,7 +321,7 @@ def plot_site_map(result, path: Path) -> None:
     if handles:
         ax.legend(handles=handles, fontsize=9, loc="best")
     fig.tight_layout()
-    fig.savefig(path, dpi=120)
+    literal_text(fig).savefig(path, dpi=120)
     plt.close(fig)
 
 

@@ -133,6 +133,11 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
         raise InputError(f"--samples {n}: expected at least 2 trials")
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])
+    d = len(spec.dists)
+    if spec.corr is not None and n <= d and not np.allclose(spec.corr, np.eye(d)):
+        raise InputError(f"--samples {n}: the [[correlation]] tables of {case.source} need "
+                         f"more Monte Carlo trials than uncertain inputs ({d}); expected "
+                         f"--samples {d + 1} or more")
     run = single_run(case, spec, collectors)
     design = build_design([run.member()], n, seed, method, source=case.source)
     chunks = max(1, -(-n // chunk_size))

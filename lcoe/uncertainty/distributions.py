@@ -153,6 +153,14 @@ def _check_params(
             low,
             "a number > 0 (lognormal values are positive; omit low for no truncation)",
         )
+    if dist == "lognormal" and high is not None and high <= 0.0:
+        raise _error(
+            source,
+            path,
+            "high",
+            high,
+            "a number > 0 (lognormal values are positive; omit high for no truncation)",
+        )
     if low is not None and high is not None and low >= high:
         raise _error(source, path, "low", low, f"a number < high ({high!r})")
     if "mode" in p and not low <= p["mode"] <= high:
