@@ -184,7 +184,13 @@ class Case:
     def weather_path(self) -> Path | None:
         """Absolute path of the weather file, or None for the bundled default."""
         w = self.values.get("site.weather")
-        return None if w is None else (self.base_dir / str(w)).resolve()
+        if w is None:
+            return None
+        p = self.base_dir / str(w)
+        try:
+            return p.resolve()
+        except (OSError, RuntimeError):  # a symlink loop: the reader names the problem
+            return p.absolute()
 
     def with_values(self, overrides: Mapping[str, Any]) -> Case:
         """A copy with some scalar values replaced (validated like the file)."""
@@ -360,6 +366,8 @@ def _coerce(f: Field, value: Any, source: str) -> Any:
     if f.kind in ("str", "path"):
         if not isinstance(value, str):
             raise field_error(source, f.path, value, f.allowed())
+        if f.kind == "path" and ("\x00" in value or not value.strip()):
+            raise field_error(source, f.path, value, "a file path (not empty, no NUL byte)")
         return value
     if f.kind == "choice":
         if value not in f.choices:

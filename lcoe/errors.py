@@ -14,11 +14,34 @@ from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 
 
+#: Longest echo of a user's value in a message [characters]; longer ones are cut in the middle.
+MAX_VALUE_CHARS = 80
+#: Longest error line [characters]: a safety net, messages are written to stay far below it.
+MAX_LINE_CHARS = 600
+
+
+def short_text(text, n: int = MAX_VALUE_CHARS) -> str:
+    """``text`` with control characters escaped, cut to ``n`` characters in the middle.
+
+    >>> short_text("a" * 100, 9)
+    'aaa...aaa'
+    """
+    text = "".join(c if c.isprintable() or c == " " else repr(c)[1:-1] for c in str(text))
+    if len(text) <= n:
+        return text
+    head = (n - 3) // 2
+    return text[:head] + "..." + text[len(text) - (n - 3 - head):]
+
+
 class InputError(ValueError):
-    """Invalid user input; the message is a single line fit for the terminal."""
+    """Invalid user input; the message is a single line fit for the terminal.
+
+    Whitespace runs (newlines included) become one space, other control characters are
+    escaped and the line is cut to :data:`MAX_LINE_CHARS`.
+    """
 
     def __init__(self, message: str):
-        super().__init__(" ".join(str(message).split()))
+        super().__init__(short_text(" ".join(str(message).split()), MAX_LINE_CHARS))
 
 
 class ImplausibleResult(InputError):
@@ -56,7 +79,7 @@ def field_error(source: str, field: str, value, allowed: str) -> InputError:
     allowed : str
         Plain description of what is allowed, e.g. ``"a number in [0, 90]"``.
     """
-    return InputError(f"{source}: {field} = {value!r}: expected {allowed}")
+    return InputError(f"{source}: {field} = {short_text(repr(value))}: expected {allowed}")
 
 
 def closest(name: str, candidates: Iterable[str]) -> str | None:

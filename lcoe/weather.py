@@ -14,14 +14,17 @@ of consecutive hours (8760 or 8784) nor whole calendar years.
 
 from __future__ import annotations
 
+import datetime
 import io
+import re
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from .errors import InputError
+from .errors import InputError, short_text
 
 COLUMNS = ("ghi", "dni", "dhi", "temp_air", "wind_speed")
 UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_speed": "m/s",
@@ -31,6 +34,8 @@ UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_spe
 OPTIONAL_COLUMNS = ("precip_mm",)
 GHI_MAX_W_M2 = 1500.0
 NEGATIVE_TOLERANCE_W_M2 = -10.0
+#: A UTC offset at the end of an ISO 8601 time: Z, +HH, +HHMM or +HH:MM.
+_ISO_OFFSET = re.compile(r"\d(Z|[+-]\d{2}(:?\d{2})?)$")
 
 
 def bundled_weather_path() -> Path:
@@ -114,16 +119,44 @@ def read_weather(path: str | Path, time_label: str | None = None) -> Weather:
     Weather
     """
     p = Path(path)
-    src = str(path)
-    if not p.is_file():
-        raise InputError(f"{src}: weather file not found")
+    src = short_text(str(path))
+    _check_file(p, src)
     if p.suffix.lower() == ".epw":
         return _read_epw(p, src)
     with open(p, encoding="utf-8", errors="replace") as fh:
-        first = fh.readline()
+        first = fh.readline(4096)
     if _looks_like_tmy3_header(first):
         return _read_tmy3(p, src)
     return _read_csv(p, src, time_label)
+
+
+def _check_file(p: Path, src: str) -> None:
+    """Refuse a weather path that is not a readable, non-empty regular text file.
+
+    Nothing of the file is echoed: a path such as ``/proc/self/environ`` holds secrets.
+    """
+    if "\x00" in str(p):
+        raise InputError(f"{src}: a weather path cannot hold a NUL byte")
+    try:
+        st = p.stat()
+    except FileNotFoundError:
+        raise InputError(f"{src}: weather file not found") from None
+    except (OSError, RuntimeError, ValueError) as exc:  # symlink loop, name too long, ...
+        why = getattr(exc, "strerror", None) or "symlink loop or invalid path"
+        raise InputError(f"{src}: cannot open the weather file ({why})") from None
+    if not stat.S_ISREG(st.st_mode):
+        raise InputError(f"{src}: the weather path is not a regular file")
+    if st.st_size == 0:
+        raise InputError(f"{src}: the weather file is empty (or a special file such as one "
+                         f"under /proc); expected TMY3, EPW or plain CSV")
+    try:
+        with open(p, "rb") as fh:
+            head = fh.read(65536)
+    except OSError as exc:
+        raise InputError(f"{src}: cannot read the weather file ({exc.strerror})") from None
+    if b"\x00" in head:
+        raise InputError(f"{src}: not a text file (it holds NUL bytes); expected TMY3, EPW or "
+                         f"plain CSV")
 
 
 def _looks_like_tmy3_header(line: str) -> bool:
@@ -184,9 +217,14 @@ def _read_csv(p: Path, src: str, time_label: str | None) -> Weather:
         df = pd.read_csv(io.StringIO(text), dtype={0: str})
     except Exception as exc:
         raise InputError(f"{src}: not a readable CSV file ({exc})") from None
-    df.columns = [c.strip() for c in df.columns]
+    df.columns = [str(c).strip() for c in df.columns]
     if "timestamp" not in df.columns:
-        raise InputError(f"{src}: missing column 'timestamp' (found: {', '.join(df.columns)})")
+        raise InputError(f"{src}: missing column 'timestamp' (found: "
+                         f"{short_text(', '.join(df.columns), 60)!r}); expected the header "
+                         f"timestamp,{','.join(COLUMNS)}")
+    if df.empty:
+        raise InputError(f"{src}: no data rows below the header; expected 8760 or 8784 hourly "
+                         f"rows")
     stamps = df.pop("timestamp").astype(str).str.strip()
     index = _parse_stamps(stamps, src)
     df.index = index
@@ -208,9 +246,12 @@ def _parse_stamps(stamps: pd.Series, src: str) -> pd.DatetimeIndex:
     for i, s in enumerate(fixed):
         try:
             ts = pd.Timestamp(s)
-        except (ValueError, TypeError):
-            raise InputError(f"{src}: row {i + 2}: timestamp {stamps.iloc[i]!r} is not an "
-                             f"ISO 8601 date-time") from None
+        except (ValueError, TypeError, OverflowError):
+            raise InputError(f"{src}: row {i + 2}: timestamp {short_text(stamps.iloc[i])!r} is "
+                             f"not an ISO 8601 date-time") from None
+        if ts.tzinfo is not None and not _ISO_OFFSET.search(s):
+            raise InputError(f"{src}: row {i + 2}: timestamp {short_text(stamps.iloc[i])!r} has "
+                             f"a malformed UTC offset; expected e.g. 2021-06-01T12:00:00+02:00")
         if ts.tzinfo is None:
             raise InputError(f"{src}: row {i + 2}: timestamp {stamps.iloc[i]!r} has no UTC "
                              f"offset; the time zone is ambiguous (write e.g. "
@@ -222,7 +263,8 @@ def _parse_stamps(stamps: pd.Series, src: str) -> pd.DatetimeIndex:
     if len(offsets) > 1:
         raise InputError(f"{src}: timestamps mix several UTC offsets ({len(offsets)}), e.g. "
                          f"daylight saving time; write every hour in one fixed offset")
-    return pd.DatetimeIndex(parsed)
+    tz = datetime.timezone(next(iter(offsets)))
+    return pd.DatetimeIndex([ts.tz_convert(tz) for ts in parsed])
 
 
 def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float, name: str,
