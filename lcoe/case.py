@@ -304,6 +304,10 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
                              f"{f.allowed()}, unit {f.unit})")
         else:
             values[f.path] = None if f.default is REQUIRED else f.default
+    life = values["case.lifetime_years"]
+    for path in ("debt.tenor_years", "tax.depreciation_years"):  # unused defaults never
+        if FIELD_BY_PATH[path].key not in tables[FIELD_BY_PATH[path].section]:  # refuse a
+            values[path] = min(values[path], life)  # short life
     replacements = _read_replacements(data.get("costs", {}).get("replacement", []), source)
     for rule, key, what in (("plant.tilt_rule", "tilt_deg", "latitude"),
                             ("plant.azimuth_rule", "azimuth_deg", "equator")):
@@ -546,6 +550,14 @@ def _check_cross_fields(values: Mapping[str, Any], replacements, source: str) ->
     if values["debt.tenor_years"] > life:
         raise field_error(source, "debt.tenor_years", values["debt.tenor_years"],
                           f"a tenor no longer than case.lifetime_years ({life})")
+    dep = values["tax.depreciation"]
+    if dep == "accelerated_5yr" and life < 6:
+        raise field_error(source, "tax.depreciation", dep,
+                          f"straight_line or declining_balance when case.lifetime_years "
+                          f"({life}) is below the 6 tax years of accelerated_5yr")
+    if dep != "accelerated_5yr" and values["tax.depreciation_years"] > life:
+        raise field_error(source, "tax.depreciation_years", values["tax.depreciation_years"],
+                          f"a recovery period no longer than case.lifetime_years ({life})")
     cy = values.get("revenue.contract_years")
     if cy is not None and cy > life:
         raise field_error(source, "revenue.contract_years", cy,

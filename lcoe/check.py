@@ -60,6 +60,9 @@ def check_case(path: str | Path) -> list[str]:
         lines.append(f"  claim:    physics audit {len(findings) - len(worst)} of "
                      f"{len(findings)} checks ok" + "".join(
                          f"\n    {f['verdict'].upper()}: {f['message']}" for f in worst))
+    from .plausibility import atypical_inputs
+
+    lines += [f"  warning: {note}" for note in atypical_inputs(case)]
     return lines
 
 

@@ -28,7 +28,13 @@ from .irradiance import (
 )
 from .plausibility import check_output
 from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS, KIMBER_HISTORY_PATHS, ROW_MOUNTS
-from .weather import Weather, bundled_weather_path, check_timezone, read_weather
+from .weather import (
+    Weather,
+    bundled_weather_path,
+    check_against_sun,
+    check_timezone,
+    read_weather,
+)
 
 
 @dataclass
@@ -160,6 +166,8 @@ def prepare(case: Case, weather: Weather | None = None) -> Site:
                      f"weather station ({weather.latitude_deg:.3f}, "
                      f"{weather.longitude_deg:.3f})")
     sun = solar_position(weather, lat, lon, case["site.altitude_m"])
+    if weather.fmt != "synthetic":
+        notes += check_against_sun(weather, sun.apparent_zenith_deg)
     return Site(weather=weather, sun=sun, notes=notes)
 
 

@@ -307,7 +307,8 @@ FIELDS: tuple[Field, ...] = (
     # --- debt ---------------------------------------------------------------------------------
     F("debt.interest_rate", "float", "1/year", "Loan interest rate (nominal)", default=0.06,
       low=0, high=1, typical="0.04-0.08"),
-    F("debt.tenor_years", "int", "years", "Loan tenor from financial close", default=18, low=1,
+    F("debt.tenor_years", "int", "years", "Loan tenor from financial close (absent: 18, or "
+      "the life if shorter)", default=18, low=1,
       high=60, typical="15-20"),
     F("debt.upfront_fee_fraction", "float", "-", "Arrangement fee as a fraction of the loan",
       default=0.02, low=0, high=0.2),

@@ -8,8 +8,12 @@ its end; a plain CSV must say how it labels its hours (``site.weather_time_label
 Checks on import (each a one-line :class:`~lcoe.errors.InputError` naming the file and row):
 missing columns, gaps or NaN, irradiance below -10 W/m2 (small negatives are night-time sensor
 offsets and are set to 0), GHI above 1500 W/m2, steps that are not one hour, timestamps without
-a UTC offset (ambiguous time zone), duplicate timestamps, and coverage that is neither one year
-of consecutive hours (8760 or 8784) nor whole calendar years.
+a UTC offset (ambiguous time zone), duplicate timestamps, coverage that is neither one year
+of consecutive hours (8760 or 8784) nor whole calendar years, 8784 hours without a 29 February,
+air temperature outside -60..60 C (kelvin or Fahrenheit), DHI above GHI, no data rows.
+With the site's solar position (:func:`check_against_sun`, called by :func:`lcoe.model.prepare`):
+irradiance at night and DNI/DHI that do not add up to GHI in daylight. The file's path and
+contents are never echoed beyond a short excerpt.
 """
 
 from __future__ import annotations
@@ -18,7 +22,7 @@ import datetime
 import io
 import re
 import stat
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -34,6 +38,21 @@ UNITS = {"ghi": "W/m2", "dni": "W/m2", "dhi": "W/m2", "temp_air": "C", "wind_spe
 OPTIONAL_COLUMNS = ("precip_mm",)
 GHI_MAX_W_M2 = 1500.0
 NEGATIVE_TOLERANCE_W_M2 = -10.0
+#: Air temperatures accepted [C] (the extremes on record are about -89 and 57 C).
+TEMP_AIR_RANGE_C = (-60.0, 60.0)
+#: DHI may exceed GHI by this much before it is refused (sensor offsets) [W/m2], [-].
+DIFFUSE_EXCESS_W_M2 = 20.0
+DIFFUSE_EXCESS_FRACTION = 0.10
+#: Zenith at the hour's centre above which the whole hour is night [deg].
+NIGHT_ZENITH_DEG = 98.0
+#: Irradiance at night accepted as sensor offset [W/m2].
+NIGHT_OFFSET_W_M2 = 20.0
+#: Closure check of DNI cos(z) + DHI = GHI: sun higher than this zenith [deg], tolerance
+#: [W/m2] or share of GHI [-], and the share of daylight hours allowed to miss it [-].
+CLOSURE_ZENITH_DEG = 80.0
+CLOSURE_TOL_W_M2 = 50.0
+CLOSURE_TOL_FRACTION = 0.20
+CLOSURE_MAX_SHARE = 0.01
 #: A UTC offset at the end of an ISO 8601 time: Z, +HH, +HHMM or +HH:MM.
 _ISO_OFFSET = re.compile(r"\d(Z|[+-]\d{2}(:?\d{2})?)$")
 
@@ -119,15 +138,16 @@ def read_weather(path: str | Path, time_label: str | None = None) -> Weather:
     Weather
     """
     p = Path(path)
-    src = short_text(str(path))
+    src = short_text(str(path), 120)  # for messages; the Weather keeps the whole path
     _check_file(p, src)
     if p.suffix.lower() == ".epw":
-        return _read_epw(p, src)
-    with open(p, encoding="utf-8", errors="replace") as fh:
-        first = fh.readline(4096)
-    if _looks_like_tmy3_header(first):
-        return _read_tmy3(p, src)
-    return _read_csv(p, src, time_label)
+        weather = _read_epw(p, src)
+    else:
+        with open(p, encoding="utf-8", errors="replace") as fh:
+            first = fh.readline(4096)
+        weather = _read_tmy3(p, src) if _looks_like_tmy3_header(first) else \
+            _read_csv(p, src, time_label)
+    return replace(weather, source=str(path))
 
 
 def _check_file(p: Path, src: str) -> None:
@@ -275,8 +295,10 @@ def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float
                          f"(need {', '.join(COLUMNS)} in W/m2, C, m/s)")
     cols = list(COLUMNS) + [c for c in OPTIONAL_COLUMNS if c in df.columns]
     data = df[cols].apply(pd.to_numeric, errors="coerce").astype(float)
-    row0 = 2 if fmt == "csv" else 3 if fmt == "tmy3" else 9  # first data line in the file
+    row0 = first_row(fmt)
     notes: list[str] = []
+    if data.empty:
+        raise InputError(f"{src}: no data rows; expected 8760 or 8784 hourly rows")
     values = data.to_numpy()
     bad = ~np.isfinite(values)
     if bad.any():
@@ -312,7 +334,21 @@ def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float
         r = int(np.argmax(ghi > GHI_MAX_W_M2))
         raise InputError(f"{src}: row {r + row0}: ghi = {ghi[r]:g} W/m2 is above "
                          f"{GHI_MAX_W_M2:g} W/m2, physically implausible at ground level")
+    _check_temperature(data["temp_air"].to_numpy(), src, row0)
+    dhi = data["dhi"].to_numpy()
+    over = dhi > ghi + np.maximum(DIFFUSE_EXCESS_W_M2, DIFFUSE_EXCESS_FRACTION * ghi)
+    if over.any():
+        r = int(np.argmax(over))
+        raise InputError(f"{src}: row {r + row0}: dhi = {dhi[r]:g} W/m2 is above ghi = "
+                         f"{ghi[r]:g} W/m2 ({int(over.sum())} rows); the diffuse part cannot "
+                         f"exceed the global irradiance (columns swapped?)")
     n = len(data)
+    if n == 8784 and not ((idx.month == 2) & (idx.day == 29)).any():
+        r = 8760
+        raise InputError(f"{src}: row {r + row0}: 8784 hourly rows but the span from "
+                         f"{idx[0]:%Y-%m-%d} to {idx[-1]:%Y-%m-%d} has no 29 February, so it "
+                         f"is not a leap year (8760 hours); row {r + row0} ({idx[r]}) is one "
+                         f"day too many")
     years = idx.year
     whole_years = all(
         (years == y).sum() == (8784 if pd.Timestamp(year=y, month=1, day=1).is_leap_year
@@ -329,6 +365,84 @@ def _finish(df: pd.DataFrame, src: str, fmt: str, lat, lon, alt, offset_h: float
                    utc_offset_h=float(offset_h), name=name,
                    typical_year=bool(typical or len(np.unique(years)) == 1 or not whole_years),
                    notes=tuple(notes))
+
+
+def first_row(fmt: str) -> int:
+    """Line number of the first data row in a file of format ``fmt`` (1-based)."""
+    return {"csv": 2, "tmy3": 3, "epw": 9}.get(fmt, 1)
+
+
+def _check_temperature(temp_c: np.ndarray, src: str, row0: int) -> None:
+    """Refuse air temperatures outside :data:`TEMP_AIR_RANGE_C`, guessing the unit used."""
+    lo, hi = TEMP_AIR_RANGE_C
+    out = (temp_c < lo) | (temp_c > hi)
+    if not out.any():
+        return
+    r = int(np.argmax(out))
+    mean = float(np.mean(temp_c))
+    if 200.0 <= mean <= 340.0:
+        hint = f"the mean of {mean:.0f} looks like kelvin (C = K - 273.15)"
+    elif temp_c[r] > hi and mean < 120.0:
+        hint = "values above 60 look like Fahrenheit (C = (F - 32) / 1.8)"
+    else:
+        hint = "check the column and its unit"
+    raise InputError(f"{src}: row {r + row0}: temp_air = {temp_c[r]:g} is outside "
+                     f"{lo:g}..{hi:g} C ({int(out.sum())} rows); {hint}")
+
+
+def check_against_sun(weather: Weather, zenith_deg: np.ndarray) -> list[str]:
+    """Refuse irradiance at night and DNI/DHI that do not add up to GHI in daylight.
+
+    Parameters
+    ----------
+    weather : Weather
+    zenith_deg : numpy.ndarray
+        Apparent solar zenith at each interval centre [deg], (n_hours,).
+
+    Returns
+    -------
+    list of str
+        Notes on the few daylight hours whose components do not close (when they are at most
+        :data:`CLOSURE_MAX_SHARE` of the daylight hours).
+
+    Notes
+    -----
+    Night: the sun is below the horizon for the whole hour when its zenith at the centre is
+    above :data:`NIGHT_ZENITH_DEG` (the sun moves at most 7.5 deg in half an hour); irradiance
+    above :data:`NIGHT_OFFSET_W_M2` then is not a sensor offset but shifted timestamps (a
+    wrong UTC offset or hour label). Closure: ``DNI cos(zenith) + DHI = GHI`` for hours with
+    the sun higher than :data:`CLOSURE_ZENITH_DEG`, within :data:`CLOSURE_TOL_W_M2` or
+    :data:`CLOSURE_TOL_FRACTION` of GHI (common practice for quality control of hourly data).
+    """
+    src, row0 = weather.source, first_row(weather.fmt)
+    d = weather.data
+    ghi, dni, dhi = (d[c].to_numpy() for c in ("ghi", "dni", "dhi"))
+    z = np.asarray(zenith_deg, dtype=float)
+    night = z > NIGHT_ZENITH_DEG
+    lit = night & (np.maximum(np.maximum(ghi, dni), dhi) > NIGHT_OFFSET_W_M2)
+    if lit.any():
+        r = int(np.argmax(lit))
+        raise InputError(f"{src}: row {r + row0}: ghi = {ghi[r]:g}, dni = {dni[r]:g} W/m2 at "
+                         f"{d.index[r]} with the sun {z[r] - 90:.0f} deg below the horizon "
+                         f"({int(lit.sum())} night rows lit); check the UTC offset, "
+                         f"site.weather_time_label and the site's coordinates")
+    day = z < CLOSURE_ZENITH_DEG
+    if not day.any():
+        return []
+    with np.errstate(invalid="ignore"):
+        err = dni * np.cos(np.radians(z)) + dhi - ghi
+    bad = day & (np.abs(err) > np.maximum(CLOSURE_TOL_W_M2, CLOSURE_TOL_FRACTION * ghi))
+    if not bad.any():
+        return []
+    r = int(np.argmax(bad))
+    share = bad.sum() / day.sum()
+    what = (f"row {r + row0}: dni x cos(zenith) + dhi = {ghi[r] + err[r]:.0f} W/m2 but ghi = "
+            f"{ghi[r]:g} W/m2 ({int(bad.sum())} of {int(day.sum())} daylight rows differ by "
+            f"more than {CLOSURE_TOL_W_M2:g} W/m2 or {100 * CLOSURE_TOL_FRACTION:g} %)")
+    if share > CLOSURE_MAX_SHARE:
+        raise InputError(f"{src}: {what}; the components do not add up to the global "
+                         f"irradiance (columns swapped, wrong units or shifted timestamps?)")
+    return [f"weather {what}; accepted as measurement noise"]
 
 
 def check_timezone(weather: Weather, timezone: str | None, source: str) -> None:
