@@ -74,8 +74,9 @@ def format_table(result) -> str:
         lines += ["", f"  Physics audit: {ok} of {len(findings)} checks ok"]
         lines += [f"    {f['verdict'].upper()}: {f['message']}" for f in findings
                   if f["verdict"] != "ok"]
-    for n in result.notes:
-        lines.append(f"  note: {n}")
+    for n in result.notes:  # unusual inputs are warnings; the notes keep them as notes
+        lines.append(f"  warning: {n[15:]}" if n.startswith("unusual input: ") else
+                     f"  note: {n}")
     return "\n".join(lines)
 
 

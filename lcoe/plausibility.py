@@ -24,6 +24,8 @@ sampled inputs, so the user can narrow the ``[uncertain]`` ranges.
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 
 #: Largest performance ratio accepted [-]. IEC 61724-1 PR is at most about 1 for a real plant;
@@ -113,8 +115,8 @@ def energy_problems(mount: str, energy, params) -> tuple[np.ndarray, list]:
             f"{keys(i, ('plant.module_efficiency',))} (they set the number of bodies"
             + (f", {energy.n_bodies[i]:,.0f})" if energy.n_bodies is not None else ")"))),
         (~(energy.annual_kwh > 0), lambda i: (
-            f"the plant delivers {energy.annual_kwh[i]:,.0f} kWh a year; a plant must deliver "
-            f"energy (check the site, the weather file and "
+            f"the plant delivers {energy.annual_kwh[i]:,.0f} kWh a year, so its LCOE is "
+            f"non-finite (check the site, the weather file and "
             f"{keys(i, ('plant.availability', 'plant.dc_capacity_kw'))})")),
         (pr > PR_MAX, lambda i: (
             f"performance ratio {pr[i]:.3f} is above {PR_MAX:g}: more energy than the light on "
@@ -204,3 +206,78 @@ def check_output(mount: str, out) -> tuple[np.ndarray, callable]:
     c_bad, c_checks = cost_problems(out.cashflow, out.params)
     checks = e_checks + c_checks
     return e_bad | c_bad, lambda i: describe(checks, i)
+
+
+#: A value this many times beyond its typical range gets a hint about the unit [-].
+_UNIT_SLIP = 20.0
+_NUMBER = r"-?\d+(?:\.\d+)?(?:e-?\d+)?"
+_RANGE = re.compile(rf"({_NUMBER})\s*(?:-|to)\s*({_NUMBER})|({_NUMBER})")
+
+
+def typical_ranges(typical: str) -> list[tuple[float, float]]:
+    """Numeric ranges of a schema ``typical`` text; a single value v stands for [v/2, 2v].
+
+    ``"10-35 fixed; 0 trackers"`` -> [(10, 35), (0, 0)]; ``"25 (Faiman 2008)"`` -> [(12.5, 50)]
+    (text in brackets is a citation, not a range); relative ranges (``"2-4 x the body's
+    width"``) give [].
+    """
+    if " x " in typical:
+        return []
+    out = []
+    for part in re.sub(r"\([^)]*\)", "", typical.replace(",", "")).split(";"):
+        m = _RANGE.search(part)
+        if not m:
+            continue
+        if m.group(3) is not None:
+            v = float(m.group(3))
+            out.append((v, v) if v == 0 else tuple(sorted((v / 2, v * 2))))
+        else:
+            out.append(tuple(sorted((float(m.group(1)), float(m.group(2))))))
+    return out
+
+
+def atypical_inputs(case) -> list[str]:
+    """One line per numeric case value outside its schema ``typical`` range (a warning).
+
+    Catches unit slips that validation cannot: capex entered as a total, a tariff per MWh, a
+    capacity in MW, a DSCR or a loss in percent. Only values written in the case file count;
+    defaults are typical by construction.
+
+    Parameters
+    ----------
+    case : lcoe.case.Case
+
+    Returns
+    -------
+    list of str
+        E.g. ``"costs.capex_per_kw = 2.1e+07 currency/kW is outside the typical 700-1300
+        utility scale (a total instead of per kW?)"``.
+    """
+    from .schema import FIELDS, STATEMENT_SECTIONS
+
+    notes = []
+    for f in FIELDS:
+        value = case.values.get(f.path)
+        if f.section in STATEMENT_SECTIONS or not f.numeric or value is None or not f.typical or value == f.default:
+            continue
+        ranges = typical_ranges(f.typical)
+        if not ranges or any(lo <= value <= hi for lo, hi in ranges):
+            continue
+        lo = min(r[0] for r in ranges)
+        hi = max(r[1] for r in ranges)
+        hint = ""
+        if hi > 0 and value > _UNIT_SLIP * hi:
+            hint = (" (per MWh instead of per kWh?)" if f.unit.endswith("/kWh") else
+                    " (a total instead of per kW?)" if "/kW" in f.unit else
+                    " (percent instead of a fraction or ratio?)" if f.unit in ("-", "1/year")
+                    else " (another unit?)")
+        elif lo > 0 and 0 < value < lo / _UNIT_SLIP:
+            hint = " (in a larger unit, e.g. MW instead of kW?)"
+        unit = "" if f.unit == "-" else f" {f.unit}"
+        notes.append(f"{f.path} = {value:,.6g}{unit} is outside the typical {f.typical}"
+                     f"{hint}")
+    for i, (name, dscr) in enumerate(case.debt_sizing):
+        if dscr > 5:
+            notes.append(f"debt.sizing[{i}].min_dscr = {dscr:g} for {name} is far above the "
+                         f"usual 1.0-1.6 (a ratio, not percent: 1.30 means 130 %)")
+    return notes

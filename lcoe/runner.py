@@ -13,6 +13,7 @@ from .case import Case, load_case
 from .defaults import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE  # noqa: F401 (re-export)
 from .model import evaluate, prepare
 from .output import staged
+from .plausibility import atypical_inputs
 from .results import RunResult
 
 #: Libraries whose versions are stored with every result.
@@ -99,7 +100,8 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     from .claims import audit_run
     from .tech.concentrator_model import cautions
 
-    notes = list(site.notes) + cautions(case)
+    notes = list(site.notes) + cautions(case) + [f"unusual input: {n}"
+                                                 for n in atypical_inputs(case)]
     extras = {"audit": audit_run(case, site, base)}
     bank = None
     if "revenue" in case.sections:

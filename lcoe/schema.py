@@ -136,7 +136,7 @@ FIELDS: tuple[Field, ...] = (
     F("plant.backtrack", "bool", "-", "Single-axis: backtrack to avoid row-to-row shading",
       default=True),
     F("plant.dc_capacity_kw", "float", "kW", "DC nameplate capacity at STC", low=0,
-      low_open=True),
+      low_open=True, typical="100-500000 (commercial to utility scale)"),
     F("plant.dc_ac_ratio", "float", "-", "DC nameplate / inverter AC rating", default=1.25,
       low=0, high=5, low_open=True, typical="1.1-1.4"),
     F("plant.module_efficiency", "float", "-", "Module efficiency at STC (sets cell area)",

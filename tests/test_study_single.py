@@ -118,14 +118,20 @@ def test_multi_year_file_supplies_year_to_year_spread(tmp_path):
     # so the yearly factors are exactly the file's own year ratios.
     import pandas as pd
 
+    import pvlib
+
     frames = []
     for year, scale in ((2019, 0.9), (2020, 1.0), (2021, 1.1)):
-        idx = pd.date_range(f"{year}-01-01", periods=8784 if year == 2020 else 8760, freq="h")
-        hour = idx.hour.to_numpy()
-        ghi = np.clip(700 * np.sin(np.pi * (hour - 6) / 12), 0, None) * scale
+        idx = pd.date_range(f"{year}-01-01", periods=8784 if year == 2020 else 8760, freq="h",
+                            tz="Etc/GMT+5")
+        # components that add up (DNI cos z + DHI = GHI) with the sun at each hour's centre
+        zen = pvlib.solarposition.get_solarposition(idx + pd.Timedelta(minutes=30), 36.1,
+                                                    -79.95)["apparent_zenith"].to_numpy()
+        cosz = np.clip(np.cos(np.radians(zen)), 0, None)
+        dni, dhi = 800 * scale * (cosz > 0), 100 * scale * cosz
         frames.append(pd.DataFrame({"timestamp": [t.strftime("%Y-%m-%dT%H:%M:%S-05:00")
                                                   for t in idx],
-                                    "ghi": ghi, "dni": ghi * 0.7, "dhi": ghi * 0.3,
+                                    "ghi": dni * cosz + dhi, "dni": dni, "dhi": dhi,
                                     "temp_air": 15.0, "wind_speed": 2.0}))
     pd.concat(frames).to_csv(tmp_path / "wx.csv", index=False)
     text = MINIMAL_CASE.replace("altitude_m = 273.0", 'altitude_m = 273.0\nweather = "wx.csv"\n'
