@@ -258,7 +258,8 @@ def atypical_inputs(case) -> list[str]:
     notes = []
     for f in FIELDS:
         value = case.values.get(f.path)
-        if f.section in STATEMENT_SECTIONS or not f.numeric or value is None or not f.typical or value == f.default:
+        if (f.section in STATEMENT_SECTIONS or not f.numeric or value is None
+                or not f.typical or value == f.default):
             continue
         ranges = typical_ranges(f.typical)
         if not ranges or any(lo <= value <= hi for lo, hi in ranges):
