@@ -16,7 +16,7 @@ import numpy as np
 from .case import Case
 from .cashflow import CashFlow, build_cashflow, energy_by_year
 from .energy import ENERGY_PARAMS, EnergyResult, simulate
-from .errors import ImplausibleResult
+from .errors import ImplausibleResult, InputError
 from .irradiance import (
     FacetIrradiance,
     Geometry,
