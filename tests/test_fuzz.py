@@ -213,7 +213,7 @@ def _apply(data: dict, op: str, path: str, value) -> None:
         table[key] = value
 
 
-@_examples(0.6, 150)
+@_examples(0.6, 120)
 @given(edits=st.lists(edit, min_size=1, max_size=3),
        samples=st.sampled_from([0] * 18 + [2, 13, 16, 40]))
 def test_fuzz_case_files(tmp_path_factory, edits, samples):
@@ -300,7 +300,7 @@ def _weather_apply(df, op, a, b, c):
     return df
 
 
-@_examples(0.3, 100)
+@_examples(0.3, 70)
 @given(edits=st.lists(weather_edit, min_size=0, max_size=3))
 def test_fuzz_weather_files(tmp_path_factory, edits):
     df = BASE_FRAME.copy()
