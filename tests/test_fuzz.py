@@ -72,9 +72,22 @@ def _memo_sun(monkeypatch):
 
 def run_cli(argv) -> tuple[int, str, str]:
     out, err = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        rc = main([str(a) for a in argv])
+    try:
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            rc = main([str(a) for a in argv])
+    except Exception as exc:
+        _log(str(argv[0]), "traceback", f"{type(exc).__name__}: {exc}")
+        raise
+    _log(str(argv[0]), rc, err.getvalue())
     return rc, out.getvalue(), err.getvalue()
+
+
+def _log(test: str, rc, err: str) -> None:
+    """With LCOE_FUZZ_LOG set, append one line per example (to count a long run as it goes)."""
+    path = os.environ.get("LCOE_FUZZ_LOG")
+    if path:
+        with open(path, "a", encoding="utf-8") as fh:
+            fh.write(json.dumps({"test": test, "rc": rc, "err": err[-300:]}) + "\n")
 
 
 def assert_contract(rc: int, out: str, err: str) -> None:
