@@ -355,3 +355,19 @@ def test_error_line_is_one_line_and_bounded():
     e = InputError("a\nb\tc\x1b[31m" + "z" * 5000)
     assert "\n" not in str(e) and "\x1b" not in str(e) and len(str(e)) <= MAX_LINE_CHARS
     assert short_text("p" * 100) == "p" * 38 + "..." + "p" * 39
+
+
+def test_workbook_with_an_over_long_weather_path(tmp_path, capsys):
+    # found by the workbook fuzz: a 300-character site.weather typed into the Inputs sheet
+    import openpyxl
+
+    assert run_cli(["run", INPUTS / "demo_fixed_tilt.toml", "--out", tmp_path / "o"] + FAST,
+                   capsys)[0] == 0
+    wb = openpyxl.load_workbook(tmp_path / "o" / "workbook.xlsx")
+    ws = wb["Inputs"]
+    row = next(c.row for c in ws["A"] if c.value == "site.weather")
+    ws.cell(row=row, column=2, value="x" * 300)
+    wb.save(tmp_path / "edited.xlsx")
+    rc, _, err = run_cli(["run", tmp_path / "edited.xlsx", "--out", tmp_path / "o2"] + FAST,
+                         capsys)
+    one_line_error(rc, err, "cannot open the weather file")

@@ -308,6 +308,15 @@ def _base_dir(workbook: Path, tables: dict, data: dict) -> Path:
     here = workbook.resolve().parent
     stored = tables.get("base_dir")
     weather = data.get("site", {}).get("weather")
-    if stored and (weather is None or (Path(stored) / str(weather)).exists()):
+    if stored and (weather is None or _exists(Path(stored) / str(weather))):
         return Path(stored)
     return here
+
+
+def _exists(path: Path) -> bool:
+    """``path.exists()``, False for a path the system cannot look up (too long, a loop, NUL):
+    the weather reader then names the problem in one line."""
+    try:
+        return path.exists()
+    except (OSError, RuntimeError, ValueError):
+        return False
