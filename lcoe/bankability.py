@@ -20,7 +20,7 @@ import numpy as np
 from .bank.metrics import BASE_CASE, FinanceResult, breakeven_tariff, project_finance
 from .case import Case
 from .errors import InputError
-from .finance import IrrResult, investment_irr, irr, mirr, npv
+from .finance import IrrResult, investment_irr, irr, irr_text, mirr, npv
 from .model import ModelOutput
 from .uncertainty.stats import QUANTILES, Z90, Z99, stats
 from .uncertainty.spec import UncertainSpec
@@ -527,14 +527,7 @@ def _irr_value(r: IrrResult):
 
 
 def _irr_text(r: IrrResult) -> str:
-    if np.isfinite(r.value) and len(r.roots) > 1:
-        return (f"{100 * r.value:.2f} % (investment root; all roots "
-                + ", ".join(f"{100 * x:.2f} %" for x in r.roots) + ")")
-    if np.isfinite(r.value):
-        return f"{100 * r.value:.2f} %"
-    if r.roots:
-        return "roots " + ", ".join(f"{100 * x:.2f} %" for x in r.roots) + f" ({r.reason})"
-    return f"none ({r.reason})"
+    return irr_text(r.value, r.roots, r.reason)
 
 
 def sized_finance(case: Case, base: ModelOutput, factors: dict) -> FinanceResult:

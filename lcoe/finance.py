@@ -30,7 +30,7 @@ __all__ = [
     "crf",
     "discount_factors",
     "irr",
-    "irr_many",
+    "irr_text",
     "investment_irr",
     "lcoe_from_flows",
     "nominal_rate",
@@ -43,8 +43,11 @@ __all__ = [
 #: Search interval of :func:`irr`, in rate per year: (IRR_LOW, IRR_HIGH].
 IRR_LOW = -0.99
 IRR_HIGH = 10.0
-#: Points of the root-scanning grid of :func:`irr` (uniform in log(1 + rate)).
-IRR_GRID_POINTS = 4001
+#: Points of the root-scanning grid of :func:`irr` and :func:`investment_irr` (uniform in
+#: log(1 + rate)).
+IRR_GRID_POINTS = 2001
+#: Most bisection steps refining a root (the bracket reaches one unit in the last place first).
+IRR_BISECTIONS = 80
 _SMALL = 1e-5  # below this |x|, removable singularities are evaluated by their series
 
 
@@ -358,8 +361,83 @@ def _scaled_npv(u: np.ndarray, cf: np.ndarray) -> np.ndarray:
     return np.sum(cf * np.exp(u * (shift - t)), axis=-1)
 
 
+_GRID_WEIGHTS: dict = {}
+
+
+def _irr_grid(n_years: int) -> tuple[np.ndarray, np.ndarray]:
+    """The IRR scanning grid in u = log(1 + rate) and its NPV weights (G, n_years + 1).
+
+    ``cf @ weights.T`` is :func:`_scaled_npv` at every grid point; kept per length.
+    """
+    if n_years not in _GRID_WEIGHTS:
+        u = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), IRR_GRID_POINTS)
+        t = np.arange(n_years + 1, dtype=float)
+        shift = np.where(u < 0.0, float(n_years), 0.0)
+        _GRID_WEIGHTS[n_years] = (u, np.exp(u[:, None] * (shift[:, None] - t)))
+    return _GRID_WEIGHTS[n_years]
+
+
+def _crossings(cf: np.ndarray, every: bool = False):
+    """Where the NPV of each row crosses zero on the IRR grid.
+
+    Returns ``u`` (G,), ``root`` (None unless ``every``) and ``falling``, both (n_rows, 2 G - 1)
+    booleans over positions ``p``: even ``p = 2 k`` is grid point k where the NPV is exactly
+    zero (k >= 1), odd ``p = 2 k + 1`` the interval (k, k + 1) over which it changes sign.
+    ``falling`` marks the crossings where the NPV turns from positive to negative as the rate
+    rises. Positions are in ascending order of the rate.
+    """
+    u, weights = _irr_grid(cf.shape[-1] - 1)
+    g = cf @ weights.T
+    pos, neg = g > 0, g < 0
+    falling = np.zeros((g.shape[0], 2 * u.size - 1), dtype=bool)
+    falling[:, 1::2] = pos[:, :-1] & neg[:, 1:]
+    root = None
+    if every:
+        root = falling.copy()
+        root[:, 1::2] |= neg[:, :-1] & pos[:, 1:]
+    zero = ~(pos[:, 1:] | neg[:, 1:])
+    if zero.any():
+        # falls through zero at grid point k: positive before, negative after (past the last
+        # point, taken as crossing)
+        after_negative = np.concatenate([neg[:, 2:], pos[:, -2:-1]], axis=1)
+        falling[:, 2::2] = zero & pos[:, :-1] & after_negative
+        if every:
+            root[:, 2::2] = zero
+    return u, root, falling
+
+
+def _refine(cf: np.ndarray, u: np.ndarray, position: np.ndarray) -> np.ndarray:
+    """Roots [1/year] of the rows of ``cf`` at crossing positions ``position`` (see
+    :func:`_crossings`): grid points as they are, intervals by bisection in u to the last bit.
+    """
+    k = position // 2
+    a, b = u[k], u[np.minimum(k + 1, u.size - 1)]
+    inside = position % 2 == 1
+    if np.any(inside):
+        rows = cf[inside]
+        lo, hi = a[inside], b[inside]
+        g_lo = _scaled_npv(lo, rows)
+        # bisection is sequential by nature; each step is vectorised over the rows
+        # (a row whose bracket cannot be halved any more is left as it is, so its root does not
+        # depend on the other rows of the call)
+        for _ in range(IRR_BISECTIONS):
+            m = 0.5 * (lo + hi)
+            active = (m > lo) & (m < hi)
+            if not np.any(active):
+                break
+            g_m = _scaled_npv(m, rows)
+            left = active & (np.sign(g_m) == np.sign(g_lo))
+            right = active & ~left
+            lo = np.where(left, m, lo)
+            g_lo = np.where(left, g_m, g_lo)
+            hi = np.where(right, m, hi)
+        a = a.copy()
+        a[inside] = 0.5 * (lo + hi)
+    return np.expm1(a)
+
+
 def irr(cashflows) -> IrrResult:
-    """All internal rates of return of one cash flow, or none with a reason.
+    """All internal rates of return of one cash flow, and the investment root among them.
 
     Parameters
     ----------
@@ -370,8 +448,9 @@ def irr(cashflows) -> IrrResult:
     -------
     IrrResult
         ``roots`` lists every root in (-0.99, 10] [1/year]; ``value`` is the investment root
-        (see Notes), or NaN with ``reason`` "no sign change in cash flows", "NPV does not cross
-        zero in (-99 %, 1000 %]" or :data:`NO_INVESTMENT_ROOT`.
+        (see Notes; the same number :func:`investment_irr` gives), or NaN with ``reason`` "no
+        sign change in cash flows", "NPV does not cross zero in (-99 %, 1000 %]" or
+        :data:`NO_INVESTMENT_ROOT`.
 
     Notes
     -----
@@ -382,17 +461,16 @@ def irr(cashflows) -> IrrResult:
     roots are -91 % and 6.6 % it is 6.6 %. All roots are reported beside it, and the MIRR
     (:func:`mirr`) is a single-valued companion.
 
-    The NPV is scanned on a grid of ``IRR_GRID_POINTS`` points uniform in ``u = log(1 + r)``
-    (spacing about 0.0017 in u) for sign changes; each bracket is refined with Brent's method
-    (``scipy.optimize.brentq``, xtol 1e-14). A root is only reported where the NPV changes sign
-    or is exactly zero on the grid, so no root is ever invented; two roots closer than the grid
+    The NPV is scanned on a grid of :data:`IRR_GRID_POINTS` points uniform in
+    ``u = log(1 + r)`` (spacing about 0.0035 in u) for sign changes; each bracket is refined by
+    bisection in u to the last bit. A root is only reported where the NPV changes sign or is
+    exactly zero on the grid, so no root is ever invented; two roots closer than the grid
     spacing, or a double root where the NPV touches zero without crossing, are not found.
 
     References
     ----------
     .. [1] Descartes' rule of signs: the number of positive roots of a polynomial is at most
        the number of sign changes of its coefficients (here in x = 1 / (1 + r)).
-    .. [2] Brent, R. P. (1973). Algorithms for Minimization without Derivatives. Prentice-Hall.
     """
     cf = np.asarray(cashflows, dtype=float)
     if cf.ndim != 1 or cf.size < 2:
@@ -402,32 +480,20 @@ def irr(cashflows) -> IrrResult:
     changes = int(sign_changes(cf))
     if changes == 0:
         return IrrResult([], float("nan"), "no sign change in cash flows", 0)
-
-    u = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), IRR_GRID_POINTS)
-    g = _scaled_npv(u, cf)
-    sg = np.sign(g)
-    from scipy.optimize import brentq  # imported here: slow to import
-
-    found = []  # (root, NPV falls through zero as the rate rises)
-    for k in np.flatnonzero(sg[1:] == 0) + 1:
-        before = sg[k - 1]
-        after = sg[k + 1] if k + 1 < sg.size else -before
-        found.append((float(np.expm1(u[k])), before > 0 > after))
-    for k in np.flatnonzero(sg[:-1] * sg[1:] < 0):
-        a, b = np.expm1(u[k]), np.expm1(u[k + 1])
-        root = brentq(lambda r: float(_scaled_npv(np.log1p(r), cf)), a, b, xtol=1e-14)
-        found.append((float(root), bool(sg[k] > 0)))
-    found.sort()
-    roots = [r for r, _ in found]
-    if not roots:
+    u, root, falling = _crossings(cf[None, :], every=True)
+    positions = np.flatnonzero(root[0])
+    if positions.size == 0:
         return IrrResult([], float("nan"), "NPV does not cross zero in (-99 %, 1000 %]", changes)
-    falling = [r for r, down in found if down]
-    if not falling:
+    values = _refine(np.broadcast_to(cf, (positions.size, cf.size)), u, positions)
+    roots = [float(x) for x in values]
+    down = np.flatnonzero(falling[0])
+    if down.size == 0:
         return IrrResult(roots, float("nan"), NO_INVESTMENT_ROOT, changes)
-    return IrrResult(roots, falling[-1], SEVERAL_ROOTS if len(roots) > 1 else "", changes)
+    value = roots[int(np.searchsorted(positions, down[-1]))]
+    return IrrResult(roots, value, SEVERAL_ROOTS if len(roots) > 1 else "", changes)
 
 
-def irr_many(cashflows) -> np.ndarray:
+def investment_irr(cashflows) -> np.ndarray:
     """IRR of each sample's cash flow: the investment root (see :func:`irr`), NaN where none.
 
     Parameters
@@ -438,93 +504,59 @@ def irr_many(cashflows) -> np.ndarray:
     Returns
     -------
     numpy.ndarray, shape (n_samples,)
-        IRR [1/year] in (-0.99, 10], or NaN where the flow has no investment root.
+        IRR [1/year] in (-0.99, 10]: the highest rate at which the NPV turns from positive to
+        negative as the rate rises; NaN where the NPV never does.
 
     Notes
     -----
-    Rows with exactly one sign change have exactly one root for r > -1 (Descartes); when the
-    NPV changes sign between the ends of the search interval, that root is found by bisection
-    in ``u = log(1 + r)``, vectorised over those rows, to the last bit of u. Rows with no sign
-    change are NaN; rows with several sign changes go through :func:`irr` one by one (their
-    investment root).
-    """
-    cf = as_flows(cashflows, "cashflows")
-    if not np.all(np.isfinite(cf)):
-        raise ValueError("irr_many: cash flows must be finite")
-    out = np.full(cf.shape[0], np.nan)
-    changes = sign_changes(cf)
-
-    lo = np.full(cf.shape[0], np.log1p(IRR_LOW))
-    hi = np.full(cf.shape[0], np.log1p(IRR_HIGH))
-    g_lo = _scaled_npv(lo, cf)
-    g_hi = _scaled_npv(hi, cf)
-    simple = (changes == 1) & (g_lo * g_hi < 0)
-    exact_hi = (changes == 1) & (g_hi == 0)
-    out[exact_hi] = IRR_HIGH
-    if np.any(simple):
-        rows = cf[simple]
-        a, b, ga = lo[simple], hi[simple], g_lo[simple]
-        # bisection is sequential by nature; each step is vectorised over the rows
-        for _ in range(80):
-            m = 0.5 * (a + b)
-            gm = _scaled_npv(m, rows)
-            left = np.sign(gm) == np.sign(ga)
-            a = np.where(left, m, a)
-            ga = np.where(left, gm, ga)
-            b = np.where(left, b, m)
-        out[simple] = np.expm1(0.5 * (a + b))
-    for k in np.flatnonzero(changes >= 2):
-        out[k] = irr(cf[k]).value
-    return out
-
-
-def investment_irr(cashflows, grid_points: int = 400) -> np.ndarray:
-    """The investment root of each sample's cash flow: where NPV turns from + to - as the
-    rate rises.
-
-    Parameters
-    ----------
-    cashflows : array_like, shape (n_samples, n_years + 1) or (n_years + 1,)
-        Yearly cash flows [currency], column 0 = year 0.
-    grid_points : int
-        Points of the grid in ``u = log(1 + r)`` over (-0.99, 10] that brackets the roots.
-
-    Returns
-    -------
-    numpy.ndarray, shape (n_samples,)
-        IRR [1/year], or NaN where the NPV never turns from positive to negative, or does so
-        more than once on the grid (ambiguous).
-
-    Notes
-    -----
-    A flow that starts negative, turns positive and ends negative (decommissioning) has a
-    spurious root near -100 % where the NPV turns from negative to positive; the investment
-    root is the one where it turns from positive to negative as the rate rises (DOMAIN.md
-    section 8). Each bracket is refined by bisection in u to the last bit, vectorised over
-    samples.
+    The rule, grid and bisection of :func:`irr`, vectorised over samples: for one flow the
+    result is ``irr(flow).value``. A flow that starts negative, turns positive and ends
+    negative (decommissioning) has a spurious root near -100 % where the NPV turns from
+    negative to positive; it is listed by :func:`irr` but never reported (DOMAIN.md
+    section 8). Each sample's root depends only on its own flow.
     """
     cf = as_flows(cashflows, "cashflows")
     if not np.all(np.isfinite(cf)):
         raise ValueError("investment_irr: cash flows must be finite")
-    grid = np.linspace(np.log1p(IRR_LOW), np.log1p(IRR_HIGH), int(grid_points))
-    g = _scaled_npv(np.broadcast_to(grid, (cf.shape[0], grid.size)), cf[:, None, :])
-    down = (g[:, :-1] > 0) & (g[:, 1:] <= 0)
-    count = down.sum(axis=1)
     out = np.full(cf.shape[0], np.nan)
-    rows = np.flatnonzero(count == 1)
-    if rows.size == 0:
+    live = np.flatnonzero(sign_changes(cf) > 0)
+    if live.size == 0:
         return out
-    k = np.argmax(down[rows], axis=1)
-    a, b = grid[k], grid[k + 1]
-    sub = cf[rows]
-    # bisection is sequential by nature; each step is vectorised over the rows (g(a) > 0)
-    for _ in range(80):
-        m = 0.5 * (a + b)
-        positive = _scaled_npv(m, sub) > 0
-        a = np.where(positive, m, a)
-        b = np.where(positive, b, m)
-    out[rows] = np.expm1(0.5 * (a + b))
+    u, _, falling = _crossings(cf[live])
+    found = falling.any(axis=1)
+    last = falling.shape[1] - 1 - np.argmax(falling[:, ::-1], axis=1)
+    out[live[found]] = _refine(cf[live[found]], u, last[found])
     return out
+
+
+def irr_text(value, roots, reason: str = "", unit: str = " %") -> str:
+    """An IRR as tables and reports write it: the investment root, every root beside it.
+
+    Parameters
+    ----------
+    value : float or None
+        The investment root [1/year] (:attr:`IrrResult.value`); None or NaN when there is none.
+    roots : sequence of float
+        Every root [1/year] (:attr:`IrrResult.roots`).
+    reason : str
+        Why there is no investment root (:attr:`IrrResult.reason`).
+    unit : str
+        Written after each percentage (" %" in text, "" in a table with a unit column).
+
+    Returns
+    -------
+    str
+        e.g. ``5.58 % (investment root; all roots -82.82 %, 5.58 %)``, ``5.58 %``, or
+        ``none (reason; roots ...)``.
+    """
+    listed = ", ".join(f"{100 * x:.2f}{unit}" for x in roots)
+    if value is not None and np.isfinite(value):
+        if len(roots) > 1:
+            return f"{100 * value:.2f}{unit} (investment root; all roots {listed})"
+        return f"{100 * value:.2f}{unit}"
+    if len(roots):
+        return f"none ({reason or NO_INVESTMENT_ROOT}; roots {listed})"
+    return f"none ({reason or 'no root'})"
 
 
 def mirr(cashflows, finance_rate, reinvest_rate) -> np.ndarray:

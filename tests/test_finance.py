@@ -12,7 +12,7 @@ from lcoe.finance import (
     crf,
     discount_factors,
     irr,
-    irr_many,
+    investment_irr,
     lcoe_from_flows,
     nominal_rate,
     npv,
@@ -181,13 +181,13 @@ def test_sign_changes_skip_zeros():
     assert list(sign_changes([[1, 0, 1], [-1, 0, 1]])) == [0, 1]
 
 
-def test_irr_many_matches_numpy_financial_on_conventional_flows():
+def test_investment_irr_matches_numpy_financial_on_conventional_flows():
     rng = np.random.default_rng(7)
     n = 300
     flows = np.empty((n, 21))
     flows[:, 0] = -rng.uniform(500, 2000, n)
     flows[:, 1:] = rng.uniform(10, 300, size=(n, 20))
-    got = irr_many(flows)
+    got = investment_irr(flows)
     # cross-implementation: numpy_financial.irr row by row, to 1e-9
     want = np.array([npf.irr(f) for f in flows])
     assert np.allclose(got, want, rtol=0, atol=1e-9)
@@ -195,17 +195,17 @@ def test_irr_many_matches_numpy_financial_on_conventional_flows():
     assert np.allclose([irr(f).value for f in flows[:20]], got[:20], rtol=0, atol=1e-12)
 
 
-def test_irr_many_mixed_rows_and_one_dimensional_input():
+def test_investment_irr_mixed_rows_and_one_dimensional_input():
     flows = np.array(
         [
             [-100, 39, 59, 55, 20],  # one root
-            [-100, 230, -132, 0, 0],  # two roots -> NaN
+            [-100, 230, -132, 0, 0],  # two roots: the investment root
             [1, 2, 3, 4, 5],  # no sign change -> NaN
             [-100, 60, 60, 60, -30],  # replacement-like end cost: two sign changes
         ],
         dtype=float,
     )
-    got = irr_many(flows)
+    got = investment_irr(flows)
     assert got[0] == pytest.approx(0.28094842115996, abs=1e-12)  # numpy-financial docstring
     assert got[1] == pytest.approx(0.20, abs=1e-12)  # investment root of -100, 230, -132
     assert np.isnan(got[2])
@@ -215,7 +215,7 @@ def test_irr_many_mixed_rows_and_one_dimensional_input():
     want = np.sort(poly[np.abs(poly.imag) < 1e-12].real - 1.0)
     assert np.allclose(irr(flows[3]).roots, want, rtol=0, atol=1e-10)
     assert got[3] == pytest.approx(want[1], abs=1e-10)  # the investment root, 28.74 %
-    assert irr_many(DOC_FLOWS).shape == (1,)
+    assert investment_irr(DOC_FLOWS).shape == (1,)
 
 
 def test_lcoe_worked_example():
@@ -259,3 +259,30 @@ def test_investment_irr_takes_the_root_where_npv_turns_negative():
     for row, r in zip(flows, got):
         assert 0 < r < 0.3 and abs(npv(r, row)) < 1e-9
     assert np.isnan(investment_irr([100.0, 50.0])[0])  # never turns negative
+
+
+def test_one_irr_rule_for_one_flow_and_many():
+    # irr() and investment_irr() are one implementation: same root, bit for bit, and a row's
+    # root does not depend on the other rows of the call (chunking never changes a number)
+    rng = np.random.default_rng(3)
+    flows = np.empty((64, 26))
+    flows[:, 0] = -rng.uniform(800, 1200, 64)
+    flows[:, 1:] = rng.uniform(40, 160, size=(64, 25))
+    flows[:, -1] = -rng.uniform(0, 400, 64)  # decommissioning: a second sign change
+    many = investment_irr(flows)
+    assert [irr(f).value for f in flows[:8]] == list(many[:8])
+    assert np.array_equal(investment_irr(flows[5:9]), many[5:9])
+    # cross-implementation: numpy_financial.irr finds the same (economic) root here
+    assert np.allclose(many, [npf.irr(f) for f in flows], rtol=0, atol=1e-9)
+
+
+def test_irr_text_names_the_investment_root_and_every_root():
+    from lcoe.finance import irr_text
+
+    res = irr([-100.0, 230.0, -132.0])
+    assert irr_text(res.value, res.roots, res.reason) == \
+        "20.00 % (investment root; all roots 10.00 %, 20.00 %)"
+    assert irr_text(0.0612, [0.0612]) == "6.12 %"
+    rising = irr([100.0, -110.0])  # NPV rises through zero at 10 %: no investment root
+    assert irr_text(rising.value, rising.roots, rising.reason, unit="") == \
+        f"none ({rising.reason}; roots 10.00)"

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -42,7 +43,7 @@ from lcoe.bank.tax import (
     tax_with_loss_carryforward,
 )
 from lcoe.errors import InputError, field_error, unknown_key_error
-from lcoe.finance import as_flows, check_rate, irr_many, npv, per_sample
+from lcoe.finance import as_flows, check_rate, investment_irr, npv, per_sample
 
 __all__ = ["BASE_CASE", "FinanceResult", "breakeven_tariff", "project_finance"]
 
@@ -85,7 +86,7 @@ class FinanceResult:
         Minimum and mean DSCR over the years with debt service; LLCR at financial close.
         NaN without debt.
     project_irr_pre_tax, project_irr_post_tax, equity_irr : (n_samples,) [1/year]
-        Unique IRR or NaN (see :func:`lcoe.finance.irr`).
+        Investment root or NaN (:func:`lcoe.finance.investment_irr`), computed on first use.
     npv_equity, npv_project_post_tax : (n_samples,) [currency]
         NPV of the equity flow and of the post-tax project flow at ``discount_rate``.
     payback_year : (n_samples,) [year]
@@ -135,9 +136,6 @@ class FinanceResult:
     min_dscr: np.ndarray
     avg_dscr: np.ndarray
     llcr: np.ndarray
-    project_irr_pre_tax: np.ndarray
-    project_irr_post_tax: np.ndarray
-    equity_irr: np.ndarray
     npv_equity: np.ndarray
     npv_project_post_tax: np.ndarray
     payback_year: np.ndarray
@@ -153,6 +151,20 @@ class FinanceResult:
     dsra: ServiceReserve | None = None
     construction: Construction | None = None
     sources_uses: dict | None = None
+
+    # IRRs are computed on first use: the Monte Carlo and the sizing iterations of the
+    # break-even tariff need few of them, and each scans a grid of rates for every sample
+    @cached_property
+    def project_irr_pre_tax(self) -> np.ndarray:
+        return investment_irr(self.project_flow_pre_tax)
+
+    @cached_property
+    def project_irr_post_tax(self) -> np.ndarray:
+        return investment_irr(self.project_flow_post_tax)
+
+    @cached_property
+    def equity_irr(self) -> np.ndarray:
+        return investment_irr(self.equity_flow)
 
 
 @dataclass(frozen=True)
@@ -517,9 +529,6 @@ def project_finance(
         min_dscr=min_dscr,
         avg_dscr=avg_dscr,
         llcr=llcr(cfads_lender, schedule.debt, rate, tenor_years),
-        project_irr_pre_tax=irr_many(pre_tax),
-        project_irr_post_tax=irr_many(post_tax),
-        equity_irr=irr_many(equity),
         npv_equity=np.broadcast_to(npv(discount_rate, equity), (n_s,)).copy(),
         npv_project_post_tax=np.broadcast_to(npv(discount_rate, post_tax), (n_s,)).copy(),
         payback_year=_first_payback_year(equity),

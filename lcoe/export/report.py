@@ -102,17 +102,13 @@ def _pct(x) -> str:
 
 
 def _irr(b: dict, key: str, roots_key: str) -> tuple[str, str]:
-    """Value and unit of an IRR: the investment root (all roots beside it), or every root."""
+    """Value and unit of an IRR: the investment root with every root beside it
+    (:func:`lcoe.finance.irr_text`, as in the command line's table)."""
+    from lcoe.finance import irr_text
+
     found = (b.get("irr_roots") or {}).get(roots_key) or {}
-    roots = found.get("roots") or []
-    if b.get(key) is not None:
-        if len(roots) > 1:
-            return (f"{_pct(b[key])} (investment root; all roots "
-                    + ", ".join(f"{100 * x:.2f}" for x in roots) + ")"), "%"
-        return _pct(b[key]), "%"
-    if roots:
-        return "several roots: " + ", ".join(f"{100 * x:.2f}" for x in roots), "%"
-    return f"none ({found.get('reason', 'no root')})", ""
+    text = irr_text(b.get(key), found.get("roots") or [], found.get("reason", ""), unit="")
+    return text, ("%" if b.get(key) is not None else "")
 
 
 def _bank_rows(b: dict, cur: str) -> list[str]:
