@@ -9,56 +9,81 @@ than 2 kWh/m2/day of GHI or DNI.
 
 In-sample: the decomposition (DIRINT) and the clear-sky cap were chosen looking at these same
 three files (see lcoe.synth_weather); no constant was fitted to them, but the agreement here is
-not an out-of-sample validation. Cases that miss the bound are listed in KNOWN_MISSES with the
-measured figure and run as strict xfail, so a change that fixes them (or a new miss) shows up;
-a looser guard keeps every case from getting worse.
+not an out-of-sample validation. The DNI bound is tested month by month; the months that miss it
+are listed in KNOWN_DNI_MISSES with the measured figure and run as strict xfail, so a change that
+fixes them (or a new miss) shows up; a looser guard keeps every case from getting worse.
+
+Why some months miss (measured 2026-12-03; DEVELOPERS.md has the reasoning): a year made from
+monthly GHI can only know each month's mean clearness, while a month's beam also depends on how
+its days spread around that mean (beam rises faster than GHI on clear days). The files' months
+differ in spread at the same mean: daily clearness sd 0.094 (Miami December, synthetic +9 %) to
+0.191 (Greensboro February, synthetic -17 %), against 0.16-0.19 for the synthetic days (the
+Bendt-Collares-Pereira-Rabl distribution, capped at the clear sky). Even the file's own hourly
+GHI, through pvlib's decompositions, gives a monthly DNI whose ratio to the file's scatters over
+0.86-1.00 (DIRINT, Greensboro), 0.83-0.94 (Sand Point) and 0.87-1.04 (Miami) in the sunny
+months: with every hour of GHI right and the best site-wide scale factor, the worst month would
+still be 6-9 % off, leaving 1-4 points for all that monthly means cannot tell, while the seed
+alone moves a month by up to 8 points (Sand Point April: -11.7, -8.9, -3.6 %).
 """
 
 from __future__ import annotations
 
+import functools
 import warnings
 
 import numpy as np
 import pytest
 
+from lcoe.synth_weather import DECOMPOSITIONS
 from tests.helpers.bundled_weather import (
+    DNI_BOUND,
     bundled_files,
     compare,
+    decomposed_dni_ratio,
     monthly_daily_kwh_m2,
     monthly_means,
     read_bundled,
+    sunny_months,
     synthesise_from,
 )
 
 SEEDS = (1, 2, 3)
 ENERGY_BOUND = 0.025  # acceptance criterion: annual energy within 2.5 %
-DNI_BOUND = 0.10  # acceptance criterion: monthly DNI within 10 % in sunny months
 # Guards (frozen regression, measured 2026-12-02 with the defaults: energy +0.1..+1.2 %,
 # worst sunny month 17.5 %): every file and seed must stay inside these.
 ENERGY_GUARD = 0.02
 DNI_GUARD = 0.20
 
-#: (file, quantity, seed) -> measured value at the time of writing; the bound is not met.
-#: Greensboro February: the file's DNI/GHI (1.32) is above its January's (1.28) although the
-#: sun is higher and the monthly clearness lower (0.477 vs 0.488): a February with more clear
-#: and more overcast days (daily clearness sd 0.19 vs 0.17) picked into the typical year, which
-#: monthly GHI alone cannot reveal. Sand Point, seed 1: April -11.7 % (seed 2 is at -9.96 %,
-#: inside the bound by a hair).
-KNOWN_MISSES = {
-    ("723170TYA.CSV", "dni", 1): "February -17.5 %",
-    ("723170TYA.CSV", "dni", 2): "February -17.5 %",
-    ("723170TYA.CSV", "dni", 3): "February -16.0 %",
-    ("703165TY.csv", "dni", 1): "April -11.7 %",
+#: (file, month 1-12, seed) -> synthetic/file monthly DNI - 1, measured 2026-12-03; the bound is
+#: not met. Greensboro February: beyond the reach of any of pvlib's decompositions even on the
+#: file's own hours (test_greensboro_february_beyond_every_decomposition); its daily clearness
+#: sd is 0.191, the widest of the file. Greensboro April (sd 0.154 at mean 0.542) and Sand Point
+#: April and July (sd 0.181 each) miss by 0.4-2.0 points for some seeds and pass for others
+#: (Greensboro April seed 2 -9.5 %, Sand Point April seeds 2, 3 -8.9 %, -3.6 %).
+KNOWN_DNI_MISSES = {
+    ("723170TYA.CSV", 2, 1): "February -17.5 %",
+    ("723170TYA.CSV", 2, 2): "February -17.4 %",
+    ("723170TYA.CSV", 2, 3): "February -16.0 %",
+    ("723170TYA.CSV", 4, 1): "April -11.9 %",
+    ("723170TYA.CSV", 4, 3): "April -12.0 %",
+    ("703165TY.csv", 4, 1): "April -11.7 %",
+    ("703165TY.csv", 7, 1): "July -10.4 %",
 }
 
 FILES = bundled_files()
+
+
+@functools.cache
+def _read(name):
+    """The bundled file ``name`` read once (shared by collection and the fixture; not mutated)."""
+    return read_bundled(next(p for p in FILES if p.name == name))
 
 
 @pytest.fixture(scope="module")
 def results():
     out = {}
     for path in FILES:
-        weather = read_bundled(path)
+        weather = _read(path.name)
         for seed in SEEDS:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", UserWarning)
@@ -73,16 +98,10 @@ def test_every_bundled_file_is_found():
     assert names == ["12839.tm2", "703165TY.csv", "723170TYA.CSV"], names
 
 
-def _case(name, quantity, seed):
-    reason = KNOWN_MISSES.get((name, quantity, seed))
-    marks = [pytest.mark.xfail(strict=True, reason=reason)] if reason else []
-    return pytest.param(name, quantity, seed, marks=marks, id=f"{name}-{quantity}-{seed}")
-
-
 @pytest.mark.parametrize(
     "name,quantity,seed",
-    [_case(p.name, q, s) for p in FILES for q in ("energy_fixed", "energy_single_axis")
-     for s in SEEDS],
+    [pytest.param(p.name, q, s, id=f"{p.name}-{q}-{s}") for p in FILES
+     for q in ("energy_fixed", "energy_single_axis") for s in SEEDS],
 )
 def test_annual_energy_within_bound(results, name, quantity, seed):
     # Source: the file's own hourly year through the same model (cross-implementation: file
@@ -91,14 +110,48 @@ def test_annual_energy_within_bound(results, name, quantity, seed):
     assert abs(ratio - 1.0) <= ENERGY_BOUND, ratio
 
 
-@pytest.mark.parametrize("name,quantity,seed", [_case(p.name, "dni", s) for p in FILES
-                                                for s in SEEDS])
-def test_monthly_dni_within_bound(results, name, quantity, seed):
-    # Source: the file's monthly mean DNI (pvlib reader); acceptance bound 10 % where the month
-    # has more than 2 kWh/m2/day of GHI or DNI.
-    res = results[(name, seed)][2]
-    assert res["sunny"].sum() >= 7  # the bound is tested on most of the year
-    assert res["worst_dni_error"] <= DNI_BOUND, np.round(res["dni_ratio"], 3)
+def _dni_case(name, month, seed):
+    reason = KNOWN_DNI_MISSES.get((name, month, seed))
+    marks = [pytest.mark.xfail(strict=True, reason=reason)] if reason else []
+    return pytest.param(name, month, seed, marks=marks, id=f"{name}-m{month:02d}-{seed}")
+
+
+@pytest.mark.parametrize(
+    "name,month,seed",
+    [_dni_case(p.name, m + 1, s) for p in FILES
+     for m in np.flatnonzero(sunny_months(_read(p.name))) for s in SEEDS],
+)
+def test_monthly_dni_within_bound(results, name, month, seed):
+    # Source: the file's monthly mean DNI (pvlib reader); acceptance bound 10 % in each month
+    # with more than 2 kWh/m2/day of GHI or DNI.
+    ratio = results[(name, seed)][2]["dni_ratio"][month - 1]
+    assert abs(ratio - 1.0) <= DNI_BOUND, ratio
+
+
+def test_dni_bound_covers_most_of_the_year():
+    # The sunny months (held to the DNI bound) are most of the year at every file.
+    for path in FILES:
+        assert sunny_months(_read(path.name)).sum() >= 7, path.name
+
+
+def test_known_misses_name_sunny_months():
+    for name, month, seed in KNOWN_DNI_MISSES:
+        assert sunny_months(_read(name))[month - 1] and seed in SEEDS, (name, month, seed)
+
+
+def test_greensboro_february_beyond_every_decomposition():
+    # Cross-implementation (pvlib's published decompositions on the file read by pvlib): given
+    # the file's own hourly GHI, every model offered gives Greensboro's February DNI more than
+    # 10 % below the file's (measured 2026-12-03: Erbs 0.774, DIRINT 0.857, DISC 0.886, Boland
+    # 0.682, Orgill-Hollands 0.774, Erbs-Driesse 0.774), while January is within 6 % for DIRINT
+    # and DISC. So no synthesis that reproduces GHI and decomposes it can meet the bound in that
+    # month without making its hours beamier than the real ones: the strict xfail stays.
+    weather = _read("723170TYA.CSV")
+    for model in DECOMPOSITIONS:
+        ratio = decomposed_dni_ratio(weather, model)
+        assert ratio[1] < 1.0 - DNI_BOUND, (model, ratio[1])
+        if model in ("dirint", "disc"):
+            assert abs(ratio[0] - 1.0) < 0.06, (model, ratio[0])
 
 
 def test_guards_on_every_case(results):
@@ -113,7 +166,7 @@ def test_guards_on_every_case(results):
 def test_monthly_ghi_and_temperature_reproduced(results):
     # Cross-implementation: the file's monthly means (pvlib reader) are the synthesis input and
     # must come back (GHI exact by construction; temperature by the monthly shift).
-    for (name, _), (weather, synthetic, _) in results.items():
+    for _key, (weather, synthetic, _) in results.items():
         ghi, temp, wind = monthly_means(weather)
         np.testing.assert_allclose(monthly_daily_kwh_m2(synthetic.data["ghi"]), ghi, rtol=1e-6)
         d = synthetic.data
