@@ -49,7 +49,7 @@ from tests.helpers.bundled_weather import (
 
 SEEDS = (1, 2, 3)
 ENERGY_BOUND = 0.025  # acceptance criterion: annual energy within 2.5 %
-# Guards (frozen regression, measured 2026-12-02 with the defaults: energy +0.1..+1.2 %,
+# Guards (frozen regression, measured 2026-12-02 with the defaults: energy +0.04..+1.2 %,
 # worst sunny month 17.5 %): every file and seed must stay inside these.
 ENERGY_GUARD = 0.02
 DNI_GUARD = 0.20
@@ -59,7 +59,9 @@ DNI_GUARD = 0.20
 #: file's own hours (test_greensboro_february_beyond_every_decomposition); its daily clearness
 #: sd is 0.191, the widest of the file. Greensboro April (sd 0.154 at mean 0.542) and Sand Point
 #: April and July (sd 0.181 each) miss by 0.4-2.0 points for some seeds and pass for others
-#: (Greensboro April seed 2 -9.5 %, Sand Point April seeds 2, 3 -8.9 %, -3.6 %).
+#: (Greensboro April seed 2 -9.5 %, Sand Point April seeds 2, 3 -8.9 %, -3.6 %); Greensboro
+#: April and Sand Point July are outside the bound for DIRINT on the file's own hours as well
+#: (test_missed_months_beyond_dirint_on_the_files_own_hours).
 KNOWN_DNI_MISSES = {
     ("723170TYA.CSV", 2, 1): "February -17.5 %",
     ("723170TYA.CSV", 2, 2): "February -17.4 %",
@@ -152,6 +154,17 @@ def test_greensboro_february_beyond_every_decomposition():
         assert ratio[1] < 1.0 - DNI_BOUND, (model, ratio[1])
         if model in ("dirint", "disc"):
             assert abs(ratio[0] - 1.0) < 0.06, (model, ratio[0])
+
+
+@pytest.mark.parametrize("name,month", [("723170TYA.CSV", 4), ("703165TY.csv", 7)])
+def test_missed_months_beyond_dirint_on_the_files_own_hours(name, month):
+    # Cross-implementation (pvlib's DIRINT, the default decomposition, on the file read by
+    # pvlib): Greensboro's April and Sand Point's July miss the bound for some seeds; DIRINT on
+    # the file's own hourly GHI misses it too (measured 2026-12-03: 0.897 and 0.893; DISC
+    # would give 0.913 and 0.920). Sand Point's April (DIRINT on its own hours 0.941) is the
+    # one missed month that a seed alone puts outside.
+    ratio = decomposed_dni_ratio(_read(name), "dirint")[month - 1]
+    assert ratio < 1.0 - DNI_BOUND, ratio
 
 
 def test_guards_on_every_case(results):
