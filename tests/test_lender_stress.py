@@ -32,7 +32,7 @@ def _run_and_write(path, out):
 
 
 def test_tariff_too_low_carries_no_debt_and_says_why(tmp_path):
-    path = _lender_variant(tmp_path, "tariff_per_kwh = 0.075", "tariff_per_kwh = 0.008")
+    path = _lender_variant(tmp_path, "tariff_per_kwh = 0.083", "tariff_per_kwh = 0.008")
     result, summary, _ = _run_and_write(path, tmp_path / "out")
     b = summary["bankability"]
     assert b["debt"] == 0

@@ -524,6 +524,9 @@ def test_cash_sweep_reserve_and_equity_paid_idc_agree_with_engine(runs, recalcul
     ws = wb["Debt"]
     labels = {ws.cell(row=r, column=1).value: r for r in range(1, ws.max_row + 1)}
     n = f.cfads.shape[1] - 1
+    # The sweep is the small difference of CFADS-sized flows (cash above a multiple of the
+    # service): its rounding is that of CFADS, so money is compared at REL of the CFADS scale.
+    scale = float(np.nanmax(np.abs(f.cfads[0])))
     for start, expected in (("Cash sweep", f.prepaid[0]), ("Closing loan", f.debt_balance[0]),
                             ("DSRA balance", f.dsra.balance[0]),
                             ("Cash flow to equity", f.equity_flow[0]),
@@ -531,4 +534,5 @@ def test_cash_sweep_reserve_and_equity_paid_idc_agree_with_engine(runs, recalcul
         r = next(r for lab, r in labels.items() if lab and lab.startswith(start))
         got = np.array([np.nan if v in (None, "") else v for v in
                         (ws.cell(row=r, column=3 + t).value for t in range(n + 1))], float)
-        np.testing.assert_allclose(got, expected, rtol=REL, atol=1e-5, err_msg=start)
+        atol = 1e-5 if start.startswith("LLCR") else max(1e-5, REL * scale)
+        np.testing.assert_allclose(got, expected, rtol=REL, atol=atol, err_msg=start)
