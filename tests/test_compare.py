@@ -209,6 +209,9 @@ def test_cli_compare_writes_outputs(tmp):
 
     wb = load_workbook(out / "comparison.xlsx")
     assert "Comparison" in wb.sheetnames and "Audit" in wb.sheetnames
+    listed = list(wb["Trials"].iter_rows(min_row=2, values_only=True))
+    assert [r[0] for r in listed] == list(range(1, 41))
+    assert all(isinstance(v, float) and v > 0 for r in listed for v in r[1:])
     # a non-empty folder is refused without --force, with one line and exit status 2
     again = _cli("compare", a.source, b.source, "--out", out, "--samples", 10)
     assert again.returncode == 2 and again.stderr.count("\n") == 1

@@ -201,6 +201,7 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     from openpyxl import Workbook
 
     from .workbook import header, put, put_text, title, widths
+    from .workbook_stream import add_number_table, save_workbook
 
     data = comparison_dict(result, provenance)
     cur = result.currency
@@ -337,15 +338,14 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     labels += [f"Ratio {result.cases[c.index].name} / baseline [-]" for c in result.claims]
     header(ws, 1, ["Trial"] + labels)
     cols = [o.trials.lcoe_real for o in result.cases] + [c.ratio for c in result.claims]
-    for t in range(result.samples):
-        put(ws, t + 2, 1, t + 1)
-        for j, col in enumerate(cols, start=2):
-            put(ws, t + 2, j, float(col[t]), "0.00000")
+    add_number_table(ws, 2, 1, [np.arange(1, result.samples + 1)] +
+                     [np.asarray(c[:result.samples], dtype=float) for c in cols],
+                     ["General"] + ["0.00000"] * len(cols))
     if result.voi is not None:
         from .voi_outputs import write_voi_sheet
 
         write_voi_sheet(wb, result.voi)
-    wb.save(path)
+    save_workbook(wb, path)
 
 
 def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False,

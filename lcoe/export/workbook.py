@@ -286,7 +286,9 @@ def write_workbook(result: RunResult, path: Path) -> None:
     for ws in wb.worksheets:
         if ws.sheet_state == "visible":
             print_setup(ws)
-    wb.save(path)
+    from .workbook_stream import save_workbook
+
+    save_workbook(wb, path)  # with the listed trials of the Distribution sheet
 
 
 def print_setup(ws) -> None:

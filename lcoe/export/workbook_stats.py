@@ -27,6 +27,7 @@ from .workbook import (
     title,
     widths,
 )
+from .workbook_stream import add_number_table
 
 #: Statistics of :func:`lcoe.uncertainty.stats.stats` shown, with their probability.
 PERCENTILES = (("q05", 0.05), ("q10", 0.10), ("q50", 0.50), ("q90", 0.90), ("q95", 0.95))
@@ -81,13 +82,8 @@ def write_distribution_sheet(wb, result: RunResult) -> None:
         [trials.X[:n_listed, j] for j in range(len(inputs))] + \
         [np.asarray(trials.outputs[k][:n_listed], dtype=float) for k in extra]
     fmts = ["0"] + [f for _, _, f in outs] + ["General"] * (len(inputs) + len(extra))
-    for j, (values, fmt) in enumerate(zip(cols, fmts)):
-        c = TRIALS_COL + j
-        for i, v in enumerate(values.tolist()):
-            if isinstance(v, float) and not np.isfinite(v):
-                continue  # no value (e.g. no unique IRR): an empty cell
-            cell = ws.cell(row=first + i, column=c, value=v)
-            cell.number_format = fmt
+    # written at save time; a trial without a value (e.g. no unique IRR) is an empty cell
+    add_number_table(ws, first, TRIALS_COL, cols, fmts)
 
     # ---- summary (left) --------------------------------------------------------------------
     r = 1
