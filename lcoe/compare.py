@@ -113,6 +113,17 @@ def case_label(case: Case) -> str:
     return Path(case.source).stem
 
 
+def input_labels(result) -> dict:
+    """Human label with unit of every uncertain input of a comparison, by design name.
+
+    Keys are the design's column names (``costs.capex_per_kw``, or with the case appended,
+    ``costs.capex_per_kw [Case]``, when cases draw it apart) and the dotted paths.
+    """
+    from .labels import study_labels
+
+    return study_labels(result.design.columns, [o.case for o in result.cases])
+
+
 def site_name(case: Case) -> str:
     """A short name of a case's site for column labels."""
     if case.monthly is not None:

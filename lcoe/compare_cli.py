@@ -130,8 +130,8 @@ def run_demo_compare(args) -> int:
 def format_comparison(result) -> str:
     """The table printed by ``lcoe compare``."""
     from .claims import audit_sentence, claim_sentence
-    from .compare import drivers
-    from .export.compare_outputs import _labelled, input_labels
+    from .compare import drivers, input_labels
+    from .export.compare_outputs import _labelled
 
     cur = result.currency
     labels = input_labels(result)

@@ -36,6 +36,14 @@ EQUITY_BASIS = ("value of a case in a trial = NPV of its cash flow to equity at 
 SECTION_GROUPS = {"energy": "persistent energy factors (resource, model, ...)",
                   "costs": "costs", "finance": "finance", "plant": "plant and energy model",
                   "site": "site", "tax": "finance", "debt": "finance"}
+#: Readable labels of the groups by section (every case's inputs of that section).
+SECTION_LABELS = {"persistent energy factors (resource, model, ...)":
+                  "Energy factors of every case",
+                  "costs": "Costs of every case", "finance": "Finance of every case",
+                  "plant and energy model": "Plant and energy model of every case",
+                  "site": "Site of every case", "other": "Other inputs of every case"}
+#: Label of the EVPI row (perfect information on everything).
+EVPI_LABEL = "Everything (EVPI)"
 #: Caution that travels with every value-of-information figure.
 CAUTION = ("These values assume the input distributions are right; they are upper bounds on "
            "what a study or test is worth to this decision, not a forecast of its result.")
@@ -63,6 +71,10 @@ class VoiBlock:
     n_trials : int
     basis : str
     notes : list of str
+    labels : dict of str to str
+        Readable label with unit of each row's name (dotted key of an input, with its case
+        when cases draw it apart, or a group's name) for pages, charts and the CLI; JSON and
+        the workbook keep the name beside it as the key.
     """
 
     options: list
@@ -75,6 +87,17 @@ class VoiBlock:
     n_trials: int
     basis: str = VALUE_BASIS
     notes: list = field(default_factory=list)
+    labels: dict = field(default_factory=dict)
+
+    def label(self, name: str) -> str:
+        """Readable label of a row's name or of an input (the name when none is known)."""
+        return self.labels.get(name, EVPI_LABEL if name == self.evpi.name else name)
+
+    def row_dict(self, row: InfoValue) -> dict:
+        """:meth:`InfoValue.to_dict` per kWh of the baseline, with ``label`` and the members'
+        labels."""
+        return {**row.to_dict(self.energy_ref_kwh), "label": self.label(row.name),
+                "member_labels": [self.label(m) for m in row.members]}
 
     @property
     def inputs(self) -> list:
@@ -91,8 +114,9 @@ class VoiBlock:
                     f"{_money(self.evpi.value, cur)}).")
         top, rest = rows[0], rows[1:]
         second = max((r.value for r in rest), default=0.0)
-        return (f"Learning {top.name} before choosing is worth up to {_money(top.value, cur)} "
-                f"to this decision ({1000 * top.value / self.energy_ref_kwh:.3g} {cur}/MWh of "
+        return (f"Learning {self.label(top.name)} before choosing is worth up to "
+                f"{_money(top.value, cur)} to this decision "
+                f"({1000 * top.value / self.energy_ref_kwh:.3g} {cur}/MWh of "
                 f"the baseline's discounted energy); nothing else alone is worth more than "
                 f"{_money(max(second, 0.0), cur)}.")
 
@@ -105,7 +129,7 @@ class VoiBlock:
             "energy_ref_definition": "baseline lifetime energy discounted at its real rate",
             "expected_value": dict(zip(self.options, self.expected_value.tolist())),
             "choice_now": self.options[self.best], "n_trials": self.n_trials,
-            "evpi": self.evpi.to_dict(e), "evppi": [r.to_dict(e) for r in self.rows],
+            "evpi": self.row_dict(self.evpi), "evppi": [self.row_dict(r) for r in self.rows],
             "method": "EVPPI by regression on the trials (Strong, Oakley & Brennan 2014): "
                       "penalised cubic spline on the input's ranks, GCV smoothing; groups: "
                       "additive splines plus pairwise products; bootstrap standard errors",
@@ -116,13 +140,13 @@ class VoiBlock:
         cur, e = self.currency, self.energy_ref_kwh
         lines = [f"  Worth up to ... to learn before deciding ({self.n_trials:,} trials; choice "
                  f"now: {self.options[self.best]})",
-                 f"    {'input or group':<46}{'value ' + cur:>16}{'+/- se':>12}"
+                 f"    {'input or group':<{W}}{'value ' + cur:>16}{'+/- se':>12}"
                  f"{cur + '/MWh':>11}"]
         shown = [self.evpi] + self.rows[:top]
         for r in shown:
             flag = "  (below its error)" if r.below_se else ""
             v = r.value if abs(r.value) >= 0.5 else 0.0  # print no "-0" for rounding noise
-            lines.append(f"    {_clip(r.name, 45):<46}{v:>16,.0f}{r.se:>12,.0f}"
+            lines.append(f"    {_clip(self.label(r.name), W - 1):<{W}}{v:>16,.0f}{r.se:>12,.0f}"
                          f"{1000 * v / e:>11.3f}{flag}")
         if len(self.rows) > top:
             lines.append(f"    ... {len(self.rows) - top} more inputs and groups, each worth at "
@@ -131,6 +155,10 @@ class VoiBlock:
         lines += ["    " + self.top_sentence(), f"    note: {CAUTION}"]
         lines += [f"    note: {n}" for n in self.notes]
         return lines
+
+
+#: Width of the label column of the CLI table [characters].
+W = 66
 
 
 def _clip(text: str, n: int) -> str:
@@ -175,7 +203,7 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
                          sobol_groups: Sequence[str | None] = (),
                          n_boot: int = DEFAULT_BOOTSTRAP, seed=None,
                          source: str = "value of information",
-                         basis: str = VALUE_BASIS) -> VoiBlock:
+                         basis: str = VALUE_BASIS, labels: dict | None = None) -> VoiBlock:
     """EVPI and EVPPI of the choice between compared cases.
 
     Parameters
@@ -196,6 +224,9 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
     n_boot : int
         Bootstrap resamples for standard errors.
     seed : int, SeedSequence, Generator or None
+    labels : dict of str to str, optional
+        Readable label with unit by input name (see :attr:`VoiBlock.labels`); groups are
+        labelled from their names.
 
     Raises
     ------
@@ -230,10 +261,14 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
         notes.append(f"{len(input_names) - len(names_in)} sampled input(s) constant across "
                      f"the trials: EVPPI 0, not listed.")
     mean = values.mean(axis=0)
+    from .labels import group_label
+
+    shown = {n: (labels or {}).get(n, n) for n in input_names}
+    shown.update({g: group_label(SECTION_LABELS.get(g, g), len(m)) for g, m in groups.items()})
     return VoiBlock(options=list(names), expected_value=mean, best=int(np.argmax(mean)),
                     evpi=whole, rows=rows, energy_ref_kwh=float(energy_ref_kwh),
                     currency=currencies[0], n_trials=values.shape[0], basis=basis,
-                    notes=notes)
+                    notes=notes, labels=shown)
 
 
 def comparison_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed=None) -> VoiBlock:
@@ -255,8 +290,11 @@ def comparison_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed=None) -> VoiBlo
     else:
         values = option_values([o.trials.lcoe_real for o in result.cases], e_ref)
         basis = VALUE_BASIS
+    from .labels import study_labels
+
     return value_of_information(
         [o.name for o in result.cases], [o.case["case.currency"] for o in result.cases],
         values, e_ref, x, [c.dist.name for c in cols], [c.path for c in cols],
         [c.dist.group for c in cols], n_boot, result.seed if seed is None else seed,
-        source="lcoe compare", basis=basis)
+        source="lcoe compare", basis=basis,
+        labels=study_labels(cols, [o.case for o in result.cases]))

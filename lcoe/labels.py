@@ -181,6 +181,48 @@ def labeller(case):
     return label
 
 
+def group_label(name: str, n_members: int) -> str:
+    """Label of a group of inputs (Sobol or value-of-information group): its name, capitalised,
+    with the number of members, e.g. ``"Costs [Larkspur] (group of 3 inputs)"``."""
+    name = str(name)
+    name = name[len("group "):] if name.startswith("group ") else name
+    return f"{name[:1].upper()}{name[1:]} (group of {n_members} inputs)"
+
+
+def with_case(label: str, key: str, path: str) -> str:
+    """``label`` of ``path`` with what a study appends to the key to name its case.
+
+    A study names an input of one case ``"costs.capex_per_kw [Case name]"``; the label keeps
+    that suffix: ``"Capex [USD/kW] [Case name]"``.
+    """
+    return label + key[len(path):] if key != path and key.startswith(path) else label
+
+
+def study_labels(columns, cases) -> dict:
+    """Label with unit of every column of a study's trial design.
+
+    Parameters
+    ----------
+    columns : sequence
+        Design columns with ``path`` (dotted key), ``dist.name`` (the column's name: the key,
+        with the case appended when cases draw it apart) and ``cases`` (indices of the cases
+        that use it).
+    cases : sequence of Case
+        The study's cases (their currency and list-table names).
+
+    Returns
+    -------
+    dict of str to str
+        Label by column name and by dotted key (the first case's label).
+    """
+    out = {}
+    for col in columns:
+        text = labeller(cases[col.cases[0]])(col.path)
+        out.setdefault(col.path, text)
+        out[col.dist.name] = with_case(text, col.dist.name, col.path)
+    return out
+
+
 #: Readable names of the outputs a study ranks drivers for.
 OUTPUT_NAMES: dict[str, str] = {
     "lcoe_real_per_kwh": "LCOE real",

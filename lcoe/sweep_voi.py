@@ -20,14 +20,26 @@ SWEEP_BASIS = ("value of a technology in a trial = -(its real LCOE): minus the c
                "delivering one kWh; figures in currency per kWh")
 
 
-def site_inputs(trials: dict, techs: list) -> tuple[np.ndarray, list]:
-    """Distinct sampled inputs of a site's runs: (n, d) values and their labels.
+def site_inputs(trials: dict, techs: list, readable=None) -> tuple[np.ndarray, list, list]:
+    """Distinct sampled inputs of a site's runs: (n, d) values, their names and labels.
 
     Parameters
     ----------
     trials : dict
         technology -> object with ``names`` (tuple of str) and ``X`` (n, d).
     techs : list of str
+    readable : callable, optional
+        ``readable(name, technology)`` -> (label of the input, name of the technology) for the
+        labels; default: the names as they are.
+
+    Returns
+    -------
+    x : numpy.ndarray
+        (n, d) values.
+    names : list of str
+        Dotted key, with ``[technology]`` when technologies draw it apart (the JSON's key).
+    labels : list of str
+        Readable label with unit, with the technology's case name when drawn apart.
     """
     found: list[tuple[str, str, np.ndarray]] = []  # (name, first technology, values)
     for t in techs:
@@ -36,10 +48,16 @@ def site_inputs(trials: dict, techs: list) -> tuple[np.ndarray, list]:
             if not any(n == name and np.array_equal(c, col) for n, _, c in found):
                 found.append((name, t, col))  # a shared draw is listed once
     names = [n for n, _, _ in found]
-    labels = [n if names.count(n) == 1 else f"{n} [{t}]" for n, t, _ in found]
+    readable = readable or (lambda n, t: (n, t))
+    keys, labels = [], []
+    for n, t, _ in found:
+        text, tech = readable(n, t)
+        apart = names.count(n) > 1
+        keys.append(f"{n} [{t}]" if apart else n)
+        labels.append(f"{text} [{tech}]" if apart else text)
     n_trials = len(trials[techs[0]].lcoe_real)
     x = np.column_stack([c for _, _, c in found]) if found else np.empty((n_trials, 0))
-    return x, labels
+    return x, keys, labels
 
 
 def sweep_site_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed: int = 1,
@@ -60,10 +78,18 @@ def sweep_site_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed: int = 1,
     -------
     list of dict
         ``site``, ``options``, ``choice_now``, ``evpi_per_kwh``, ``evpi_se_per_kwh``,
-        ``evppi`` (list of :meth:`InfoValue.to_dict` with values in currency/kWh),
+        ``evppi`` (list of :meth:`InfoValue.to_dict` with values in currency/kWh, and
+        ``label``: the input's readable label with unit),
         ``n_trials``, ``basis``. Sites with fewer than two completed technologies are left
         out (nothing to choose).
     """
+    from .labels import input_label
+
+    cases = {t.label: t.case_name for t in result.plan.technologies}
+
+    def readable(name: str, tech: str) -> tuple[str, str]:
+        return input_label(name, result.plan.currency), cases.get(tech, tech)
+
     out = []
     seqs = np.random.SeedSequence(seed).spawn(max(len(result.sites), 1))
     for site, sq in zip(result.sites, seqs):
@@ -74,16 +100,18 @@ def sweep_site_voi(result, n_boot: int = DEFAULT_BOOTSTRAP, seed: int = 1,
         values = -np.column_stack([runs[t].lcoe_real for t in techs])
         s_evpi, s_rows = sq.spawn(2)
         whole = evpi(values, n_boot, np.random.default_rng(s_evpi))
-        x, labels = site_inputs(runs, techs)
+        x, keys, labels = site_inputs(runs, techs, readable)
         keep = [j for j in range(x.shape[1]) if np.ptp(x[:, j]) > 0]
-        rows = evppi_table(values, x[:, keep], [labels[j] for j in keep], None, n_boot,
+        rows = evppi_table(values, x[:, keep], [keys[j] for j in keep], None, n_boot,
                            np.random.default_rng(s_rows)) if keep else []
         rows.sort(key=lambda r: -r.value)
+        label_of = dict(zip(keys, labels))
         mean = values.mean(axis=0)
         out.append({"site": site.name, "options": techs,
                     "choice_now": techs[int(np.argmax(mean))],
                     "evpi_per_kwh": whole.value, "evpi_se_per_kwh": whole.se,
-                    "evppi": [r.to_dict() for r in rows[:top]], "n_trials": whole.n_trials,
+                    "evppi": [{**r.to_dict(), "label": label_of[r.name]} for r in rows[:top]],
+                    "n_trials": whole.n_trials,
                     "basis": SWEEP_BASIS})
     return out
 
@@ -100,7 +128,7 @@ def table_lines(rows: list[dict], currency: str) -> list[str]:
              f"delivered; EVPI = everything, +/- standard error)"]
     for r in rows:
         top = r["evppi"][0] if r["evppi"] else None
-        best = (f"; most: {top['name']} {mwh(top['value'])} (+/- {mwh(top['se'])})"
+        best = (f"; most: {top.get('label', top['name'])} {mwh(top['value'])} (+/- {mwh(top['se'])})"
                 + (", below its error" if top["below_se"] else "")) if top else ""
         lines.append(f"  {r['site'][:24]:<24} EVPI {mwh(r['evpi_per_kwh'])} (+/- "
                      f"{mwh(r['evpi_se_per_kwh'])}){best}")

@@ -77,9 +77,18 @@ def test_outputs_carry_the_value_of_information(comparison, tmp_path):
     assert (out / "value_of_information.png").read_bytes()[:4] == b"\x89PNG"
     page = (out / "value_of_information.html").read_text()
     assert "Worth up to" in page and "distributions are right" in page
+    report = (out / "report.html").read_text()  # the section is on the comparison's page
+    assert "Worth up to" in report and "value_of_information.html" not in report
+    assert report.count("data:image/png;base64,") == 3  # two comparison pictures + its chart
+    for row in data["evppi"]:  # a key for machines, a readable label for people
+        assert row["label"] and row["name"] in {r.name for r in comparison.voi.rows}
+    capex = next(r for r in data["evppi"] if r["name"] == "costs.capex_per_kw [novel]")
+    assert capex["label"] == "Capex [USD/kW] [novel]"
     ws = load_workbook(out / "comparison.xlsx")["Value of information"]
-    assert ws.cell(7, 1).value == "all (EVPI)"
-    assert ws.cell(7, 3).value == pytest.approx(comparison.voi.evpi.value)
+    assert ws.cell(7, 1).value == "Everything (EVPI)" and ws.cell(7, 8).value == "all (EVPI)"
+    assert ws.cell(7, 2).value == pytest.approx(comparison.voi.evpi.value)
+    keys = {ws.cell(r, 8).value: ws.cell(r, 1).value for r in range(8, ws.max_row + 1)}
+    assert keys["costs.capex_per_kw [novel]"] == "Capex [USD/kW] [novel]"
 
 
 def test_cases_with_a_tariff_are_valued_by_their_equity(tmp_path):

@@ -24,13 +24,19 @@ def _result(n=4000, seed=0):
                                              X=np.column_stack([s, b]), lcoe_real=lb),
               ("alone", "A"): SimpleNamespace(names=("shared",), X=s[:, None], lcoe_real=la)}
     sites = [SimpleNamespace(name="here"), SimpleNamespace(name="alone")]
-    return SimpleNamespace(trials=trials, sites=sites)
+    plan = SimpleNamespace(currency="USD", technologies=[
+        SimpleNamespace(label=t, case_name=f"Plant {t}") for t in "AB"])
+    return SimpleNamespace(trials=trials, sites=sites, plan=plan)
 
 
 def test_site_inputs_merge_shared_draws_and_label_own_ones():
     r = _result(50)
-    x, labels = site_inputs({t: r.trials[("here", t)] for t in "AB"}, ["A", "B"])
-    assert labels == ["shared", "capex [A]", "capex [B]"] and x.shape == (50, 3)
+    x, keys, labels = site_inputs({t: r.trials[("here", t)] for t in "AB"}, ["A", "B"])
+    assert keys == labels == ["shared", "capex [A]", "capex [B]"] and x.shape == (50, 3)
+    _, keys, labels = site_inputs({t: r.trials[("here", t)] for t in "AB"}, ["A", "B"],
+                                  lambda n, t: (n.upper(), f"Plant {t}"))
+    assert keys == ["shared", "capex [A]", "capex [B]"]
+    assert labels == ["SHARED", "CAPEX [Plant A]", "CAPEX [Plant B]"]
 
 
 def test_sweep_site_evpi_matches_the_normal_closed_form():
@@ -44,6 +50,7 @@ def test_sweep_site_evpi_matches_the_normal_closed_form():
     assert r["choice_now"] == "A"
     by = {e["name"]: e for e in r["evppi"]}
     assert set(by) >= {"capex [A]", "capex [B]"}
+    assert by["capex [A]"]["label"] == "capex [Plant A]"  # technologies by case name
     assert table_lines(rows, "USD")[1].startswith("  here")
 
 
@@ -73,3 +80,6 @@ def test_cli_sweep_voi_writes_the_block(tmp_path):
     rows = json.loads((tmp_path / "o" / "sweep.json").read_text())["value_of_information"]
     assert len(rows) == 1 and rows[0]["n_trials"] == 60 and len(rows[0]["options"]) == 3
     assert rows[0]["evpi_per_kwh"] > -1e-12 and rows[0]["evppi"]
+    for e in rows[0]["evppi"]:  # the key for machines, a readable label with unit for people
+        assert e["name"].split(" [")[0].count(".") == 1 and "." not in e["label"].split(" [")[0]
+        assert "[" in e["label"]

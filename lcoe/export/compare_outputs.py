@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from ..claims import audit_sentence, claim_sentence
-from ..compare import ComparisonResult, drivers
+from ..compare import ComparisonResult, drivers, input_labels
 from ..output import staged
 from ..tech.audit import worst_verdict
 from .summary import _clean
@@ -102,27 +102,15 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
     })
 
 
-def input_labels(result: ComparisonResult) -> dict:
-    """Human label with unit of every uncertain input of the comparison, by design name."""
-    from ..labels import labeller
-
-    out = {}
-    for col in result.design.columns:
-        text = labeller(result.cases[col.cases[0]].case)(col.path)
-        out.setdefault(col.path, text)
-        if col.dist.name != col.path:  # same input, different distributions: cases named
-            text += col.dist.name[len(col.path):]
-        out[col.dist.name] = text
-    return out
-
-
 def _labelled(rows: list, labels: dict) -> list:
     """Driver rows with a human ``label`` (unit included) beside the dotted ``input``."""
+    from ..labels import group_label
+
     out = []
     for r in rows:
         members = r.get("members") or [r["input"]]
         text = labels.get(r["input"], r["input"]) if members == [r["input"]] else \
-            f"{r['input'][:1].upper()}{r['input'][1:]} (group of {len(members)} inputs)"
+            group_label(r["input"], len(members))
         out.append({**r, "label": text})
     return out
 
@@ -369,12 +357,10 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
         from .compare_report import compare_report_html
 
         data = comparison_dict(result, provenance)
-        extra = []
-        if result.voi is not None:
-            from .voi_outputs import PAGE
+        extra, pictures = [], dict(figures)
+        if result.voi is not None:  # the section itself, with its chart, on the page
+            from .voi_outputs import PICTURE, voi_section_html
 
-            extra.append(f"<h2>Value of further information</h2><p>What resolving each "
-                         f"uncertainty before deciding would be worth: see "
-                         f"<a href=\"{PAGE}\">{PAGE}</a> beside this page.</p>")
-        out.write_text("report.html", compare_report_html(data, figures, extra))
+            extra.append(voi_section_html(result.voi, pictures.pop(PICTURE, None)))
+        out.write_text("report.html", compare_report_html(data, pictures, extra))
     return out.target

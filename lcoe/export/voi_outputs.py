@@ -38,7 +38,7 @@ def fig_voi(block, top: int = TOP):
     rows = block.rows[:top]
     k = 1e-3 if max([block.evpi.value] + [r.value for r in rows]) < 1e6 else 1e-6
     unit = f"{'k' if k == 1e-3 else 'M'} {block.currency}"
-    fig = _figure((9.0, max(3.0, 0.42 * len(rows) + 1.8)))
+    fig = _figure((11.0, max(3.0, 0.42 * len(rows) + 2.0)))
     ax = fig.add_subplot()
     y = np.arange(len(rows))
     vals = np.array([max(r.value, 0.0) for r in rows]) * k
@@ -50,9 +50,9 @@ def fig_voi(block, top: int = TOP):
                 ecolor="black", elinewidth=1, capsize=3)
     ax.axvline(block.evpi.value * k, color="black", linestyle="--", linewidth=1,
                label=f"EVPI (everything) {block.evpi.value * k:,.3g} {unit}")
-    ax.set_yticks(y, [_short(r.name, 52) for r in rows])
+    ax.set_yticks(y, [_short(block.label(r.name), 72) for r in rows])
     ax.invert_yaxis()
-    ax.set_xlabel(f"Worth up to ... to learn before choosing (EVPPI) [{unit}]; whiskers: 95 % "
+    ax.set_xlabel(f"Worth up to ... to learn before choosing (EVPPI) [{unit}]\nwhiskers: 95 % "
                   f"bootstrap interval", fontsize=9)
     ax.set_title("Blue: one input; orange: a group; grey: below its standard error",
                  fontsize=9)
@@ -69,7 +69,8 @@ def voi_png(block) -> bytes:
     return figure_png(fig_voi(block))
 
 
-def voi_section_html(block, png: bytes | None = None, src: str | None = None) -> str:
+def voi_section_html(block, png: bytes | None = None, src: str | None = None,
+                     top: int = 2 * TOP) -> str:
     """An HTML ``<section>`` with the table, the sentence, the chart and the caution.
 
     Parameters
@@ -79,16 +80,23 @@ def voi_section_html(block, png: bytes | None = None, src: str | None = None) ->
         The chart, embedded as a data URI.
     src : str, optional
         Or a link to the chart file.
+    top : int
+        Largest number of inputs and groups listed (all are in the JSON and the workbook).
     """
     s = block.to_summary()
     cur, e = block.currency, block.energy_ref_kwh
     rows = []
-    for r in [block.evpi] + block.rows:
+    for r in [block.evpi] + block.rows[:top]:
         flag = " (below its error)" if r.below_se else ""
-        rows.append(f"<tr><td>{_e(r.name)}{_e(flag)}</td><td>{_e(', '.join(r.members))}</td>"
-                    f"<td class='n'>{r.value:,.0f}</td><td class='n'>{r.se:,.0f}</td>"
-                    f"<td class='n'>{r.low:,.0f} to {r.high:,.0f}</td>"
-                    f"<td class='n'>{1000 * r.value / e:.3f}</td></tr>")
+        members = "; ".join(block.label(m) for m in r.members) if len(r.members) > 1 else ""
+        rows.append(f"<tr><td>{_e(block.label(r.name))}{_e(flag)}</td><td>{_e(members)}</td>"
+                    f"<td class='num'>{r.value:,.0f}</td><td class='num'>{r.se:,.0f}</td>"
+                    f"<td class='num'>{r.low:,.0f} to {r.high:,.0f}</td>"
+                    f"<td class='num'>{1000 * r.value / e:.3f}</td></tr>")
+    more = "" if len(block.rows) <= top else (
+        f"<p class='sub'>{len(block.rows) - top} more inputs and groups, each worth at most "
+        f"{max(block.rows[top].value, 0.0):,.0f} {_e(cur)}: all are in the JSON and the "
+        f"workbook.</p>")
     img = ""
     if png is not None:
         img = (f"<img alt='value of information by input' src='data:image/png;base64,"
@@ -102,9 +110,9 @@ def voi_section_html(block, png: bytes | None = None, src: str | None = None) ->
         f"is known now: {_e(block.options[block.best])}. {_e(block.basis)}. Per MWh figures "
         f"divide by the baseline's lifetime energy discounted at its real rate "
         f"({e:,.0f} kWh). {block.n_trials:,} trials, none left out.</p>"
-        f"<table><tr><th>Input or group</th><th>Members</th><th>Value [{_e(cur)}]</th>"
+        f"<table><tr><th>Input or group</th><th>Members of a group</th><th>Value [{_e(cur)}]</th>"
         f"<th>Standard error</th><th>95 % bootstrap interval</th><th>[{_e(cur)}/MWh]</th></tr>"
-        + "".join(rows) + "</table>" + img +
+        + "".join(rows) + "</table>" + more + img +
         f"<p>Method: {_e(s['method'])}.</p>"
         f"<p class='caution'>{_e(s['caution'])}</p>"
         + "".join(f"<p class='note'>{_e(n)}</p>" for n in block.notes) + "</section>")
@@ -114,7 +122,7 @@ def voi_page_html(block, png: bytes | None = None) -> str:
     """A standalone page around :func:`voi_section_html`."""
     css = ("body{font-family:sans-serif;max-width:60em;margin:2em auto;color:#222}"
            "table{border-collapse:collapse}td,th{border:1px solid #ccc;padding:3px 8px}"
-           ".n{text-align:right}img{max-width:100%}.caution{font-weight:bold}")
+           ".num{text-align:right}img{max-width:100%}.caution{font-weight:bold}")
     return (f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'><title>Value of "
             f"information - lcoe</title><style>{css}</style></head><body>"
             f"{voi_section_html(block, png)}</body></html>\n")
@@ -132,20 +140,23 @@ def write_voi_sheet(wb, block) -> None:
     put_text(ws, 4, 1, f"Choice now: {block.options[block.best]}. Trials: {block.n_trials}. "
                        f"Baseline discounted energy (real rate): {block.energy_ref_kwh:,.0f} "
                        f"kWh.")
-    header(ws, 6, ["Input or group", "Members", f"Value [{cur}]", f"Standard error [{cur}]",
+    header(ws, 6, ["Input or group", f"Value [{cur}]", f"Standard error [{cur}]",
                    f"2.5 % [{cur}]", f"97.5 % [{cur}]", f"Value [{cur}/MWh]",
-                   "Below its standard error"])
+                   "Below its standard error", "Key (as in comparison.json)",
+                   "Keys of the members"])
     r = 7
     for row in [block.evpi] + block.rows:
-        put_text(ws, r, 1, row.name)
-        put_text(ws, r, 2, ", ".join(row.members))
-        for j, v in enumerate((row.value, row.se, row.low, row.high), start=3):
+        put_text(ws, r, 1, block.label(row.name))
+        for j, v in enumerate((row.value, row.se, row.low, row.high), start=2):
             put(ws, r, j, float(v), "#,##0")
-        put(ws, r, 7, 1000 * row.value / block.energy_ref_kwh, "0.000")
-        put(ws, r, 8, bool(row.below_se))
+        put(ws, r, 6, 1000 * row.value / block.energy_ref_kwh, "0.000")
+        put(ws, r, 7, bool(row.below_se))
+        put_text(ws, r, 8, row.name)
+        put_text(ws, r, 9, ", ".join(row.members))
         r += 1
     r += 1
     for line in [block.to_summary()["method"], block.to_summary()["caution"]] + block.notes:
         put_text(ws, r, 1, line)
         r += 1
-    widths(ws, {"A": 60, "B": 60, "C": 16, "D": 16, "E": 14, "F": 14, "G": 14, "H": 14})
+    widths(ws, {"A": 60, "B": 16, "C": 16, "D": 14, "E": 14, "F": 14, "G": 14, "H": 50,
+                "I": 60})
