@@ -99,3 +99,22 @@ def test_no_plotting_or_spreadsheet_library_at_import():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip()
     assert out == "[]"
+
+
+def test_pictures_drawn_once_in_the_shared_style(study):
+    """One drawing per picture (savefig would draw twice with a layout engine); the style is
+    the pictures' own and leaves the caller's matplotlib settings alone."""
+    import matplotlib
+
+    from lcoe.export.plots import STYLE, build_figures
+
+    before = {k: matplotlib.rcParams[k] for k in STYLE}
+    figs = build_figures(study)
+    draws = {name: [] for name in figs}
+    for name, fig in figs.items():
+        fig.canvas.mpl_connect("draw_event", lambda event, n=name: draws[n].append(1))
+        figure_png(fig)
+        ax = fig.axes[0]
+        assert not ax.spines["top"].get_visible() and not ax.spines["right"].get_visible()
+    assert {name: len(d) for name, d in draws.items()} == {name: 1 for name in figs}
+    assert {k: matplotlib.rcParams[k] for k in STYLE} == before

@@ -4,10 +4,16 @@ Each ``fig_*`` function takes plain result blocks and returns a :class:`matplotl
 :func:`render_figures` draws every picture a run supports and returns PNG bytes by file name,
 for ``runner.write_outputs`` (PNG files) and :mod:`lcoe.export.report` (embedded images).
 The functions draw what the results hold; percentiles, indices and losses are the engine's.
+
+Every picture shares one style (:data:`STYLE`, matplotlib settings applied only while a
+picture is built and drawn, never to the caller's matplotlib) and is drawn once: the
+constrained layout runs inside that one drawing (``savefig`` would first draw the whole
+figure a second time, without output, to place it).
 """
 
 from __future__ import annotations
 
+import functools
 import io
 from collections.abc import Mapping, Sequence
 
@@ -16,12 +22,39 @@ import numpy as np
 from ..energy import LOSS_CHAIN
 from .workbook import MONTHS
 
-#: Figure size [inch] and resolution [dot/inch] of every picture.
+#: Figure size [inch] and resolution [dot/inch] of every picture (800 x 460 pixels).
 FIGSIZE = (8.0, 4.6)
-DPI = 110
+DPI = 100
 #: Colours of this project's pictures.
 BLUE, ORANGE, GREY, GREEN, RED = "#2f6690", "#d9822b", "#8a8f98", "#3a7d44", "#b23a48"
+#: matplotlib settings of every picture: no frame on top and right, a light grid behind the
+#: bars, legends without a box, and every text drawn literally (a ``$`` in a currency or a
+#: name is a dollar sign, not mathtext).
+STYLE = {
+    "figure.dpi": DPI,
+    "savefig.dpi": DPI,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.axisbelow": True,
+    "grid.color": "#dddddd",
+    "grid.linewidth": 0.8,
+    "legend.frameon": False,
+    "legend.fontsize": 9,
+    "text.parse_math": False,
+}
 
+
+def styled(build):
+    """Run a figure builder (or drawer) with :data:`STYLE` in force, and only then."""
+
+    @functools.wraps(build)
+    def run(*args, **kwargs):
+        from matplotlib import rc_context
+
+        with rc_context(STYLE):
+            return build(*args, **kwargs)
+
+    return run
 #: Short labels of the loss-chain stages (the loss *into* each stage).
 LOSS_LABELS = {
     "poa_kwh": "Nameplate x irradiation",
@@ -61,11 +94,9 @@ def _figure(figsize=FIGSIZE):
     return fig
 
 
-def _style(ax) -> None:
-    ax.grid(True, axis="y", color="#dddddd", linewidth=0.8)
-    ax.set_axisbelow(True)
-    for side in ("top", "right"):
-        ax.spines[side].set_visible(False)
+def _style(ax, axis: str = "y") -> None:
+    """The grid of :data:`STYLE` along ``axis`` (the value axis)."""
+    ax.grid(True, axis=axis)
 
 
 def literal_text(fig):
@@ -81,17 +112,19 @@ def literal_text(fig):
     return fig
 
 
+@styled
 def figure_png(fig) -> bytes:
-    """PNG bytes of a figure, its texts drawn literally (:func:`literal_text`)."""
-    literal_text(fig)
+    """PNG bytes of a figure, drawn once, its texts drawn literally (:func:`literal_text`)."""
+    literal_text(fig)  # also figures built outside STYLE (texts added by a caller)
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=DPI)
+    fig.canvas.print_png(buf)  # one drawing, at the figure's own dpi
     return buf.getvalue()
 
 
 # --------------------------------------------------------------------------------------------
 # single pictures
 # --------------------------------------------------------------------------------------------
+@styled
 def fig_lcoe_distribution(values: np.ndarray, stats: Mapping, currency: str,
                           label: str = "LCOE real"):
     """Histogram of the LCOE over the Monte Carlo trials with its 10th, 50th, 90th percentiles.
@@ -127,6 +160,7 @@ def fig_lcoe_distribution(values: np.ndarray, stats: Mapping, currency: str,
     return fig
 
 
+@styled
 def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12, label=str):
     """Sobol first-order (S1) and total (ST) indices with their confidence half-widths.
 
@@ -156,11 +190,11 @@ def fig_sobol(rows: Sequence[Mapping], output: str, top: int = 12, label=str):
     ax.set_xlabel("Share of the output's variance [-] (bars: index, whiskers: confidence)")
     ax.set_title(f"Drivers of {output_label(output)} (Sobol indices)")
     ax.legend(loc="lower right", frameon=False, fontsize=9)
-    ax.grid(True, axis="x", color="#dddddd", linewidth=0.8)
-    ax.set_axisbelow(True)
+    _style(ax, "x")
     return fig
 
 
+@styled
 def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12, label=str):
     """One-at-a-time swings: the output with each input at its 10th and 90th percentile.
 
@@ -202,11 +236,11 @@ def fig_tornado(rows: Sequence[Mapping], output: str, unit: str, top: int = 12, 
     ax.set_xlabel(f"{output_label(output)} [{unit}] (base case {base:.4g})")
     ax.set_title("Tornado: one input moved at a time, the others at base")
     ax.legend(loc="lower right", frameon=False, fontsize=9)
-    ax.grid(True, axis="x", color="#dddddd", linewidth=0.8)
-    ax.set_axisbelow(True)
+    _style(ax, "x")
     return fig
 
 
+@styled
 def fig_monthly_energy(monthly_kwh: np.ndarray):
     """Delivered energy by calendar month [MWh].
 
@@ -226,6 +260,7 @@ def fig_monthly_energy(monthly_kwh: np.ndarray):
     return fig
 
 
+@styled
 def fig_loss_chain(loss_chain_kwh: Mapping):
     """Waterfall from nameplate x plane-of-array irradiation to delivered energy [MWh/year].
 
@@ -265,6 +300,7 @@ def fig_loss_chain(loss_chain_kwh: Mapping):
     return fig
 
 
+@styled
 def fig_dscr_fan(years: np.ndarray, bands: Mapping[float, np.ndarray],
                  lockup: float | None = None, default: float = 1.0,
                  deterministic: np.ndarray | None = None):
@@ -328,6 +364,7 @@ def fig_dscr_fan(years: np.ndarray, bands: Mapping[float, np.ndarray],
 CASE_COLORS = (BLUE, ORANGE, GREEN, RED, GREY, "#6b4c9a", "#1b998b", "#c05746")
 
 
+@styled
 def fig_cumulative(curves: Mapping[str, np.ndarray], xlabel: str,
                    title: str = "Cumulative distribution", colors: Sequence[str] | None = None):
     """Empirical cumulative distributions of several runs (e.g. the LCOE of compared cases).
