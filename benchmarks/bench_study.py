@@ -8,8 +8,10 @@ processes (127.0.0.1 only), side by side in one run:
    Carlo trials and the project-finance collector on every trial (Sobol off: only the Monte
    Carlo is distributed).
 
-Before a ratio is printed, the two runs are checked to agree bit for bit (same trials, same
-outputs). The wall time of the cluster run includes starting and stopping the cluster.
+Each run is timed in a fresh interpreter started for it (so neither finds the other's imports,
+prepared sites or caches), from the call into the study to its result. Before a ratio is
+printed, the two runs are checked to agree bit for bit (same trials, same outputs). The wall
+time of the cluster run includes starting and stopping the cluster.
 
 Target: a speed-up of at least 1.6 with 2 workers on a 2-core machine.
 
@@ -20,6 +22,10 @@ from __future__ import annotations
 
 import argparse
 import os
+import pickle
+import subprocess
+import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -39,12 +45,6 @@ def _sweep(workers: int):
     return time.perf_counter() - t0, result
 
 
-def _same_sweep(a, b) -> bool:
-    return a.trials.keys() == b.trials.keys() and all(
-        np.array_equal(t.lcoe_real, b.trials[k].lcoe_real) and np.array_equal(t.X, b.trials[k].X)
-        for k, t in a.trials.items()) and a.rows == b.rows
-
-
 def _run(workers: int, trials: int):
     from lcoe.runner import run_case
 
@@ -54,10 +54,46 @@ def _run(workers: int, trials: int):
     return time.perf_counter() - t0, result
 
 
-def _same_run(a, b) -> bool:
-    ta, tb = a.extras["uncertainty"].trials, b.extras["uncertainty"].trials
-    return np.array_equal(ta.X, tb.X) and all(
-        np.array_equal(v, tb.outputs[k], equal_nan=True) for k, v in ta.outputs.items())
+def _child(kind: str, workers: int, trials: int, out: str) -> None:
+    """One measurement in a fresh interpreter (nothing prepared or imported beforehand)."""
+    t, result = _sweep(workers) if kind == "sweep" else _run(workers, trials)
+    with open(out, "wb") as fh:
+        pickle.dump((t, _digest(kind, result), _count(kind, result, trials)), fh)
+
+
+def _digest(kind: str, result) -> dict:
+    """Everything the two runs must agree on, bit for bit."""
+    if kind == "sweep":
+        out = {f"{k}/lcoe": t.lcoe_real for k, t in result.trials.items()}
+        out.update({f"{k}/X": t.X for k, t in result.trials.items()})
+        out["rows"] = result.rows
+        return out
+    t = result.extras["uncertainty"].trials
+    return {"X": t.X, **t.outputs}
+
+
+def _count(kind: str, result, trials: int) -> int:
+    return len(result.plan.runs) * result.plan.samples if kind == "sweep" else trials
+
+
+def _same(a: dict, b: dict) -> bool:
+    def equal(x, y):
+        if isinstance(x, np.ndarray):
+            return np.array_equal(x, y, equal_nan=x.dtype.kind == "f")
+        return x == y
+    return a.keys() == b.keys() and all(equal(a[k], b[k]) for k in a)
+
+
+def _measure(kind: str, workers: int, trials: int) -> tuple[float, dict, int]:
+    """Wall time of one study in a fresh interpreter started for it (start-up excluded)."""
+    with tempfile.TemporaryDirectory() as tmp:
+        out = os.path.join(tmp, "result.pkl")
+        env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH",
+                                                                                   ""))
+        subprocess.run([sys.executable, __file__, "--child", kind, "--workers", str(workers),
+                        "--trials", str(trials), "--out", out], check=True, env=env)
+        with open(out, "rb") as fh:
+            return pickle.load(fh)
 
 
 def main() -> None:
@@ -65,29 +101,32 @@ def main() -> None:
     ap.add_argument("--trials", type=int, default=200_000)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--only", choices=("sweep", "run"))
+    ap.add_argument("--child", choices=("sweep", "run"), help=argparse.SUPPRESS)
+    ap.add_argument("--out", help=argparse.SUPPRESS)
     args = ap.parse_args()
+    if args.child:
+        _child(args.child, args.workers, args.trials, args.out)
+        return
     print(f"machine: {os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f} at start")
     jobs = []
     if args.only in (None, "sweep"):
-        jobs.append(("bundled sweep (12 sites x 3 technologies x 400 trials)",
-                     lambda w: _sweep(w), _same_sweep,
-                     lambda r: len(r.plan.runs) * r.plan.samples))
+        jobs.append(("sweep", "bundled sweep (12 sites x 3 technologies x 400 trials)"))
     if args.only in (None, "run"):
-        jobs.append((f"lcoe run lender demo, {args.trials:,} trials (Sobol off)",
-                     lambda w: _run(w, args.trials), _same_run, lambda r: args.trials))
-    for title, job, same, n_trials in jobs:
-        t_serial, serial = job(1)
-        t_par, par = job(args.workers)
-        if not same(serial, par):
+        jobs.append(("run", f"lcoe run lender demo, {args.trials:,} trials (Sobol off)"))
+    for kind, title in jobs:
+        t_serial, serial, n = _measure(kind, 1, args.trials)
+        load_mid = os.getloadavg()[0]
+        t_par, par, _ = _measure(kind, args.workers, args.trials)
+        if not _same(serial, par):
             raise SystemExit(f"{title}: serial and {args.workers}-worker results differ")
-        n = n_trials(serial)
         ratio = t_serial / t_par
         print(f"{title}")
         print(f"  serial            {t_serial:8.1f} s  ({n / t_serial:,.0f} trials/s)")
         print(f"  {args.workers} workers (start-up included) {t_par:8.1f} s  "
               f"({n / t_par:,.0f} trials/s)")
         print(f"  speed-up          {ratio:8.2f}x  (target >= {TARGET_SPEEDUP}x: "
-              f"{'met' if ratio >= TARGET_SPEEDUP else 'missed'}); bit-identical: yes")
+              f"{'met' if ratio >= TARGET_SPEEDUP else 'missed'}); bit-identical: yes; "
+              f"load average {load_mid:.2f} between the two")
     print(f"load average {os.getloadavg()[0]:.2f} at end (other work on the machine slows "
           f"the parallel run most)")
 

@@ -129,11 +129,23 @@ def row_irradiance(surface_tilt_deg, surface_azimuth_deg, solar_zenith_deg, sola
 
     tilt = np.asarray(surface_tilt_deg, dtype=float)
     az = np.asarray(surface_azimuth_deg, dtype=float)
+    zenith = np.asarray(solar_zenith_deg, dtype=float)
+    sun_az = np.asarray(solar_azimuth_deg, dtype=float)
+    ghi, dhi, dni = (np.asarray(x, dtype=float) for x in (ghi_w_m2, dhi_w_m2, dni_w_m2))
+    # Infinite sheds is evaluated hour by hour; hours without light (about half of them) give
+    # zero irradiance on both sides whatever the geometry, so only the others are computed
+    # (the same numbers bit for bit: checked in the tests); their shaded fraction is taken as
+    # 0, as it multiplies no light.
+    lit = np.flatnonzero((ghi > 0) | (dhi > 0) | (dni > 0))
     out = infinite_sheds.get_irradiance(
-        tilt, az, solar_zenith_deg, solar_azimuth_deg, gcr, height_m, pitch_m, ghi_w_m2,
-        dhi_w_m2, dni_w_m2, albedo=1.0, model="isotropic", iam_front=1.0, iam_back=1.0,
+        tilt[lit], az[lit], zenith[lit], sun_az[lit], gcr, height_m, pitch_m, ghi[lit],
+        dhi[lit], dni[lit], albedo=1.0, model="isotropic", iam_front=1.0, iam_back=1.0,
         bifaciality=1.0, shade_factor=0.0, transmission_factor=0.0)
-    clean = {k: np.nan_to_num(np.asarray(v, dtype=float), nan=0.0) for k, v in out.items()}
+    keys = ("shaded_fraction_front", "poa_front_ground_diffuse", "poa_back_direct",
+            "poa_back_sky_diffuse", "poa_back_ground_diffuse")
+    clean = {k: np.zeros(tilt.shape) for k in keys}
+    for k in keys:
+        clean[k][lit] = np.nan_to_num(np.asarray(out[k], dtype=float), nan=0.0)
     open_sky = 0.5 * (1.0 + np.cos(np.radians(tilt)))
     vf_sky = np.asarray(utils.vf_row_sky_2d_integ(tilt, gcr, 0.0, 1.0), dtype=float)
     ratio = np.divide(vf_sky, open_sky, out=np.zeros_like(vf_sky), where=open_sky > 1e-9)
@@ -182,11 +194,11 @@ def diffuse_iam(surface_tilt_deg, aoi_model: str = "physical") -> tuple[np.ndarr
     w = tilt - lo
     sky = np.empty(tilt.shape)
     ground = np.empty(tilt.shape)
-    table = {d: _marion_whole_degree(aoi_model, int(d)) for d in np.unique(np.concatenate(
-        (lo.ravel(), hi.ravel())))}
+    degrees = np.unique(np.concatenate((lo.ravel(), hi.ravel())))
+    table = np.array([_marion_whole_degree(aoi_model, int(d)) for d in degrees], dtype=float)
+    at_lo, at_hi = np.searchsorted(degrees, lo), np.searchsorted(degrees, hi)
     for out, i in ((sky, 0), (ground, 1)):
-        f = np.vectorize(lambda d, i=i: table[d][i], otypes=[float])
-        out[...] = (1.0 - w) * f(lo) + w * f(hi)
+        out[...] = (1.0 - w) * table[at_lo, i] + w * table[at_hi, i]
     return sky, ground
 
 

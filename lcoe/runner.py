@@ -11,7 +11,7 @@ from pathlib import Path
 from . import __version__
 from .case import Case, load_case
 from .defaults import DEFAULT_SAMPLES, DEFAULT_SEED, DEFAULT_SOBOL_BASE  # noqa: F401 (re-export)
-from .model import evaluate, prepare
+from .model import evaluate
 from .output import staged
 from .plausibility import atypical_inputs
 from .results import RunResult
@@ -85,22 +85,22 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     -------
     RunResult
     """
-    from .model import load_weather_for
     from .progress import phase
+    from .study.trials import prepared
     from .uncertainty.spec import read_spec
 
     case = read_case(case)
     spec = read_spec(case)
-    phase(progress, "reading weather")
-    weather = load_weather_for(case)
-    phase(progress, "sun positions")
-    site = prepare(case, weather)
+    phase(progress, "reading weather and sun positions")
+    # the process's prepared site: the Monte Carlo (and forked workers) reuse it, with the
+    # plane of array of every geometry it computes
+    site, site_notes, _ = prepared(case)
     phase(progress, "energy and cash flow")
     base = evaluate(case, site, keep_hourly=True)  # one sample: the hourly arrays are small
     from .claims import audit_run
     from .tech.concentrator_model import cautions
 
-    notes = list(site.notes) + cautions(case) + [f"unusual input: {n}"
+    notes = list(site_notes) + cautions(case) + [f"unusual input: {n}"
                                                  for n in atypical_inputs(case)]
     extras = {"audit": audit_run(case, site, base)}
     bank = None

@@ -79,6 +79,34 @@ def test_shaded_fraction_closed_form():
     assert 1.0 - r.front_unshaded_fraction[0] == pytest.approx(expected, abs=1e-12)
 
 
+def test_rows_computed_on_lit_hours_only_are_pvlibs_numbers(demo_site):
+    # Cross-implementation: row_irradiance evaluates infinite sheds only on hours with light;
+    # every component equals pvlib's evaluation of all 8760 hours bit for bit, and hours
+    # without light have no irradiance on either side in pvlib either.
+    from pvlib.bifacial import infinite_sheds
+
+    z, az, ghi, dhi, dni = _sun_arrays(demo_site)
+    n = z.size
+    tilt, saz = np.full(n, 25.0), np.full(n, 180.0)
+    ours = row_irradiance(tilt, saz, z, az, ghi, dhi, dni, 0.4, 1.5, 5.0)
+    ref = {k: np.nan_to_num(np.asarray(v, dtype=float), nan=0.0) for k, v in
+           infinite_sheds.get_irradiance(tilt, saz, z, az, 0.4, 1.5, 5.0, ghi, dhi, dni,
+                                         albedo=1.0, model="isotropic", iam_front=1.0,
+                                         iam_back=1.0, bifaciality=1.0, shade_factor=0.0,
+                                         transmission_factor=0.0).items()}
+    lit = (ghi > 0) | (dhi > 0) | (dni > 0)
+    assert 0.3 < lit.mean() < 0.7
+    for mine, theirs in (("front_ground_per_albedo_w_m2", "poa_front_ground_diffuse"),
+                         ("rear_direct_w_m2", "poa_back_direct"),
+                         ("rear_sky_w_m2", "poa_back_sky_diffuse"),
+                         ("rear_ground_per_albedo_w_m2", "poa_back_ground_diffuse")):
+        assert np.array_equal(getattr(ours, mine), ref[theirs]), mine
+    assert np.array_equal(ours.front_unshaded_fraction[lit],
+                          1.0 - ref["shaded_fraction_front"][lit])
+    for k in ("poa_front", "poa_back"):
+        assert not ref[k][~lit].any(), k
+
+
 def test_ground_parts_linear_in_albedo(demo_site):
     # The property the sampled albedo relies on (infinite sheds has a single reflection).
     from pvlib.bifacial import infinite_sheds

@@ -314,3 +314,16 @@ def test_cross_case_rank_correlation_imposed(tmp_path):
 
 if __name__ == "__main__":
     sys.exit(pytest.main([__file__, "-q"]))
+
+
+def test_affinity_batches_keep_a_site_whole():
+    from lcoe.study.executor import affinity_batches
+
+    sites = ["a"] * 6 + ["b"] * 6 + ["c"] * 2 + ["d"] * 20
+    batches = affinity_batches(sites, 9, affinity=lambda s: s)
+    assert sorted(i for b in batches for i in b) == list(range(len(sites)))
+    for b in batches:  # a site smaller than a batch is never split, a large one is cut
+        assert len(b) <= 9
+    assert [0, 1, 2, 3, 4, 5] in batches and [6, 7, 8, 9, 10, 11, 12, 13] in batches
+    assert [len(b) for b in batches if sites[b[0]] == "d"] == [9, 9, 2]
+    assert affinity_batches(list(range(5)), 2) == [[0, 1], [2, 3], [4]]

@@ -16,6 +16,7 @@ Shapes: every output is (n_chunk,) or (n_chunk, k).
 
 from __future__ import annotations
 
+import os
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
@@ -37,9 +38,20 @@ CACHE_LIMIT = 256
 _CACHE: dict = {}
 
 
+def _file_stamp(path) -> tuple:
+    """Size and modification time of a weather file (so an edited file is read again)."""
+    try:
+        st = os.stat(path)
+    except (OSError, TypeError, ValueError):
+        return ()
+    return (st.st_size, st.st_mtime_ns)
+
+
 def site_key(case: Case) -> str:
-    """Key of a case's site: the weather (file or monthly values) and the location."""
-    return repr((str(case.weather_path), sorted((case.monthly or {}).items()),
+    """Key of a case's site: the weather (file, its size and time, or monthly values) and the
+    location."""
+    return repr((str(case.weather_path), _file_stamp(case.weather_path),
+                 sorted((case.monthly or {}).items()),
                  case["site.latitude_deg"], case["site.longitude_deg"],
                  case["site.altitude_m"], case["site.timezone"],
                  case["site.weather_time_label"]))
