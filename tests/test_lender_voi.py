@@ -57,3 +57,31 @@ def test_bad_targets_are_refused(lender):
 
     with pytest.raises(InputError, match="resource_sd is not set"):
         resource_information_value(case, base, replace(spec, energy_components={}))
+
+
+def test_lender_report_and_workbook_show_the_campaign_value(tmp_path):
+    # The block is in the run's page and workbook, not only in summary.json: the sentence with
+    # the gains, the sigma curve and the binding constraint at every point.
+    from openpyxl import load_workbook
+
+    from lcoe.export.voi_outputs import RESOURCE_SHEET
+    from lcoe.runner import run_case, write_outputs
+
+    result = run_case(LENDER, samples=0)
+    write_outputs(result, tmp_path / "o")
+    block = result.extras["resource_information"]
+    g = block.gains()
+    page = (tmp_path / "o" / "report.html").read_text(encoding="utf-8")
+    assert "Worth paying to measure the resource" in page
+    assert f"{g['debt']:+,.0f} USD" in page and f"{g['equity_value']:+,.0f} USD" in page
+    section = page[page.index("<section id='resource-information'>"):]
+    section = section[:section.index("</section>")]
+    assert all(f"<td>{b}</td>" in section for b in block.binding) and \
+        section.count("<tr>") == len(block.sigma) + 1  # header + one row per sigma
+    ws = load_workbook(tmp_path / "o" / "workbook.xlsx")[RESOURCE_SHEET]
+    col = {ws.cell(4, j).value: j for j in range(1, 7)}
+    rows = range(5, 5 + len(block.sigma))
+    debt = [ws.cell(r, col["Debt [USD]"]).value for r in rows]
+    assert debt == pytest.approx(block.debt.tolist(), rel=1e-12)
+    assert [ws.cell(r, 1).value for r in rows] == pytest.approx(block.sigma.tolist())
+    assert debt[-1] - debt[0] == pytest.approx(g["debt"], rel=1e-12)

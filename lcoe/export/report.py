@@ -252,6 +252,11 @@ def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> s
 
         body.append(debt_section_html(bank.to_summary(), case["case.currency"],
                                       figures.pop("dscr_fan.png", None)))
+    if result.extras.get("resource_information") is not None:  # the lender's campaign value
+        from .voi_outputs import resource_section_html
+
+        body.append(resource_section_html(result.extras["resource_information"].to_summary(),
+                                          case["case.currency"]))
     if figures:
         body.append("<h2>Pictures</h2>")
         for name, png in figures.items():

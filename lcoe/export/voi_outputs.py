@@ -1,8 +1,10 @@
-"""Value of information of a comparison: bar chart, workbook sheet and an HTML section.
+"""Value of information: bar chart, workbook sheets and HTML sections.
 
-Reads a :class:`lcoe.compare_voi.VoiBlock` and computes nothing but formatting. The HTML
-section is self-contained (:func:`voi_section_html`) so that a report page can include it; the
-comparison also writes it as ``value_of_information.html``.
+For a comparison it reads a :class:`lcoe.compare_voi.VoiBlock`; for the lender's case the
+summary of a :class:`lcoe.lender_voi.ResourceInfoBlock` (the value of narrowing the resource
+uncertainty). It computes nothing but formatting. The HTML sections are self-contained
+(:func:`voi_section_html`, :func:`resource_section_html`) so that a report page can include
+them; the comparison also writes its section as ``value_of_information.html``.
 """
 
 from __future__ import annotations
@@ -14,6 +16,8 @@ import html
 PICTURE = "value_of_information.png"
 PAGE = "value_of_information.html"
 SHEET = "Value of information"
+#: Sheet of the lender's value of a resource measurement campaign.
+RESOURCE_SHEET = "Resource measurement"
 #: Largest number of bars drawn.
 TOP = 12
 
@@ -160,3 +164,83 @@ def write_voi_sheet(wb, block) -> None:
         r += 1
     widths(ws, {"A": 60, "B": 16, "C": 16, "D": 14, "E": 14, "F": 14, "G": 14, "H": 50,
                 "I": 60})
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.1f} %"
+
+
+def resource_sentence(s: dict, cur: str) -> str:
+    """Plain sentence of the lender's block (``ResourceInfoBlock.to_summary()``)."""
+    g = s["gained"]
+    return (f"Narrowing the long-term solar resource uncertainty from {_pct(s['resource_sd_from'])}"
+            f" to {_pct(s['resource_sd_to'])} (one standard deviation) before the debt is sized, "
+            f"for example with an on-site measurement campaign, changes the debt the project "
+            f"can carry by {g['debt']:+,.0f} {cur} ({g['debt_per_0_01_sigma']:+,.0f} {cur} per "
+            f"percentage point of sigma) and the equity's value by {g['equity_value']:+,.0f} "
+            f"{cur} ({s['equity_value_definition']}; {g['equity_npv_discount']:+,.0f} {cur} at "
+            f"the discount rate).")
+
+
+def resource_section_html(s: dict, currency: str) -> str:
+    """HTML ``<section>`` of the lender's value of a resource measurement campaign.
+
+    Parameters
+    ----------
+    s : dict
+        :meth:`lcoe.lender_voi.ResourceInfoBlock.to_summary`.
+    currency : str
+    """
+    cur = _e(currency)
+    rows = "".join(
+        f"<tr><td class='num'>{_pct(c['resource_sd'])}</td><td class='num'>"
+        f"{_pct(c['sigma_1yr'])}</td><td class='num'>{c['debt']:,.0f}</td><td class='num'>"
+        f"{c['equity_value']:,.0f}</td><td class='num'>{c['equity_npv_at_discount_rate']:,.0f}"
+        f"</td><td>{_e(c['binding'])}</td></tr>" for c in s["curve"])
+    return ("<section id='resource-information'><h2>Worth paying to measure the resource "
+            f"before the debt is sized</h2><p>{_e(resource_sentence(s, currency))}</p>"
+            "<table><tr><th>Resource uncertainty (sd) [-]</th><th>One-year energy sd used for "
+            f"sizing [-]</th><th>Debt [{cur}]</th><th>Equity value at its target IRR [{cur}]"
+            f"</th><th>Equity NPV at the discount rate [{cur}]</th><th>Binding constraint</th>"
+            "</tr>" + rows + "</table>"
+            f"<p class='sub'>{_e(s['caution'])}</p>"
+            + "".join(f"<p class='sub'>Note: {_e(n)}.</p>" for n in s.get("notes") or [])
+            + "</section>")
+
+
+def write_resource_sheet(wb, s: dict, currency: str) -> None:
+    """Add the sheet :data:`RESOURCE_SHEET` (the lender's block, gains as formulas)."""
+    from .workbook import header, put, put_formula, put_text, title, widths
+
+    ws = wb.create_sheet(RESOURCE_SHEET)
+    cur = currency
+    title(ws, 1, "Worth paying to measure the resource before the debt is sized", 14)
+    put_text(ws, 2, 1, resource_sentence(s, cur))
+    header(ws, 4, ["Resource uncertainty (sd) [-]", "One-year energy sd used for sizing [-]",
+                   f"Debt [{cur}]", f"Equity value at its target IRR [{cur}]",
+                   f"Equity NPV at the discount rate [{cur}]", "Binding constraint"])
+    r = 5
+    for c in s["curve"]:
+        put(ws, r, 1, c["resource_sd"], "0.0000")
+        put(ws, r, 2, c["sigma_1yr"], "0.0000")
+        put(ws, r, 3, c["debt"], "#,##0")
+        put(ws, r, 4, c["equity_value"], "#,##0")
+        put(ws, r, 5, c["equity_npv_at_discount_rate"], "#,##0")
+        put_text(ws, r, 6, c["binding"])
+        r += 1
+    first, last = 5, r - 1
+    r += 1
+    header(ws, r, ["Gained from the first to the last row", "", f"Debt [{cur}]",
+                   f"Equity value [{cur}]", f"Equity NPV at the discount rate [{cur}]"])
+    put_text(ws, r + 1, 1, "in total")
+    put_text(ws, r + 2, 1, "per 0.01 of resource sd")
+    for col in "CDE":
+        j = ord(col) - ord("A") + 1
+        put_formula(ws, r + 1, j, f"={col}{last}-{col}{first}", "#,##0")
+        put_formula(ws, r + 2, j, f"=IF($A${first}>$A${last},{col}{r + 1}/(($A${first}-"
+                                  f"$A${last})/0.01),\"\")", "#,##0")
+    r += 4
+    for line in [s["equity_value_definition"], s["caution"]] + list(s.get("notes") or []):
+        put_text(ws, r, 1, line)
+        r += 1
+    widths(ws, {"A": 30, "B": 30, "C": 18, "D": 24, "E": 24, "F": 22})

@@ -4,7 +4,8 @@ One workbook per run, sheets in this order: ``About`` (what the workbook is, how
 cautions, provenance, headline numbers), ``Inputs`` (every case value, its unit, its
 distribution when uncertain, a note; key inputs as defined names), ``Energy`` (monthly energy
 and the loss chain), ``CashFlow`` (one column per year, every derived cell a live formula),
-``Debt`` (when the run has a bankability block), ``Distribution`` and ``Sensitivity`` (when the
+``Debt`` (when the run has a bankability block), ``Resource measurement`` (the lender's
+value of narrowing the resource uncertainty), ``Distribution`` and ``Sensitivity`` (when the
 run has an uncertainty study), and a hidden ``_case`` sheet holding the case's list tables so
 that :func:`lcoe.export.readback.case_from_workbook` can rebuild the case after a user edits
 the Inputs sheet.
@@ -276,6 +277,11 @@ def write_workbook(result: RunResult, path: Path) -> None:
 
     if workbook_debt.has_debt(result):
         workbook_debt.write_debt_sheet(wb, result, cash_rows)
+    if result.extras.get("resource_information") is not None:
+        from .voi_outputs import write_resource_sheet
+
+        write_resource_sheet(wb, result.extras["resource_information"].to_summary(),
+                             result.case["case.currency"])
     if "uncertainty" in result.extras:
         workbook_stats.write_distribution_sheet(wb, result)
     sens = result.extras.get("sensitivity")
@@ -424,6 +430,8 @@ SHEET_GUIDE = {
                 "engine values at the bottom",
     "Debt": "revenue, tax, CFADS, loan schedule, DSCR, LLCR, NPV and IRRs as formulas (debt "
             "amount and scheduled service sized by the engine)",
+    "Resource measurement": "debt and equity value if the resource uncertainty were "
+                            "narrowed before sizing (the lender's value of information)",
     "Distribution": "Monte Carlo percentiles, histogram of the LCOE and the listed trials",
     "Sensitivity": "Sobol indices with confidence intervals, tornado swings",
     "Comparison": "several runs side by side",
