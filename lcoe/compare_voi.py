@@ -264,7 +264,8 @@ def value_of_information(names: Sequence[str], currencies: Sequence[str],
     from .labels import group_label
 
     shown = {n: (labels or {}).get(n, n) for n in input_names}
-    shown.update({g: group_label(SECTION_LABELS.get(g, g), len(m)) for g, m in groups.items()})
+    shown.update({g: group_label(SECTION_LABELS.get(g, g.removeprefix("group ")), len(m))
+                  for g, m in groups.items()})
     return VoiBlock(options=list(names), expected_value=mean, best=int(np.argmax(mean)),
                     evpi=whole, rows=rows, energy_ref_kwh=float(energy_ref_kwh),
                     currency=currencies[0], n_trials=values.shape[0], basis=basis,

@@ -185,7 +185,6 @@ def group_label(name: str, n_members: int) -> str:
     """Label of a group of inputs (Sobol or value-of-information group): its name, capitalised,
     with the number of members, e.g. ``"Costs [Larkspur] (group of 3 inputs)"``."""
     name = str(name)
-    name = name[len("group "):] if name.startswith("group ") else name
     return f"{name[:1].upper()}{name[1:]} (group of {n_members} inputs)"
 
 

@@ -32,6 +32,31 @@ def _chart_text(figures: dict) -> str:
     return "\n".join(t.get_text() for fig in figures.values() for t in fig.findobj(Text))
 
 
+def _sheet_keys(path, keep=("Inputs",)) -> list:
+    """Dotted keys shown in a workbook outside its key columns.
+
+    A key column is one with a heading starting with "Key" above the cell; the sheets in
+    ``keep`` (the Inputs sheets, where keys are the point) and hidden sheets are not read.
+    """
+    from openpyxl import load_workbook
+
+    found = []
+    wb = load_workbook(path)
+    for ws in wb.worksheets:
+        if ws.title in keep or ws.sheet_state != "visible":
+            continue
+        key_cols: set = set()
+        for row in ws.iter_rows():
+            for c in row:
+                if not isinstance(c.value, str) or c.value.startswith("="):
+                    continue
+                if c.value.startswith("Key"):
+                    key_cols.add(c.column)
+                elif c.column not in key_cols and KEY.search(c.value):
+                    found.append((ws.title, c.coordinate, c.value[:60]))
+    return found
+
+
 def test_labels_come_from_the_schema_with_units():
     assert input_label("costs.capex_per_kw", "USD") == "Capex [USD/kW]"
     items = {("costs.replacement", 0): "inverters"}
@@ -54,6 +79,9 @@ def test_run_report_and_charts_show_no_dotted_key(tmp_path, case):
     assert not KEY.findall(charts), KEY.findall(charts)
     assert "Capex [USD/kW]" in charts or "Costs (group" in charts
     assert text.count("assume independent inputs") <= 1  # each caveat once
+    # the workbook's headings, factors, tornado rows and notes: labels; keys in key columns
+    assert not _sheet_keys(tmp_path / "o" / "workbook.xlsx"), \
+        _sheet_keys(tmp_path / "o" / "workbook.xlsx")
 
 
 @pytest.fixture(scope="module")
@@ -75,8 +103,12 @@ def test_compare_page_and_charts_show_no_dotted_key(demo_compare):
             assert " ".join(c["claim"]["text"].split()) in " ".join(text.split())
         assert all("label" in d for d in c["drivers"])  # JSON keeps key and label
     for heading in ("The claims, tested", "Loss chains side by side", "Break-even capex",
-                    "Probability that the claim holds"):
-        assert heading in text
+                    "Probability that the claim holds", "Worth up to ... to learn before deciding"):
+        assert heading in text  # the value of information is on the page itself
+    labels = {r["label"] for r in data["value_of_information"]["evppi"][:5]}
+    assert all(label in text for label in labels)
+    assert not _sheet_keys(demo_compare / "comparison.xlsx"), \
+        _sheet_keys(demo_compare / "comparison.xlsx")
 
 
 def test_compare_colours_and_one_bound_per_ratio():
@@ -97,7 +129,11 @@ def test_compare_colours_and_one_bound_per_ratio():
     assert curves == [CASE_COLORS[1], CASE_COLORS[2]]  # candidates keep their colours
     bounds = [ln for ln in ratio_ax.get_lines() if ln.get_linestyle() == "--"]
     assert len(bounds) == 1  # both candidates test 0.8: the bound is drawn once
+    from lcoe.export.voi_outputs import fig_voi
+
+    figs["value_of_information.png"] = fig_voi(result.voi)
     chart = _chart_text(figs)
+    assert all(result.voi.label(r.name) in chart for r in result.voi.rows[:5])
     assert not KEY.findall(chart), KEY.findall(chart)
 
 
@@ -174,3 +210,36 @@ def test_sweep_page_renders_in_chromium(small_sweep, tmp_path):
     assert shown.dom.count("data:image/png;base64,") == 2
     grey = imread(shown.screenshot)[..., :3].mean(axis=2)
     assert grey.std() > 0.05 and np.mean(grey < 0.5) > 0.005
+
+
+HOSTILE = ("=HYPERLINK(\"http://example.invalid\";\"x\") <script>alert(\"x\")</script> "
+           "& <b>bold</b> +1 @SUM(A1)")
+
+
+def test_hostile_claim_text_is_escaped_on_the_page_and_inert_in_the_workbook(tmp_path):
+    # A vendor's claim quoted verbatim: on the page as escaped text (no tag, no script), in
+    # the workbook as a text cell that a spreadsheet never evaluates as a formula.
+    from conftest import MINIMAL_CASE, write_case
+    from openpyxl import load_workbook
+
+    from lcoe.cli import main
+
+    unc = '\n[uncertain]\n"costs.capex_per_kw" = { dist = "uniform", low = 900, high = 1100 }\n'
+    base = write_case(tmp_path, MINIMAL_CASE.replace('"t"', '"base"') + unc, "base.toml")
+    claim = ('\n[claim]\ntext = """' + HOSTILE + '"""\nlcoe_ratio = 0.9\n')
+    vendor = write_case(tmp_path, MINIMAL_CASE.replace('"t"', '"vendor"') + unc + claim,
+                        "vendor.toml")
+    out = tmp_path / "o"
+    assert main(["compare", str(base), str(vendor), "--out", str(out), "--samples", "32",
+                 "--sobol-ratio", "0", "--quiet"]) == 0
+    page = (out / "report.html").read_text(encoding="utf-8")
+    assert html.escape(HOSTILE, quote=True) in page
+    assert "<script" not in page and "<b>bold" not in page
+    assert HOSTILE in _page_text(out / "report.html")  # shown verbatim once unescaped
+    ws = load_workbook(out / "comparison.xlsx")["Comparison"]
+    row = next(r for r in range(1, ws.max_row + 1)
+               if str(ws.cell(r, 1).value).startswith("Claim as stated"))
+    cell = ws.cell(row, 4)  # the candidate's column (Quantity, Unit, baseline, candidate)
+    assert cell.value == HOSTILE and cell.data_type == "s" and cell.quotePrefix
+    assert json.loads((out / "comparison.json").read_text())["candidates"][0]["claim"][
+        "text"] == HOSTILE

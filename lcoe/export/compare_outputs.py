@@ -208,7 +208,9 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     put_text(ws, r + 1, 1, METHOD)
     r += 3
     title(ws, r, "Notes and cautions")
-    for line in data["notes"] + data["cautions"]:
+    from ..labels import humanize
+
+    for line in [humanize(n, data["labels"]) for n in data["notes"]] + data["cautions"]:
         r += 1
         put_text(ws, r, 1, line)
     widths(ws, {"A": 160})
@@ -235,7 +237,9 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     def per_candidate(get):
         return [None if c is None else get(c) for c in cand]
 
-    rows += [("Claim ratio tested", "-", per_candidate(lambda c: c["claim_ratio"]), "0.000"),
+    rows += [("Claim as stated (quoted from the case file)", "-",
+              per_candidate(lambda c: c["claim"].get("text")), None),
+             ("Claim ratio tested", "-", per_candidate(lambda c: c["claim_ratio"]), "0.000"),
              ("Source of the claim ratio", "-",
               per_candidate(lambda c: c["claim_ratio_source"]), None)]
     for q, qlabel in (("q10", "10th pct"), ("q50", "median"), ("q90", "90th pct")):
@@ -292,13 +296,13 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     widths(ws, {"A": 34, "B": 26, "C": 12, "D": 150})
 
     ws = wb.create_sheet("Drivers")
-    header(ws, 1, ["Candidate", "Input or group", "Members", "S1", "S1 +/-", "ST", "ST +/-",
-                   "ST interval includes 0"])
+    header(ws, 1, ["Candidate", "Input or group", "Keys of its inputs (as in comparison.json)",
+                   "S1", "S1 +/-", "ST", "ST +/-", "ST interval includes 0"])
     r = 2
     for c in data["candidates"]:
         for d in c["drivers"]:
             put_text(ws, r, 1, c["name"])
-            put_text(ws, r, 2, d["input"])
+            put_text(ws, r, 2, d["label"])
             put_text(ws, r, 3, ", ".join(d["members"]))
             for j, k in enumerate(("S1", "S1_conf", "ST", "ST_conf"), start=4):
                 put(ws, r, j, d[k], "0.000")
@@ -306,7 +310,7 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
             r += 1
         for note in c["drivers_notes"]:
             put_text(ws, r, 1, c["name"])
-            put_text(ws, r, 2, note)
+            put_text(ws, r, 2, humanize(note, data["labels"]))
             r += 1
     widths(ws, {"A": 34, "B": 60, "C": 60})
 

@@ -51,6 +51,13 @@ def output_columns(cur: str) -> list[tuple[str, str, str]]:
             ("energy_first_year_kwh", "First-year energy [kWh]", FMT_KWH)]
 
 
+def trial_output_labels(cur: str) -> dict:
+    """Headings with units of the further per-trial outputs (the lender's), by key."""
+    return {"min_dscr": "Minimum DSCR [-]", "equity_irr": "Equity IRR [-]",
+            "equity_mirr": "Equity MIRR [-]",
+            "equity_npv_at_target": f"Equity NPV at the target IRR [{cur}]"}
+
+
 def lcoe_histogram(values: np.ndarray, bins: int = HISTOGRAM_BINS):
     """Bin edges and counts of the LCOE trials for display (numpy.histogram, equal widths)."""
     v = np.asarray(values, dtype=float)
@@ -75,7 +82,12 @@ def write_distribution_sheet(wb, result: RunResult) -> None:
     shown = {k for k, _, _ in outs}
     extra = [k for k, v in trials.outputs.items()
              if k not in shown and np.ndim(v) == 1 and len(v) == trials.n]
-    hdr = ["Trial"] + [h for _, h, _ in outs] + inputs + extra
+    from ..labels import labeller
+
+    label = labeller(result.case)  # headings read as labels; the keys are in trials.csv
+    more = trial_output_labels(cur)
+    hdr = ["Trial"] + [h for _, h, _ in outs] + [label(k) for k in inputs] + \
+        [more.get(k, k.replace("_", " ")) for k in extra]
     header(ws, 1, hdr, col=TRIALS_COL)
     first, last = 2, 1 + n_listed
     cols = [np.arange(1, n_listed + 1)] + [trials.outputs[k][:n_listed] for k, _, _ in outs] + \
@@ -174,10 +186,14 @@ def write_sensitivity_sheet(wb, result: RunResult) -> None:
     """Sobol S1/ST with intervals, tornado swings and Morris screening when present."""
     from openpyxl.chart import BarChart, Reference
 
+    from ..labels import humanize
+    from .plots import output_label
+
     sens = result.extras["sensitivity"]
+    out_name = output_label(sens.output)
     ws = wb.create_sheet("Sensitivity")
     r = 1
-    title(ws, r, f"Drivers of {sens.output}")
+    title(ws, r, f"Drivers of {out_name}")
     r += 1
     words = sens.plain_words() if hasattr(sens, "plain_words") else ""
     if words:
@@ -192,12 +208,13 @@ def write_sensitivity_sheet(wb, result: RunResult) -> None:
                            f"{sob.num_resamples} bootstrap resamples")
         r += 2
         h0 = r
-        header(ws, r, ("Factor", "Inputs in the factor", "S1", "S1 half-width", "S1 low",
+        header(ws, r, ("Factor", "Keys of its inputs (as in trials.csv)", "S1",
+                       "S1 half-width", "S1 low",
                        "S1 high", "ST", "ST half-width", "ST low", "ST high",
                        "S1 interval includes 0", "ST interval includes 0", "Wide interval"))
         for row in sens.ranked():
             r += 1
-            put_text(ws, r, 1, row["input"])
+            put_text(ws, r, 1, sens.label(row["input"]))
             put_text(ws, r, 2, ", ".join(row.get("members", [row["input"]])))
             put(ws, r, 3, row["S1"], "0.0000")
             put(ws, r, 4, row["S1_conf"], "0.0000")
@@ -224,18 +241,19 @@ def write_sensitivity_sheet(wb, result: RunResult) -> None:
         r += 1
         for w in list(sob.warnings) + list(sens.notes):
             r += 1
-            put_text(ws, r, 1, f"note: {w}")
+            put_text(ws, r, 1, f"note: {humanize(w, sens.labels)}")
     r += 2
     if sens.tornado:
-        title(ws, r, f"Tornado: {sens.output} with one input at its 10th or 90th percentile, "
+        title(ws, r, f"Tornado: {out_name} with one input at its 10th or 90th percentile, "
                      f"the others at base")
         r += 1
         header(ws, r, ("Input", "Input at 10th percentile", "Input at 90th percentile",
                        "Output, input at 10th", "Output, input at 90th", "Output at base",
-                       "Swing |high - low|", "Engine swing"))
+                       "Swing |high - low|", "Engine swing", "Key"))
         for row in sens.tornado:
             r += 1
-            put_text(ws, r, 1, row["input"])
+            put_text(ws, r, 1, sens.label(row["input"]))
+            put_text(ws, r, 9, row["input"])
             for j, key in enumerate(("low_value", "high_value", "y_low", "y_high", "y_base")):
                 put(ws, r, 2 + j, row[key], "General" if j < 2 else "0.00000")
             put_formula(ws, r, 7, f"=ABS(E{r}-D{r})", "0.00000")
@@ -245,12 +263,13 @@ def write_sensitivity_sheet(wb, result: RunResult) -> None:
         title(ws, r, "Morris screening (elementary effects)")
         r += 1
         keys = list(sens.morris[0].keys())
-        header(ws, r, keys)
+        header(ws, r, [{"input": "Input"}.get(k, k) for k in keys] + ["Key"])
         for row in sens.morris:
             r += 1
             for j, k in enumerate(keys):
-                put(ws, r, 1 + j, row[k], "0.00000")
-    widths(ws, {"A": 34, "B": 40, "C": 22, "D": 22, "E": 22, "F": 22, "G": 22, "H": 22,
+                put(ws, r, 1 + j, sens.label(row[k]) if k == "input" else row[k], "0.00000")
+            put_text(ws, r, 1 + len(keys), row.get("input"))
+    widths(ws, {"A": 46, "B": 40, "C": 22, "D": 22, "E": 22, "F": 22, "G": 22, "H": 22,
                 "I": 12, "J": 12, "K": 22, "L": 22, "M": 16})
     ws.freeze_panes = "A2"
 

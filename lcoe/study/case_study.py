@@ -265,7 +265,7 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
 
 def input_labels(case: Case, dists) -> dict:
     """Human labels with units of the uncertain inputs and Sobol groups of ``case``."""
-    from ..labels import labeller
+    from ..labels import group_label, labeller
 
     label = labeller(case)
     out = {d.name: label(d.name) for d in dists}
@@ -274,7 +274,7 @@ def input_labels(case: Case, dists) -> dict:
         if d.group:
             groups.setdefault(d.group, []).append(d.name)
     for g, members in groups.items():
-        out[g] = f"{g[:1].upper()}{g[1:]} (group of {len(members)} inputs)"
+        out[g] = group_label(g, len(members))
     return out
 
 
