@@ -87,7 +87,9 @@ def _log(test: str, rc, err: str) -> None:
     path = os.environ.get("LCOE_FUZZ_LOG")
     if path:
         with open(path, "a", encoding="utf-8") as fh:
-            fh.write(json.dumps({"test": test, "rc": rc, "err": err[-300:]}) + "\n")
+            kind = os.environ.get("PYTEST_CURRENT_TEST", "").split("::")[-1].split(" ")[0]
+            fh.write(json.dumps({"kind": kind, "test": test, "rc": rc, "err": err[-300:]})
+                     + "\n")
 
 
 def assert_contract(rc: int, out: str, err: str) -> None:
