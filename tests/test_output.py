@@ -1,8 +1,8 @@
 """Publishing output folders: always entirely the old run or entirely the new one.
 
 Failures are injected at every step of :func:`lcoe.output.publish` (staging, writing, marker,
-swap, the two-rename fallback, deleting the old folder), by exception, by Ctrl-C and by
-SIGKILL of a child process; two processes race for one folder.
+swap, the two-rename fallback, deleting the old folder; the one rename of a first run), by
+exception, by Ctrl-C and by SIGKILL of a child process; two processes race for one folder.
 """
 
 from __future__ import annotations
@@ -199,6 +199,30 @@ def test_failure_at_every_step_leaves_old_or_new(target, monkeypatch, step, fail
     assert _leftovers(target.parent) == []
 
 
+@pytest.mark.parametrize("fail", [_enospc, _interrupt], ids=["ENOSPC", "Ctrl-C"])
+@pytest.mark.parametrize("step", ["mkdtemp", "write", "marker", "rename"])
+def test_failure_at_every_step_of_a_first_run_leaves_no_folder(tmp_path, monkeypatch, step,
+                                                               fail):
+    # No old run: the one rename publishes the stage; a failure before it leaves nothing
+    target = tmp_path / "new"
+    with monkeypatch.context() as m:
+        if step == "rename":
+            m.setattr(os, "rename", _NthCall(os.rename, 1, fail))
+        elif step != "write":
+            _inject(m, step, fail)
+        with pytest.raises((OSError, KeyboardInterrupt)):
+            with publish(target) as stage:
+                stage.write_text("summary.json", "new run")
+                if step == "write":
+                    fail()
+                stage.write_text("workbook.xlsx", "new book")
+    assert not os.path.lexists(target)
+    assert _leftovers(tmp_path) == []
+    _write(target, NEW, force=False)
+    assert _old_or_new(target) == "new"
+    assert _leftovers(tmp_path) == []
+
+
 def test_interrupt_during_swap_is_held_back(target, monkeypatch):
     real = output._exchange
 
@@ -258,12 +282,27 @@ _CHILD = textwrap.dedent("""
                 die()
             real_rename(a, b)
         os.rename = rename
+    elif step == "first_rename":
+        os.rename = die
     with output.publish(target, force=True) as stage:
         stage.write_text("summary.json", "new run")
         if step == "writing":
             die()
         stage.write_text("workbook.xlsx", "new book")
 """)
+
+
+def test_sigkill_at_the_rename_of_a_first_run_leaves_no_folder(tmp_path):
+    script = tmp_path / "child.py"
+    script.write_text(_CHILD.format(root=str(ROOT)))
+    target = tmp_path / "new"
+    r = subprocess.run([sys.executable, str(script), str(target), "first_rename"],
+                       capture_output=True)
+    assert r.returncode == -signal.SIGKILL
+    assert not os.path.lexists(target) and _leftovers(tmp_path)
+    _write(target, NEW, force=False)
+    assert _old_or_new(target) == "new"
+    assert _leftovers(tmp_path) == []
 
 
 @pytest.mark.parametrize("step", ["writing", "exchange", "after_exchange", "between_renames"])
