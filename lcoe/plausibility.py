@@ -18,9 +18,10 @@ Checks, per sample (the first one failed is reported):
 
 Monte Carlo trials (decision): a trial that fails a check is not dropped (dropping biases the
 tails that P90/P99 and covenant odds read) and not kept (it would report an impossible plant);
-the run stops with one line naming a failing sample and the inputs to check, so the user can
-narrow the ``[uncertain]`` ranges. (The study layer, :mod:`lcoe.study`, evaluates with the
-guard on; the count of failing samples in the line is that of the chunk where it stopped.)
+the run stops with one line that counts the failing trials of the whole run and names the first
+with its sampled inputs, so the user can narrow the ``[uncertain]`` ranges (the study layer,
+:func:`lcoe.study.trials.evaluate_chunk`, checks every chunk and
+:func:`lcoe.study.trials.evaluate_runs` adds up the counts).
 """
 
 from __future__ import annotations

@@ -25,7 +25,15 @@ from ..model import ModelOutput, Site, evaluate
 from ..uncertainty.spec import UncertainSpec
 from ..uncertainty.stats import Z90, Z99
 from .design import build_design
-from .trials import CHUNK_TRIALS, StudyRun, evaluate_runs, failure_error, prepared, split_inputs
+from .trials import (
+    CHUNK_TRIALS,
+    StudyRun,
+    evaluate_runs,
+    failure_error,
+    prepared,
+    split_inputs,
+    trial_text,
+)
 
 #: Outputs collected from every trial, with their units.
 OUTPUTS = {
@@ -170,14 +178,6 @@ def weather_note(case: Case, site: Site, spec: UncertainSpec) -> str:
     return "no year-to-year weather variability given"
 
 
-def _trial_text(i: int, text: str, names, x) -> str:
-    """``trial i (inputs ...): text``, the sampled inputs cut to a short list."""
-    inputs = ", ".join(f"{k} = {v:.4g}" for k, v in zip(names, x))
-    if len(inputs) > 160:
-        inputs = inputs[:157] + "..."
-    return f"trial {i} ({inputs or 'energy factors only'}): {text}"
-
-
 def _check_finite(trials: Trials) -> None:
     for key in OUTPUTS:  # collector outputs such as an IRR may legitimately have no value
         v = trials.outputs[key]
@@ -290,7 +290,7 @@ def model_function(case: Case, site: Site, spec: UncertainSpec, output: str,
             except ImplausibleResult as exc:
                 i = start + exc.sample
                 raise InputError(f"{case.source}: sensitivity design point "
-                                 f"{_trial_text(i, exc.text, spec.names, X[i])}; narrow the "
+                                 f"{trial_text(i, exc.text, spec.names, X[i])}; narrow the "
                                  f"[uncertain] ranges (low/high) so that every point is a "
                                  f"possible plant") from None
             c = out.cashflow

@@ -26,6 +26,7 @@ from scipy.special import ndtr
 from ..case import Case
 from ..errors import InputError, collect_warnings
 from ..model import evaluate, prepare
+from ..plausibility import check_output
 from ..uncertainty.sampling import uniforms_to_values
 from ..uncertainty.spec import ENERGY_FACTOR_FLOOR, UncertainSpec
 from .design import Member, TrialDesign, chunk_bounds
@@ -187,6 +188,14 @@ def prepared(case: Case):
     return _CACHE[key]
 
 
+def trial_text(i: int, text: str, names, x) -> str:
+    """``trial i (inputs ...): text``, the sampled inputs cut to a short list."""
+    inputs = ", ".join(f"{k} = {v:.4g}" for k, v in zip(names, x))
+    if len(inputs) > 160:
+        inputs = inputs[:157] + "..."
+    return f"trial {i} ({inputs or 'energy factors only'}): {text}"
+
+
 def evaluate_chunk(task: ChunkTask) -> dict:
     """Evaluate trials [start, stop) of one run of a study.
 
@@ -200,6 +209,11 @@ def evaluate_chunk(task: ChunkTask) -> dict:
         (physics x persistent x first year's weather, no degradation) [kWh],
         ``dc_capacity_kw``, ``cell_area_m2``, ``land_area_m2``; and the collectors' outputs.
         Also ``notes``: tuple of remarks from preparing the site.
+
+        A chunk where some trial fails the plausibility checks
+        (:func:`lcoe.plausibility.check_output`) returns only ``notes`` and ``implausible``:
+        (failing trials, trials of the chunk, text of its first failing trial), so that
+        :func:`evaluate_runs` counts them over the whole run.
     """
     run = task.run
     site, notes, ratios = prepared(run.case)
@@ -210,7 +224,12 @@ def evaluate_chunk(task: ChunkTask) -> dict:
     life = int(run.case["case.lifetime_years"])
     yearly = yearly_factors(z[:, :life], run.spec.interannual_cov, ratios)
     factors = persist[:, None] * yearly
-    out = evaluate(run.case, site, params, weather_factors=factors)
+    out = evaluate(run.case, site, params, weather_factors=factors, guard=False)
+    bad, text = check_output(run.case["plant.mount"], out)
+    if bad.any():  # never dropped: the whole run's count goes into its error
+        i = int(np.argmax(bad))
+        return {"notes": notes, "implausible": (int(bad.sum()), n, trial_text(
+            task.start + i, text(i), run.spec.names, X[i]))}
     c, e = out.cashflow, out.energy
     res = {"X": X, "lcoe_real_per_kwh": c.lcoe_real, "lcoe_nominal_per_kwh": c.lcoe_nominal,
            "npv_costs": c.pv_costs, "energy_first_year_kwh": c.energy_kwh[:, 1],
@@ -291,9 +310,10 @@ def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
     per_run = len(tasks) // max(1, len(runs))
     for m, run in enumerate(runs):
         parts = results[m * per_run:(m + 1) * per_run]
-        bad = [i for i in range(m * per_run, (m + 1) * per_run) if results[i] is None]
+        bad = [i for i, p in enumerate(parts) if p is None or "implausible" in p]
         if bad:
-            failed[m] = (bad[0] - m * per_run, errors.get(bad[0], "no result"))
+            failed[m] = (bad[0], errors.get(m * per_run + bad[0], "no result")
+                         if parts[bad[0]] is None else implausible_error(parts))
             outputs.append(None)
             continue
         for note in parts[0]["notes"]:
@@ -304,6 +324,28 @@ def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
                         for k in parts[0] if k != "notes"})
     return StudyOutput(outputs=outputs, errors=failed, execution=execution, notes=notes,
                        site_notes=site_notes)
+
+
+def implausible_error(parts: Sequence) -> str:
+    """The error of a run with trials that fail the plausibility checks, counted over the run.
+
+    ``parts`` are the run's chunk results in order (None for a chunk that failed otherwise).
+    """
+    n_bad = n_checked = 0
+    first = None
+    for p in parts:
+        if p is None:
+            continue
+        if "implausible" in p:
+            n_bad, n_checked = n_bad + p["implausible"][0], n_checked + p["implausible"][1]
+            first = first or p["implausible"][2]
+        else:
+            n_checked += len(p["X"])
+    missing = sum(p is None for p in parts)
+    also = f" ({missing} chunk{'s' * (missing > 1)} of trials failed otherwise)" if missing else ""
+    return (f"{n_bad} of {n_checked} trials fail the plausibility check{also}; the first, "
+            f"{first}; no trial is dropped: narrow the [uncertain] ranges (low/high) so that "
+            f"every trial is a possible plant")
 
 
 def failure_error(out: StudyOutput, runs: Sequence[StudyRun]) -> InputError | None:
