@@ -318,9 +318,11 @@ def print_setup(ws) -> None:
         return
     ws.print_area = ws.dimensions
     title_row = None
-    for (cell,) in ws.iter_rows(min_col=1, max_col=1, max_row=min(ws.max_row, 200)):
-        if isinstance(cell.value, str) and cell.value.strip() in ("Year", "Year t"):
-            title_row = cell.row
+    for row in range(1, min(ws.max_row, 200) + 1):
+        value = ws._cells.get((row, 1))  # looked up without creating empty cells
+        value = None if value is None else value.value
+        if isinstance(value, str) and value.strip() in ("Year", "Year t"):
+            title_row = row
             break
     if title_row is not None:
         ws.print_title_rows = f"{title_row}:{title_row}"
