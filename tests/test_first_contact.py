@@ -33,8 +33,9 @@ def test_light_commands_import_no_scientific_library(tmp_path, argv):
     assert "HEAVY []" in r.stdout, r.stdout + r.stderr
 
 
-def test_version_is_printed():
-    r = subprocess.run([sys.executable, "-m", "lcoe.cli", "--version"], capture_output=True,
+@pytest.mark.parametrize("module", ["lcoe.cli", "lcoe"])
+def test_version_is_printed(module):
+    r = subprocess.run([sys.executable, "-m", module, "--version"], capture_output=True,
                        text=True, cwd=ROOT)
     from lcoe import __version__
 

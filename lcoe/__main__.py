@@ -1,0 +1,7 @@
+"""``python -m lcoe``: the command line, the same as the ``lcoe`` command."""
+
+import sys
+
+from .cli import main
+
+sys.exit(main())
