@@ -308,7 +308,8 @@ def _hourly_components(f: FacetIrradiance, day: np.ndarray, albedo: np.ndarray) 
 
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
              aoi_model: str = "physical", chunk_size: int = 16, keep_hourly: bool = False,
-             parasitic_kw=None, parasitic_hours=None, soiling=None) -> EnergyResult:
+             parasitic_kw=None, parasitic_hours=None, soiling=None,
+             method: str = "factored") -> EnergyResult:
     """Hourly energy for every sample, reduced to totals.
 
     Parameters
@@ -343,6 +344,12 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     soiling : tuple (history, coef, cap), optional
         Front soiling loss ``min(coef x history, cap)`` (:mod:`lcoe.soiling`): history (n_h,),
         coef and cap scalar or (n_s,). None: no soiling step.
+    method : {"factored", "hourly"}
+        ``"factored"`` (default): the exact factored sums of :mod:`lcoe.factored` (same model,
+        summed in another order; a DC model of its own and ``keep_hourly`` always go hour by
+        hour). ``"hourly"``: every sample and daylight hour evaluated directly, in chunks of
+        ``chunk_size`` samples: the reference implementation the factored sums are tested
+        against.
 
     Returns
     -------
@@ -359,6 +366,8 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     except soiling. The plane-of-array irradiation reported is the area-weighted front mean
     after shading.
     """
+    if method not in ("factored", "hourly"):
+        raise ValueError(f"method = {method!r}: expected 'factored' or 'hourly'")
     params = {**MONOFACIAL, **params}
     missing = [k for k in ENERGY_PARAMS if k not in params]
     if missing:
@@ -410,14 +419,22 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     starts = np.concatenate(([0], np.nonzero(np.diff(ym))[0] + 1))
     seg_month, seg_year = month_onehot[day][starts], year_onehot[day][starts]
 
-    annual = np.empty(n_s)
-    monthly = np.empty((n_s, 12))
-    yearly = np.empty((n_s, year_onehot.shape[1]))
-    poa_kwh_m2 = np.empty(n_s)
-    chain = {k: np.empty(n_s) for k, _ in LOSS_CHAIN}
+    n_seg = starts.size
+    raw = {k: np.zeros(n_s) for k in ("poa_w_m2", "eff_w_m2", "pdc_kw", "unclipped_kw",
+                                      "clipped_kw")}
+    raw["seg_clipped_kw"] = np.empty((n_s, n_seg))
+    raw["soiled_w_m2"] = None if soil_hist is None else np.empty(n_s)
     hourly = np.zeros((n_s, weather.n_hours)) if keep_hourly else None
     extra = {k: np.zeros((n_s, weather.n_hours)) for k in HOURLY_FIELDS} if keep_hourly else None
-    for start in range(0, n_s, chunk_size):
+    factored = method == "factored" and not own_dc and not keep_hourly
+    if factored:
+        from .factored import factored_sums
+
+        seg_of_hour = np.repeat(np.arange(n_seg), np.diff(np.append(starts, day.size)))
+        raw.update(factored_sums(st, share, t_air, ws, cols, None if soil_hist is None else
+                                 (soil_hist, soil_coef, soil_cap), seg_of_hour, n_seg))
+        raw["poa_w_m2"] = tot["shaded_n"] + cols["site.albedo"][:, 0] * tot["shaded_g"]
+    for start in range(0, 0 if factored else n_s, chunk_size):  # the hourly method
         sl = slice(start, min(start + chunk_size, n_s))
         m = sl.stop - sl.start
         c = {k: v[sl] for k, v in cols.items()}
@@ -459,43 +476,17 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         dc_keep = 1.0 - c["plant.dc_loss_fraction"]
         ac_kw = p_stc / c["plant.dc_ac_ratio"]
         unclipped, clipped = inverter_ac_kw(pdc * dc_keep, ac_kw, c["plant.inverter_efficiency"])
-        ac_keep = (1.0 - c["plant.ac_loss_fraction"])[:, 0]
-        avail = c["plant.availability"][:, 0]
-        # Stages after clipping are scalar multiples per sample, so their totals are too.
-        s_poa = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
-        s_pdc = pdc.sum(axis=1)
-        s_clip = clipped.sum(axis=1)
-        s_par = 0.0 if parasitic is None else parasitic[sl].sum(axis=1)
+        raw["poa_w_m2"][sl] = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
         if own_dc:
-            s_eff = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
-            irr = (s_poa, s_poa, s_poa, s_eff, s_eff, s_eff)
-        else:
-            a = albedo[:, 0]
-            s_open = tot["open_n"] + a * tot["open_g"]
-            s_shaded = tot["shaded_n"] + a * tot["shaded_g"]
-            s_iam = tot["eff_n"] + a * tot["eff_g"]
-            s_soil = s_iam if soil is None else s_soiled
-            s_rear = s_soil
-            if facets.has_rear:
-                s_rear = s_soil + rear_k[:, 0] * (tot["rear_n"] + a * tot["rear_g"])
-            rows = facets.shading == "rows"
-            irr = (s_open, s_shaded if rows else s_open, s_shaded, s_iam, s_soil, s_rear)
-        kw_per_w = p_stc[:, 0] / 1000.0
-        delivered = s_clip * ac_keep * avail - s_par
-        sums = tuple(kw_per_w * x for x in irr) + (
-            s_pdc, s_pdc * dc_keep[:, 0], unclipped.sum(axis=1), s_clip, s_clip * ac_keep,
-            s_clip * ac_keep * avail, delivered, delivered)
-        for (name, _), total in zip(LOSS_CHAIN, sums):
-            chain[name][sl] = total / n_years
-        poa_kwh_m2[sl] = s_poa / 1000.0 / n_years
-        annual[sl] = chain["delivered_kwh"][sl]
-        factor = (ac_keep * avail)[:, None]
-        seg = np.add.reduceat(clipped, starts, axis=1) * factor
-        if parasitic is not None:
-            seg -= np.add.reduceat(parasitic[sl], starts, axis=1)
-        monthly[sl] = seg @ seg_month / n_years
-        yearly[sl] = seg @ seg_year
+            raw["eff_w_m2"][sl] = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
+        raw["pdc_kw"][sl] = pdc.sum(axis=1)
+        raw["unclipped_kw"][sl] = unclipped.sum(axis=1)
+        raw["clipped_kw"][sl] = clipped.sum(axis=1)
+        raw["seg_clipped_kw"][sl] = np.add.reduceat(clipped, starts, axis=1)
+        if soil is not None:
+            raw["soiled_w_m2"][sl] = s_soiled
         if keep_hourly:
+            factor = ((1.0 - c["plant.ac_loss_fraction"]) * c["plant.availability"])
             hourly[sl, day] = clipped * factor - (0.0 if parasitic is None else parasitic[sl])
             rows_h = {} if own_dc else _hourly_components(facets, day, albedo)
             rows_h.update({
@@ -507,7 +498,39 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
                 rows_h["poa_front_direct_w_m2"] = g_poa
             for k, v in rows_h.items():
                 extra[k][sl, day] = np.broadcast_to(v, (m, day.size))
-    return EnergyResult(annual_kwh=annual, monthly_kwh=monthly, yearly_kwh=yearly,
-                        loss_chain_kwh=chain, poa_kwh_m2=poa_kwh_m2,
+    # Stages after clipping are scalar multiples per sample, so their totals are too.
+    ac_keep = 1.0 - cols["plant.ac_loss_fraction"][:, 0]
+    avail = cols["plant.availability"][:, 0]
+    dc_keep = 1.0 - cols["plant.dc_loss_fraction"][:, 0]
+    s_poa, s_pdc, s_clip = raw["poa_w_m2"], raw["pdc_kw"], raw["clipped_kw"]
+    s_par = 0.0 if parasitic is None else parasitic.sum(axis=1)
+    if own_dc:
+        irr = (s_poa, s_poa, s_poa, raw["eff_w_m2"], raw["eff_w_m2"], raw["eff_w_m2"])
+    else:
+        a = cols["site.albedo"][:, 0]
+        rear_k = (cols["plant.bifaciality"] * (1.0 - cols["plant.rear_loss_fraction"]))[:, 0]
+        s_open = tot["open_n"] + a * tot["open_g"]
+        s_shaded = tot["shaded_n"] + a * tot["shaded_g"]
+        s_iam = tot["eff_n"] + a * tot["eff_g"]
+        s_soil = s_iam if soil_hist is None else raw["soiled_w_m2"]
+        s_rear = s_soil
+        if facets.has_rear:
+            s_rear = s_soil + rear_k * (tot["rear_n"] + a * tot["rear_g"])
+        rows = facets.shading == "rows"
+        irr = (s_open, s_shaded if rows else s_open, s_shaded, s_iam, s_soil, s_rear)
+    kw_per_w = cols["plant.dc_capacity_kw"][:, 0] / 1000.0
+    delivered = s_clip * ac_keep * avail - s_par
+    sums = tuple(kw_per_w * x for x in irr) + (
+        s_pdc, s_pdc * dc_keep, raw["unclipped_kw"], s_clip, s_clip * ac_keep,
+        s_clip * ac_keep * avail, delivered, delivered)
+    chain = {name: total / n_years for (name, _), total in zip(LOSS_CHAIN, sums)}
+    poa_kwh_m2 = s_poa / 1000.0 / n_years
+    seg = raw["seg_clipped_kw"] * (ac_keep * avail)[:, None]
+    if parasitic is not None:
+        seg -= np.add.reduceat(parasitic, starts, axis=1)
+    monthly = seg @ seg_month / n_years
+    yearly = seg @ seg_year
+    return EnergyResult(annual_kwh=chain["delivered_kwh"], monthly_kwh=monthly,
+                        yearly_kwh=yearly, loss_chain_kwh=chain, poa_kwh_m2=poa_kwh_m2,
                         dc_capacity_kw=cols["plant.dc_capacity_kw"][:, 0], hourly_ac_kw=hourly,
                         hourly=extra)

@@ -51,6 +51,7 @@ import numpy as np
 from scipy.stats import norm, rankdata
 
 from ..rng import make_rng
+from ..threads import one_blas_thread as _one_blas_thread
 
 #: Equal segments of the cubic P-spline on (0, 1) (23 basis functions).
 N_SEGMENTS = 20
@@ -251,22 +252,6 @@ def spline_basis(u: np.ndarray, n_segments: int = N_SEGMENTS
     vals = np.column_stack([(1 - t) ** 3, 3 * t3 - 6 * t2 + 4, -3 * t3 + 3 * t2 + 3 * t + 1,
                             t3]) / 6.0
     return s[:, None] + np.arange(4), vals
-
-
-def _one_blas_thread():
-    """Context that runs BLAS/LAPACK on one thread (restored on exit).
-
-    The fits solve many small systems; threaded LAPACK on such sizes was 10-40x slower on a
-    loaded 2-core machine (measured: 100 systems of size 121 in 1.5 s threaded, 0.15 s on one
-    thread). Without threadpoolctl it does nothing.
-    """
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:  # pragma: no cover - optional speed-up
-        from contextlib import nullcontext
-
-        return nullcontext()
-    return threadpool_limits(1)
 
 
 def _difference_penalty(p: int) -> np.ndarray:
