@@ -346,10 +346,10 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         coef and cap scalar or (n_s,). None: no soiling step.
     method : {"factored", "hourly"}
         ``"factored"`` (default): the exact factored sums of :mod:`lcoe.factored` (same model,
-        summed in another order; a DC model of its own and ``keep_hourly`` always go hour by
-        hour). ``"hourly"``: every sample and daylight hour evaluated directly, in chunks of
-        ``chunk_size`` samples: the reference implementation the factored sums are tested
-        against.
+        summed in another order; a DC model of its own goes hour by hour; ``keep_hourly``
+        adds the hourly arrays, the totals stay factored). ``"hourly"``: every sample and
+        daylight hour evaluated directly, in chunks of ``chunk_size`` samples: the reference
+        implementation the factored sums are tested against.
 
     Returns
     -------
@@ -426,7 +426,7 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     raw["soiled_w_m2"] = None if soil_hist is None else np.empty(n_s)
     hourly = np.zeros((n_s, weather.n_hours)) if keep_hourly else None
     extra = {k: np.zeros((n_s, weather.n_hours)) for k in HOURLY_FIELDS} if keep_hourly else None
-    factored = method == "factored" and not own_dc and not keep_hourly
+    factored = method == "factored" and not own_dc
     if factored:
         from .factored import factored_sums
 
@@ -434,7 +434,8 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         raw.update(factored_sums(st, share, t_air, ws, cols, None if soil_hist is None else
                                  (soil_hist, soil_coef, soil_cap), seg_of_hour, n_seg))
         raw["poa_w_m2"] = tot["shaded_n"] + cols["site.albedo"][:, 0] * tot["shaded_g"]
-    for start in range(0, 0 if factored else n_s, chunk_size):  # the hourly method
+    # The hourly method; with keep_hourly also for the hourly arrays (totals stay factored).
+    for start in range(0, 0 if factored and not keep_hourly else n_s, chunk_size):
         sl = slice(start, min(start + chunk_size, n_s))
         m = sl.stop - sl.start
         c = {k: v[sl] for k, v in cols.items()}
@@ -476,15 +477,16 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         dc_keep = 1.0 - c["plant.dc_loss_fraction"]
         ac_kw = p_stc / c["plant.dc_ac_ratio"]
         unclipped, clipped = inverter_ac_kw(pdc * dc_keep, ac_kw, c["plant.inverter_efficiency"])
-        raw["poa_w_m2"][sl] = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
-        if own_dc:
-            raw["eff_w_m2"][sl] = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
-        raw["pdc_kw"][sl] = pdc.sum(axis=1)
-        raw["unclipped_kw"][sl] = unclipped.sum(axis=1)
-        raw["clipped_kw"][sl] = clipped.sum(axis=1)
-        raw["seg_clipped_kw"][sl] = np.add.reduceat(clipped, starts, axis=1)
-        if soil is not None:
-            raw["soiled_w_m2"][sl] = s_soiled
+        if not factored:
+            raw["poa_w_m2"][sl] = np.broadcast_to(g_poa, (m, day.size)).sum(axis=1)
+            if own_dc:
+                raw["eff_w_m2"][sl] = np.broadcast_to(g_eff, (m, day.size)).sum(axis=1)
+            raw["pdc_kw"][sl] = pdc.sum(axis=1)
+            raw["unclipped_kw"][sl] = unclipped.sum(axis=1)
+            raw["clipped_kw"][sl] = clipped.sum(axis=1)
+            raw["seg_clipped_kw"][sl] = np.add.reduceat(clipped, starts, axis=1)
+            if soil is not None:
+                raw["soiled_w_m2"][sl] = s_soiled
         if keep_hourly:
             factor = ((1.0 - c["plant.ac_loss_fraction"]) * c["plant.availability"])
             hourly[sl, day] = clipped * factor - (0.0 if parasitic is None else parasitic[sl])

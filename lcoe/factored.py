@@ -58,7 +58,7 @@ MARGIN = 1e-9
 SUB_CHUNK = 128
 #: Hours whose effective light without albedo reaches this are summed (the rest, dawn and
 #: dusk, are evaluated per sample unless certainly below the inverter's start) [W/m2].
-BASE_LIGHT_W_M2 = 20.0
+BASE_LIGHT_W_M2 = 5.0
 
 
 def _imul(a_lo, a_hi, b_lo, b_hi):
