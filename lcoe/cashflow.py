@@ -143,45 +143,51 @@ def build_cashflow(params: dict, replacements: Sequence, lifetime_years: int,
     n = lifetime_years
 
     def p(key):
-        return np.broadcast_to(np.asarray(params[key], dtype=float), (n_s,))[:, None]
+        return np.broadcast_to(np.asarray(params[key], dtype=float), (n_s,))
 
-    t = np.arange(n + 1)[None, :]
+    t = np.arange(n + 1)
     infl = p("finance.inflation")
-    esc = (1.0 + infl) ** t  # year-0 money -> year-t money
+    esc = (1.0 + infl[:, None]) ** t[None, :]  # year-0 money -> year-t money
     kw = p("plant.dc_capacity_kw")
-    operating = (t >= 1).astype(float)
-    last = (t == n).astype(float)
-    lines = {
-        "capex": p("costs.capex_per_kw") * kw * (t == 0),
-        "fixed_om": p("costs.fixed_om_per_kw_year") * kw * esc * operating,
-        "variable_om": p("costs.variable_om_per_kwh") * energy_kwh * esc,
-        "insurance": p("costs.insurance_fraction_per_year") * p("costs.capex_per_kw") * kw *
-        esc * operating,
-        "land_lease": p("costs.land_lease_per_year") * esc * operating,
-        "replacements": np.zeros((n_s, n + 1)),
-        "decommissioning": p("costs.decommissioning_per_kw") * kw * esc * last,
-        "salvage": -p("costs.salvage_per_kw") * kw * esc * last,
-    }
+    capex = p("costs.capex_per_kw") * kw
+    operating, last = (t >= 1).astype(float), (t == n).astype(float)
+    # Each line = (its year-0 amount per sample) x (its years) x escalation: the amounts
+    # (n_s, k) times the schedule of years (k, N + 1) is one matrix product over the lines.
+    amounts = {"capex": (capex, t == 0), "fixed_om": (p("costs.fixed_om_per_kw_year") * kw,
+                                                      operating),
+               "insurance": (p("costs.insurance_fraction_per_year") * capex, operating),
+               "land_lease": (p("costs.land_lease_per_year"), operating),
+               "decommissioning": (p("costs.decommissioning_per_kw") * kw, last),
+               "salvage": (-p("costs.salvage_per_kw") * kw, last)}
+    reps = []
     for i, r in enumerate(replacements):
         key = f"costs.replacement[{i}].cost_per_kw"
-        cost = p(key) if key in params else np.full((n_s, 1), r.cost_per_kw)
-        when = ((t % r.every_years == 0) & (t > 0) & (t < n)).astype(float)
-        lines["replacements"] = lines["replacements"] + cost * kw * esc * when
+        cost = p(key) if key in params else np.full(n_s, r.cost_per_kw)
+        reps.append((cost * kw, ((t % r.every_years == 0) & (t > 0) & (t < n)).astype(float)))
+    names = list(amounts)
+    coef = np.stack([amounts[k][0] for k in names] + [c for c, _ in reps], axis=1)
+    years = np.stack([np.asarray(amounts[k][1], dtype=float) for k in names] +
+                     [w for _, w in reps])
+    lines = {k: coef[:, j, None] * years[j] * esc for j, k in enumerate(names)}
+    lines["replacements"] = (coef[:, len(names):] @ years[len(names):]) * esc
+    lines["variable_om"] = p("costs.variable_om_per_kwh")[:, None] * energy_kwh * esc
     for name, line in (extra_cost_lines or {}).items():
         lines[name] = np.broadcast_to(line, (n_s, n + 1)).astype(float)
-    lines = {k: np.broadcast_to(v, (n_s, n + 1)).astype(float) for k, v in lines.items()}
-    total = sum(lines.values())
-    r_nom = p("finance.discount_rate")[:, 0]
-    r_real = real_rate(r_nom, infl[:, 0])
+    lines = {k: lines[k] for k in COST_LINES + tuple(extra_cost_lines or ())}
+    total = (coef @ years) * esc + lines["variable_om"]
+    for name in extra_cost_lines or ():
+        total = total + lines[name]
+    r_nom = p("finance.discount_rate")
+    r_real = real_rate(r_nom, infl)
     df_nom = discount_factors(r_nom, n)
     df_real = discount_factors(r_real, n)
-    pv_costs = (total * df_nom).sum(axis=1)
-    pv_e_real = (energy_kwh * df_real).sum(axis=1)
-    pv_e_nom = (energy_kwh * df_nom).sum(axis=1)
+    pv_costs = np.einsum("sy,sy->s", total, df_nom)
+    pv_e_real = np.einsum("sy,sy->s", energy_kwh, df_real)
+    pv_e_nom = np.einsum("sy,sy->s", energy_kwh, df_nom)
     with np.errstate(divide="ignore", invalid="ignore"):
         lcoe_real = pv_costs / pv_e_real
         lcoe_nom = pv_costs / pv_e_nom
     return CashFlow(years=np.arange(n + 1), lines=lines, total_cost=total,
                     energy_kwh=energy_kwh, nominal_rate=r_nom, real_rate=r_real,
-                    inflation=infl[:, 0], pv_costs=pv_costs, pv_energy_real_kwh=pv_e_real,
+                    inflation=np.array(infl), pv_costs=pv_costs, pv_energy_real_kwh=pv_e_real,
                     pv_energy_nominal_kwh=pv_e_nom, lcoe_real=lcoe_real, lcoe_nominal=lcoe_nom)
