@@ -242,6 +242,8 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
         segment, ``soiled_w_m2`` sum of the front effective light after soiling weighted by
         facet (n_s,) or None without soiling [W/m2 h].
     """
+    from .model import distinct_rows
+
     n_s = cols["site.albedo"].shape[0]
     col = {k: v[:, 0] for k, v in cols.items()}
     smp = {"a": col["site.albedo"], "g": col["plant.temp_coeff_per_c"],
@@ -254,8 +256,7 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     if "rear_n" not in st:
         rear_k = np.zeros(n_s)
     keys = [rear_k] + ([] if soil is None else [soil[1][:, 0], soil[2][:, 0]])
-    uniq, inverse = np.unique(np.stack(keys, axis=1), axis=0, return_inverse=True)
-    inverse = inverse.reshape(-1)
+    uniq, inverse = distinct_rows(np.stack(keys, axis=1))
     wind_values, wind_class = np.unique(wind, return_inverse=True)
     site = {"wind": wind, "wind_values": wind_values, "wind_class": wind_class.reshape(-1),
             "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}

@@ -258,11 +258,11 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
         key = np.stack([np.broadcast_to(v, idx.shape) for v in sub.values()] +
                        ([] if parasitic_kw is None else [parasitic_kw]) +
                        ([] if soiling is None else list(soiling[1:])), axis=1)
-        uniq, first, rows = np.unique(key, axis=0, return_index=True, return_inverse=True)
-        rows = rows.reshape(-1)
+        uniq, rows = distinct_rows(key, any_repeat=True)
         if uniq.shape[0] == idx.size:
             rows = None
         else:
+            first = np.unique(rows, return_index=True)[1]
             sub = {k: v[first] for k, v in sub.items()}
             parasitic_kw = None if parasitic_kw is None else parasitic_kw[first]
             soiling = None if soiling is None else (soiling[0], soiling[1][first],
@@ -274,6 +274,23 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     if rows is not None:
         energy = _take(energy, rows)
     return replace(energy, cell_area_m2=cell_area, land_area_m2=land, n_bodies=n_bodies)
+
+
+def distinct_rows(keys: np.ndarray, any_repeat: bool = False):
+    """Distinct rows of ``keys`` (n, k) and the index of each row's distinct row (n,).
+
+    Shortcuts the sort of ``np.unique(axis=0)`` in the common cases: every column constant
+    (one row), or, with ``any_repeat``, some column without repeated values (no two rows
+    alike: the rows themselves, in order).
+    """
+    n = keys.shape[0]
+    varying = [j for j in range(keys.shape[1]) if np.any(keys[:, j] != keys[0, j])]
+    if not varying:
+        return keys[:1], np.zeros(n, dtype=np.intp)
+    if any_repeat and any(np.unique(keys[:, j]).size == n for j in varying):
+        return keys, np.arange(n)
+    uniq, inverse = np.unique(keys, axis=0, return_inverse=True)
+    return uniq, inverse.reshape(-1)
 
 
 def _take(energy: EnergyResult, rows: np.ndarray) -> EnergyResult:
@@ -364,9 +381,7 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     for path in gpaths:
         if path not in full:
             full[path] = np.full(n_s, float(case[path]))
-    geo_keys = np.stack([full[p] for p in gpaths], axis=1)
-    uniq, inverse = np.unique(geo_keys, axis=0, return_inverse=True)
-    inverse = inverse.reshape(-1)
+    uniq, inverse = distinct_rows(np.stack([full[p] for p in gpaths], axis=1))
     parts = []
     for g in range(uniq.shape[0]):
         idx = np.nonzero(inverse == g)[0]

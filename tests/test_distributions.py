@@ -266,3 +266,11 @@ def test_normal_quantiles_match_scipy(spec):
                               loc=spec["mean"], scale=spec["sd"]).ppf(U_WIDE)
     inner = (U_WIDE > 0) & (U_WIDE < 1)
     np.testing.assert_allclose(d.ppf(U_WIDE)[inner], ref[inner], rtol=1e-10, atol=1e-300)
+
+
+@pytest.mark.parametrize("mode", [950.0, 1050.0, 1250.0])
+def test_triangular_closed_form_matches_scipy(mode):
+    # cross-implementation: scipy.stats.triang
+    d = parse({"dist": "triangular", "low": 950.0, "mode": mode, "high": 1250.0})
+    ref = stats.triang((mode - 950.0) / 300.0, loc=950.0, scale=300.0).ppf(U_WIDE)
+    np.testing.assert_allclose(d.ppf(U_WIDE), ref, rtol=1e-14)

@@ -271,17 +271,22 @@ class Distribution:
     def _quantile(self, u: np.ndarray) -> np.ndarray:
         """ppf of the continuous law (of log(X) for lognormal) without scipy's per-value cost.
 
-        Uniform is ``low + u (high - low)``; normal laws go through ``ndtri`` (truncated ones
-        in the tail where the result is well conditioned, :func:`_normal_quantile`); Beta-PERT
-        inverts a cubic Hermite table of the Beta cdf (:class:`_BetaTable`). Agreement with
-        ``scipy.stats`` is checked in the tests (within 1e-12 of the range for Beta-PERT).
-        Triangular and anything unusual use the frozen scipy law.
+        Uniform is ``low + u (high - low)``, triangular its closed form; normal laws go
+        through ``ndtri`` (truncated ones in the tail where the result is well conditioned,
+        :func:`_normal_quantile`); Beta-PERT inverts a cubic Hermite table of the Beta cdf
+        (:class:`_BetaTable`). Agreement with ``scipy.stats`` is checked in the tests (within
+        1e-12 of the range for Beta-PERT). Anything else uses the frozen scipy law.
         """
         p = self.params
         if self.dist == "uniform":
             return p["low"] + u * (p["high"] - p["low"])
         if self.dist == "pert":
             return p["low"] + self._beta_table.ppf(u) * (p["high"] - p["low"])
+        if self.dist == "triangular":  # closed form, as scipy.stats.triang writes it
+            width = p["high"] - p["low"]
+            c = (p["mode"] - p["low"]) / width
+            return p["low"] + width * np.where(u < c, np.sqrt(c * u),
+                                               1.0 - np.sqrt((1.0 - c) * (1.0 - u)))
         if self.dist in ("normal", "truncnormal", "lognormal"):
             loc, scale, low, high = _normal_terms(self.dist, p, self.low, self.high)
             z = _normal_quantile(u, (low - loc) / scale, (high - loc) / scale)
