@@ -21,6 +21,7 @@ AC chain follows for the whole plant.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -306,6 +307,62 @@ def _hourly_components(f: FacetIrradiance, day: np.ndarray, albedo: np.ndarray) 
     }
 
 
+#: Per plane of array (weakly held) and weather: the hours the model evaluates and what
+#: follows from them alone (:func:`_hours`); also the factored sums' groups.
+_HOURS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _hours(facets: FacetIrradiance | None, weather: Weather, run_hours, poa_holder) -> dict:
+    """The daylight hours of a plane of array at a site and what depends on them only.
+
+    Hours without light on any facet (and no parasitic load) deliver nothing: the model holds
+    only the other hours (every hour for a technology with its own DC model, ``facets`` None).
+    Monthly and yearly totals sum each run of consecutive hours of one (year, month) with
+    reduceat, then fold the few runs into months and years (``seg_month``, ``seg_year``).
+    Computed once per plane (``poa_holder`` holds it for a DC model of its own), weather and
+    load hours, then reused.
+    """
+    holder = facets if facets is not None else poa_holder
+    key = (id(weather), None if run_hours is None else hash(run_hours.tobytes()))
+    store = _HOURS.setdefault(holder, {})
+    hit = store.get(key)
+    if hit is not None and hit["weather"] is weather:
+        return hit
+    t_air = weather.data["temp_air"].to_numpy()
+    ws = weather.data["wind_speed"].to_numpy()
+    months = weather.data.index.month.to_numpy() - 1
+    years = weather.years
+    out = {"weather": weather, "groups": {}}
+    if facets is None:
+        day = np.arange(weather.n_hours)
+    else:
+        st = _facet_stages(facets)
+        busy = (st["open_n"] + st["open_g"] > 0).any(axis=0)
+        if facets.has_rear:
+            busy |= (st["rear_n"] + st["rear_g"] > 0).any(axis=0)
+        if run_hours is not None:
+            busy |= run_hours
+        day = np.nonzero(busy)[0] if busy.any() else np.arange(1)  # keep one (dark) hour
+        st = {k: v[:, day] for k, v in st.items()}
+        out["st"] = st
+        # Totals over the hours of each stage, per facet (k,), weighted by the facet shares.
+        out["tot"] = {k: facets.area_fraction @ v.sum(axis=1) for k, v in st.items()}
+    ym = years[day] * 12 + months[day]
+    starts = np.concatenate(([0], np.nonzero(np.diff(ym))[0] + 1))
+    month_onehot = np.zeros((day.size, 12))
+    month_onehot[np.arange(day.size), months[day]] = 1.0
+    if weather.typical_year:
+        year_onehot = np.ones((day.size, 1))
+    else:
+        year_onehot = (years[day][:, None] == np.unique(years)[None, :]).astype(float)
+    out.update(day=day, t_air=t_air[day], ws=ws[day], starts=starts,
+               seg_month=month_onehot[starts], seg_year=year_onehot[starts])
+    if len(store) > 8:
+        store.clear()
+    store[key] = out
+    return out
+
+
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
              aoi_model: str = "physical", chunk_size: int = 16, keep_hourly: bool = False,
              parasitic_kw=None, parasitic_hours=None, soiling=None,
@@ -374,38 +431,16 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         raise ValueError(f"missing energy parameters: {', '.join(missing)}")
     n_s = max(np.asarray(params[k]).size for k in ENERGY_PARAMS)
     cols = {k: _column(v, n_s) for k, v in params.items()}
-    t_air = weather.data["temp_air"].to_numpy()
-    ws = weather.data["wind_speed"].to_numpy()
-    months = weather.data.index.month.to_numpy() - 1
-    years = weather.years
-    year_values = np.unique(years)
-    n_years = weather.n_years
-    month_onehot = np.zeros((weather.n_hours, 12))
-    month_onehot[np.arange(weather.n_hours), months] = 1.0
-    year_onehot = (years[:, None] == year_values[None, :]).astype(float)
-    if weather.typical_year:
-        year_onehot = np.ones((weather.n_hours, 1))
     own_dc = not isinstance(poa, (PlaneOfArray, FacetIrradiance))
     run_hours = None if parasitic_kw is None else np.asarray(parasitic_hours, dtype=bool)
     facets = None
-    if own_dc:  # its DC model works on every hour of the year
-        day = np.arange(weather.n_hours)
-    else:
+    if not own_dc:
         facets = poa if isinstance(poa, FacetIrradiance) else as_facets(poa, aoi_model)
-        st = _facet_stages(facets)
-        share = facets.area_fraction
-        # Hours without light on any facet (and no parasitic load) deliver nothing: the hourly
-        # arrays hold only the other hours.
-        busy = (st["open_n"] + st["open_g"] > 0).any(axis=0)
-        if facets.has_rear:
-            busy |= (st["rear_n"] + st["rear_g"] > 0).any(axis=0)
-        if run_hours is not None:
-            busy |= run_hours
-        day = np.nonzero(busy)[0] if busy.any() else np.arange(1)  # keep one (dark) hour
-        st = {k: v[:, day] for k, v in st.items()}
-        # Totals over the hours of each stage, per facet (k,), weighted by the facet shares.
-        tot = {k: share @ v.sum(axis=1) for k, v in st.items()}
-        t_air, ws = t_air[day], ws[day]
+    prep = _hours(facets, weather, run_hours, poa)
+    day, t_air, ws, starts = prep["day"], prep["t_air"], prep["ws"], prep["starts"]
+    seg_month, seg_year, n_years = prep["seg_month"], prep["seg_year"], weather.n_years
+    if not own_dc:
+        st, tot, share = prep["st"], prep["tot"], facets.area_fraction
     parasitic = None
     if parasitic_kw is not None:
         parasitic = _column(parasitic_kw, n_s) * run_hours[day].astype(float)
@@ -413,11 +448,6 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     if soiling is not None and not own_dc:
         soil_hist = np.asarray(soiling[0], dtype=float)[day]
         soil_coef, soil_cap = _column(soiling[1], n_s), _column(soiling[2], n_s)
-    # Monthly and yearly totals: sum each run of consecutive hours of one (year, month) with
-    # reduceat, then fold the few runs into months and years (cheaper than an hourly matmul).
-    ym = years[day] * 12 + months[day]
-    starts = np.concatenate(([0], np.nonzero(np.diff(ym))[0] + 1))
-    seg_month, seg_year = month_onehot[day][starts], year_onehot[day][starts]
 
     n_seg = starts.size
     raw = {k: np.zeros(n_s) for k in ("poa_w_m2", "eff_w_m2", "pdc_kw", "unclipped_kw",
@@ -432,7 +462,8 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
 
         seg_of_hour = np.repeat(np.arange(n_seg), np.diff(np.append(starts, day.size)))
         raw.update(factored_sums(st, share, t_air, ws, cols, None if soil_hist is None else
-                                 (soil_hist, soil_coef, soil_cap), seg_of_hour, n_seg))
+                                 (soil_hist, soil_coef, soil_cap), seg_of_hour, n_seg,
+                                 prep["groups"]))
         raw["poa_w_m2"] = tot["shaded_n"] + cols["site.albedo"][:, 0] * tot["shaded_g"]
     # The hourly method; with keep_hourly also for the hourly arrays (totals stay factored).
     for start in range(0, 0 if factored and not keep_hourly else n_s, chunk_size):

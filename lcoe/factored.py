@@ -44,6 +44,14 @@ import numpy as np
 
 from .threads import one_blas_thread
 
+#: The per-sample inputs these sums handle: :data:`lcoe.energy.ENERGY_PARAMS` must equal this
+#: set (a new one enters the hourly method, here, and ``tests/test_factored.py``).
+PARAMS = frozenset({
+    "site.albedo", "plant.dc_capacity_kw", "plant.dc_ac_ratio", "plant.temp_coeff_per_c",
+    "plant.thermal_u0", "plant.thermal_u1", "plant.dc_loss_fraction",
+    "plant.inverter_efficiency", "plant.ac_loss_fraction", "plant.availability",
+    "plant.bifaciality", "plant.rear_loss_fraction"})
+
 #: Part-load polynomial of the inverter (Dobos 2014) in z = P_dc / P_dc0, and its reference.
 _C1, _C2, _C0 = 0.9858, 0.0162, 0.0059
 ETA_INV_REF = 0.9637
@@ -106,6 +114,7 @@ class _Group:
         vv = (v0 * v0, 2.0 * v0 * v1, v1 * v1 + 2.0 * v0 * v2, 2.0 * v1 * v2, v2 * v2)
         self.glob = (np.stack([ua, ub, ua * tp, ub * tp]),
                      np.stack([u * t for u in u2 for t in (1.0, 2.0 * tp, tp * tp)]))
+        self.wind_class = wind_class
         cell = seg * n_class + wind_class
         self.order = np.argsort(cell, kind="stable")
         cs = cell[self.order]
@@ -144,18 +153,23 @@ class _Group:
 
 def _features(a, g, w):
     """Per-sample monomials of sum q (moment 1) and sum q^2 (moment 2), scaled to W/m2."""
-    one = np.ones_like(a)
-    ap = [one, a, a * a, a ** 3, a ** 4]
+    n_t, nc = w.shape
+    ap = [np.ones_like(a), a, a * a, a ** 3, a ** 4]
+    gp = [ap[0], g, g * g]
     gw = g[:, None] * w
-    f1 = np.concatenate([np.stack([one, a, g, a * g], axis=1)] +
-                        [gw * ap[i][:, None] for i in range(3)], axis=1) / 1000.0
-    gp = [one, g, g * g]
-    g2w = 2.0 * gw
-    g2w2 = gw * gw
-    f2 = np.concatenate([np.stack([ap[i] * gp[j] for i in range(3) for j in range(3)], axis=1)]
-                        + [g2w * ap[i][:, None] for i in range(4)]
-                        + [g2w * (g * ap[i])[:, None] for i in range(4)]
-                        + [g2w2 * ap[i][:, None] for i in range(5)], axis=1) / 1e6
+    f1 = np.empty((n_t, 4 + 3 * nc))
+    f1[:, :4] = np.stack([ap[0], a, g, a * g], axis=1)
+    for i in range(3):
+        np.multiply(gw, ap[i][:, None], out=f1[:, 4 + i * nc:4 + (i + 1) * nc])
+    f1 /= 1000.0
+    f2 = np.empty((n_t, 9 + 13 * nc))
+    f2[:, :9] = np.stack([ap[i] * gp[j] for i in range(3) for j in range(3)], axis=1)
+    g2w, g2w2 = 2.0 * gw, gw * gw
+    blocks = ([(g2w, ap[i]) for i in range(4)] + [(g2w, g * ap[i]) for i in range(4)] +
+              [(g2w2, ap[i]) for i in range(5)])
+    for b, (left, right) in enumerate(blocks):
+        np.multiply(left, right[:, None], out=f2[:, 9 + b * nc:9 + (b + 1) * nc])
+    f2 /= 1e6
     return f1, f2
 
 
@@ -196,26 +210,42 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h):
         _C0 * grp.n_base[None, :]
     before, after = poly.copy(), poly
     h = np.nonzero(cand)[0]
-    if h.size:
-        w = 1.0 / (u0[:, None] + u1[:, None] * wind_h[None, h])
-        q = (grp.ua[h] + a[:, None] * grp.ub[h]) * (1.0 + g[:, None] * tp[h])
-        q += g[:, None] * w * (grp.v0[h] + a[:, None] * (grp.v1[h] + a[:, None] * grp.v2[h]))
-        z = beta[:, None] * q / 1000.0
-        p = z * (_C1 - _C2 * z) - _C0
+    if h.size:  # per sample and hour, in place: z = beta q / 1000 and p(z)
+        a_, g_ = a[:, None], g[:, None]
+        q = grp.v2[h] * a_
+        q += grp.v1[h]
+        q *= a_
+        q += grp.v0[h]
+        q *= w_cls[:, grp.wind_class[h]]
+        q *= g_
+        u = grp.ub[h] * a_
+        u += grp.ua[h]
+        c = tp[h] * g_
+        c += 1.0
+        u *= c
+        q += u
+        q *= (beta / 1000.0)[:, None]
+        p = q * -_C2
+        p += _C1
+        p *= q
+        p -= _C0
         summed = np.where(grp.base[h], p, 0.0)
-        p_on = np.maximum(p, 0.0)
+        np.maximum(p, 0.0, out=p)
         # partial sums in hour order at each segment's first hour, then differences
-        cut = np.searchsorted(h, grp.seg_starts)
-        for out, value in ((before, p_on), (after, np.minimum(p_on, ETA_INV_REF))):
-            run = np.zeros((a.size, h.size + 1))
-            np.cumsum(value - summed, axis=1, out=run[:, 1:])
-            edges = run[:, np.append(cut, h.size)]
+        cut = np.append(np.searchsorted(h, grp.seg_starts), h.size)
+        run = np.zeros((a.size, h.size + 1))
+        for out, clip in ((before, False), (after, True)):
+            if clip:
+                np.minimum(p, ETA_INV_REF, out=p)
+            np.subtract(p, summed, out=c)
+            np.cumsum(c, axis=1, out=run[:, 1:])
+            edges = run[:, cut]
             out += edges[:, 1:] - edges[:, :-1]
     return total_q, before, after
 
 
 def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarray, cols: dict,
-                  soil, seg: np.ndarray, n_seg: int) -> dict:
+                  soil, seg: np.ndarray, n_seg: int, groups: dict | None = None) -> dict:
     """Totals of the hourly chain for every sample, without an hourly array per sample.
 
     Parameters
@@ -233,6 +263,9 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     seg : numpy.ndarray of int
         Segment (run of one year and month) of each hour, (n_h,).
     n_seg : int
+    groups : dict, optional
+        Cache of the groups' hourly series for these hours (kept by the caller per plane of
+        array and weather).
 
     Returns
     -------
@@ -263,23 +296,30 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
            "clipped_kw": np.empty(n_s), "seg_clipped_kw": np.empty((n_s, n_seg)),
            "soiled_w_m2": None if soil is None else np.empty(n_s)}
+    history = None if soil is None else hash(np.asarray(soil[0]).tobytes())
     with one_blas_thread():  # small products: threads cost more than they give
         for gi in range(uniq.shape[0]):
-            keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 1] * soil[0],
-                                                              uniq[gi, 2])
-            _group_sums(out, np.nonzero(inverse == gi)[0], st, share, keep, float(uniq[gi, 0]),
-                        smp, site)
+            key = tuple(float(x) for x in uniq[gi]) + (history,)
+            if groups is None or key not in groups:
+                keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 1] * soil[0],
+                                                                  uniq[gi, 2])
+                grp = _Group(st, share, keep, key[0], site["t_prime"], site["wind_class"],
+                             site["wind_values"].size, seg, n_seg)
+                grp.soiled = None if keep is None else (
+                    (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
+                if groups is not None:
+                    if len(groups) > 64:
+                        groups.clear()
+                    groups[key] = grp
+            _group_sums(out, np.nonzero(inverse == gi)[0], groups[key] if groups is not None
+                        else grp, smp, site)
     return out
 
 
-def _group_sums(out: dict, idx: np.ndarray, st: dict, share: np.ndarray, keep, rear_k: float,
-                smp: dict, site: dict) -> None:
+def _group_sums(out: dict, idx: np.ndarray, grp: _Group, smp: dict, site: dict) -> None:
     """Fill ``out`` at the samples ``idx`` of one group (one soiling level and rear factor)."""
-    if keep is not None:
-        e_n, e_g = share @ (st["eff_n"] * keep), share @ (st["eff_g"] * keep)
-        out["soiled_w_m2"][idx] = e_n.sum() + smp["a"][idx] * e_g.sum()
-    grp = _Group(st, share, keep, rear_k, site["t_prime"], site["wind_class"],
-                 site["wind_values"].size, site["seg"], site["n_seg"])
+    if grp.soiled is not None:
+        out["soiled_w_m2"][idx] = grp.soiled[0] + smp["a"][idx] * grp.soiled[1]
     order = idx[np.argsort(smp["beta"][idx], kind="stable")]
     for start in range(0, order.size, SUB_CHUNK):
         sub = order[start:start + SUB_CHUNK]

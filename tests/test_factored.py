@@ -135,3 +135,26 @@ def test_repeated_physics_rows_and_small_sets(demo):
     _assert_same(case, site, params, weather_factors=rng.uniform(0.9, 1.1, (80, 30)))
     for n in (1, 2, 7):  # below the group size where sums pay off
         _assert_same(case, site, _sample(rng, n, RANGES))
+
+
+def test_every_energy_parameter_is_handled_by_the_sums():
+    from lcoe.energy import ENERGY_PARAMS
+    from lcoe.factored import PARAMS
+
+    assert set(ENERGY_PARAMS) == PARAMS
+
+
+def test_cached_hours_and_groups_follow_the_soiling_profile(demo, tmp_path):
+    # two cases on one prepared site share the plane of array, not the dirt
+    case, site = demo
+    text = (ROOT / "inputs" / "demo_fixed_tilt.toml").read_text()
+    dirtier = text.replace("monthly_loss = [0.015, 0.015, 0.02, 0.03",
+                           "monthly_loss = [0.06, 0.06, 0.08, 0.12")
+    assert dirtier != text
+    other = load_case(write_case(tmp_path, dirtier))
+    rng = np.random.default_rng(10)
+    params = _sample(rng, 50, RANGES)
+    clean = evaluate(case, site, params).energy.annual_kwh
+    _assert_same(other, site, params)
+    assert np.all(evaluate(other, site, params).energy.annual_kwh < clean)
+    _assert_same(case, site, params)
