@@ -307,6 +307,9 @@ def _hourly_components(f: FacetIrradiance, day: np.ndarray, albedo: np.ndarray) 
     }
 
 
+#: Most distinct wind speeds for which the factored sums pay (see :mod:`lcoe.factored`).
+MAX_WIND_SPEEDS = 300
+
 #: Per plane of array (weakly held) and weather: the hours the model evaluates and what
 #: follows from them alone (:func:`_hours`); also the factored sums' groups.
 _HOURS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
@@ -356,6 +359,7 @@ def _hours(facets: FacetIrradiance | None, weather: Weather, run_hours, poa_hold
     else:
         year_onehot = (years[day][:, None] == np.unique(years)[None, :]).astype(float)
     out.update(day=day, t_air=t_air[day], ws=ws[day], starts=starts,
+               n_wind=np.unique(ws[day]).size,
                seg_month=month_onehot[starts], seg_year=year_onehot[starts])
     if len(store) > 8:
         store.clear()
@@ -403,7 +407,8 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         coef and cap scalar or (n_s,). None: no soiling step.
     method : {"factored", "hourly"}
         ``"factored"`` (default): the exact factored sums of :mod:`lcoe.factored` (same model,
-        summed in another order; a DC model of its own goes hour by hour; ``keep_hourly``
+        summed in another order; a DC model of its own, or weather with more than
+        :data:`MAX_WIND_SPEEDS` distinct wind speeds, goes hour by hour; ``keep_hourly``
         adds the hourly arrays, the totals stay factored). ``"hourly"``: every sample and
         daylight hour evaluated directly, in chunks of ``chunk_size`` samples: the reference
         implementation the factored sums are tested against.
@@ -456,7 +461,9 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     raw["soiled_w_m2"] = None if soil_hist is None else np.empty(n_s)
     hourly = np.zeros((n_s, weather.n_hours)) if keep_hourly else None
     extra = {k: np.zeros((n_s, weather.n_hours)) for k in HOURLY_FIELDS} if keep_hourly else None
-    factored = method == "factored" and not own_dc
+    # The factored sums keep one set of terms per distinct wind speed: a file with wind
+    # speeds of many digits (measured, not a typical year) is summed hour by hour instead.
+    factored = method == "factored" and not own_dc and prep["n_wind"] <= MAX_WIND_SPEEDS
     if factored:
         from .factored import factored_sums
 

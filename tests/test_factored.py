@@ -158,3 +158,16 @@ def test_cached_hours_and_groups_follow_the_soiling_profile(demo, tmp_path):
     _assert_same(other, site, params)
     assert np.all(evaluate(other, site, params).energy.annual_kwh < clean)
     _assert_same(case, site, params)
+
+
+def test_many_wind_speeds_are_summed_hour_by_hour(demo, monkeypatch):
+    # the bundled file has 52 distinct wind speeds; below that limit the hourly method runs
+    import lcoe.energy
+
+    case, site = demo
+    params = _sample(np.random.default_rng(11), 20, RANGES)
+    monkeypatch.setattr(lcoe.energy, "MAX_WIND_SPEEDS", 10)
+    got = evaluate(case, site, params).energy.loss_chain_kwh
+    ref = evaluate(case, site, params, method="hourly").energy.loss_chain_kwh
+    for k, v in ref.items():
+        np.testing.assert_array_equal(got[k], v)
