@@ -133,7 +133,8 @@ class Case:
         The raw ``[[correlation]]`` entries.
     monthly : Mapping or None
         ``[site.monthly]`` climate values (``ghi_kwh_m2_day``, ``temp_air_c`` and optionally
-        ``wind_speed_m_s``, 12 values each, and ``seed``), checked; weather is then synthesised
+        ``wind_speed_m_s`` and ``dni_kwh_m2_day`` (None when not given), 12 values each, and
+        ``seed``), checked; weather is then synthesised
         from them (:mod:`lcoe.synth_weather`).
     sections : frozenset of str
         Top-level tables present in the file (``revenue`` switches the bankability layer on).
@@ -464,7 +465,7 @@ def _read_drawdown(entries: Any, source: str) -> tuple[float, ...]:
     return tuple(float(v) for v in entries)
 
 
-MONTHLY_KEYS = ("ghi_kwh_m2_day", "temp_air_c", "wind_speed_m_s", "seed")
+MONTHLY_KEYS = ("ghi_kwh_m2_day", "temp_air_c", "wind_speed_m_s", "dni_kwh_m2_day", "seed")
 
 
 def _read_monthly(table: Any, values: Mapping[str, Any], source: str):
@@ -491,11 +492,13 @@ def _read_monthly(table: Any, values: Mapping[str, Any], source: str):
         raise field_error(source, "site.monthly.seed", seed, "a whole number >= 0")
     from .synth_weather import validate_monthly
 
-    ghi, temp, wind = validate_monthly(values["site.latitude_deg"], values["site.longitude_deg"],
-                                       table["ghi_kwh_m2_day"], table["temp_air_c"],
-                                       table.get("wind_speed_m_s"), source=source)
+    ghi, temp, wind, *dni = validate_monthly(
+        values["site.latitude_deg"], values["site.longitude_deg"], table["ghi_kwh_m2_day"],
+        table["temp_air_c"], table.get("wind_speed_m_s"), source=source,
+        dni_kwh_m2_day=table.get("dni_kwh_m2_day"))
     return MappingProxyType({"ghi_kwh_m2_day": tuple(ghi), "temp_air_c": tuple(temp),
-                             "wind_speed_m_s": tuple(wind), "seed": seed})
+                             "wind_speed_m_s": tuple(wind), "seed": seed,
+                             "dni_kwh_m2_day": tuple(dni[0]) if dni else None})
 
 
 def _apply_orientation_rules(values: dict) -> None:

@@ -121,7 +121,8 @@ def monthly_tables(result, sample: int = 0) -> dict:
         hourly plane-of-array components, ``poa_front_kwh_m2`` and ``poa_rear_kwh_m2``
         (front after shading; rear before bifaciality) [kWh/m2, kWh]. For weather
         synthesised from ``[site.monthly]``: ``input_ghi_kwh_m2_day`` and
-        ``input_temp_air_c`` beside ``temp_air_c`` (monthly means of the synthetic year).
+        ``input_temp_air_c`` beside ``temp_air_c`` (monthly means of the synthetic year),
+        and, when monthly DNI was given, ``input_dni_kwh_m2_day`` beside ``dni_kwh_m2_day``.
     """
     weather, energy = result.site.weather, result.base.energy
     data = weather.data
@@ -147,4 +148,8 @@ def monthly_tables(result, sample: int = 0) -> dict:
     if monthly_in is not None and weather.fmt == "synthetic":
         out["input_ghi_kwh_m2_day"] = np.asarray(monthly_in["ghi_kwh_m2_day"], dtype=float)
         out["input_temp_air_c"] = np.asarray(monthly_in["temp_air_c"], dtype=float)
+        if monthly_in.get("dni_kwh_m2_day") is not None:
+            out["input_dni_kwh_m2_day"] = np.asarray(monthly_in["dni_kwh_m2_day"], dtype=float)
+            out["dni_kwh_m2_day"] = np.divide(out["dni_kwh_m2"], days, out=np.zeros(12),
+                                              where=days > 0)
     return {k: [float(x) for x in v] for k, v in out.items()}

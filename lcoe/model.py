@@ -138,7 +138,8 @@ def synthetic_weather(case: Case) -> Weather:
     tz = case["site.timezone"]
     df = synthesize_year(case["site.latitude_deg"], case["site.longitude_deg"],
                          case["site.altitude_m"], tz, m["ghi_kwh_m2_day"], m["temp_air_c"],
-                         m["wind_speed_m_s"], rng=m["seed"], source=case.source)
+                         m["wind_speed_m_s"], rng=m["seed"], source=case.source,
+                         dni_kwh_m2_day=m.get("dni_kwh_m2_day"))
     jan = pd.Timestamp("2021-01-15 12:00").tz_localize(tz).utcoffset().total_seconds() / 3600
     return Weather(data=df[["ghi", "dni", "dhi", "temp_air", "wind_speed"]],
                    source=f"{case.source} [site.monthly]", fmt="synthetic",

@@ -16,7 +16,7 @@ A plan is a TOML file::
     name = "Some invented place"
     latitude_deg = 30.0      # ... and every other key of a case's [site] table
     [sites.monthly]          # or weather = "file.csv", relative to the plan
-    ghi_kwh_m2_day = [...]   # 12 values
+    ghi_kwh_m2_day = [...]   # 12 values (and every other key of a case's [site.monthly])
 
 Each technology is a complete case file (it can be run on its own with ``lcoe run``). The case of
 a site x technology is that file with its ``[site]`` table replaced by the plan's site (minus

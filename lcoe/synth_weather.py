@@ -11,7 +11,8 @@ published method or a stated modelling choice:
    mean hourly clearness that rises with the sun plus a Gaussian AR(1) residual, kept below
    the site's clear sky; each day then each month scaled to the input exactly;
 4. beam and diffuse parts: DIRINT (Perez et al. 1992) by default, or another of pvlib's
-   published decompositions (:data:`DECOMPOSITIONS`);
+   published decompositions (:data:`DECOMPOSITIONS`); when the monthly mean DNI is given as
+   well, each month's beam is scaled to it (diffuse by closure, below physical bounds);
 5. air temperature: a two-piece cosine diurnal cycle (minimum at sunrise, maximum at 15 h solar
    time) around the monthly means; wind speed constant within each month.
 
@@ -58,8 +59,8 @@ SYNTHETIC_WEATHER_WARNING = (
     "Synthetic weather: this hourly year was generated from 12 monthly means (daily clearness "
     "drawn from the Bendt-Collares-Pereira-Rabl distribution, hourly clearness by the TAG "
     "model, DIRINT decomposition). It reproduces the monthly GHI and temperature means; its "
-    "beam is a model estimate (monthly DNI typically within 10 % of a measured year, some "
-    "months up to about 20 %), and "
+    "beam is a model estimate unless monthly DNI was given (from GHI alone, monthly DNI "
+    "typically within 10 % of a measured year, some months up to about 20 %), and "
     "year-to-year variability and extremes are not represented. Use it for screening, never "
     "for a bankable energy assessment."
 )
@@ -139,6 +140,20 @@ def _sunset_hour_angle_rad(latitude_deg, declination_rad):
     return np.arccos(np.clip(cos_ws, -1.0, 1.0))
 
 
+def _daily_sun(latitude_deg: float, year: int):
+    """Per day of ``year``: G_on [W/m2], declination [rad], sunset hour angle [rad] (Spencer)."""
+    doy = np.arange(1, (366 if calendar.isleap(year) else 365) + 1)
+    g_on = np.asarray(pvlib.irradiance.get_extra_radiation(doy), dtype=float)
+    decl = np.asarray(pvlib.solarposition.declination_spencer71(doy), dtype=float)
+    return g_on, decl, _sunset_hour_angle_rad(latitude_deg, decl)
+
+
+def _month_means(daily: np.ndarray, year: int) -> np.ndarray:
+    """Mean of a per-day array over each calendar month of ``year``, shape (12,)."""
+    months = pd.date_range(f"{year}-01-01", periods=daily.size, freq="D").month.to_numpy()
+    return np.array([daily[months == m].mean() for m in range(1, 13)])
+
+
 def daily_extraterrestrial_kwh_m2(latitude_deg: float, year: int = 2021) -> np.ndarray:
     """Daily extraterrestrial irradiation on a horizontal surface, closed form.
 
@@ -171,12 +186,8 @@ def daily_extraterrestrial_kwh_m2(latitude_deg: float, year: int = 2021) -> np.n
     .. [2] Spencer, J.W. (1971), Fourier series representation of the position of the sun,
        Search 2(5), 172.
     """
-    n_days = 366 if calendar.isleap(year) else 365
-    doy = np.arange(1, n_days + 1)
-    g_on = np.asarray(pvlib.irradiance.get_extra_radiation(doy), dtype=float)
-    decl = np.asarray(pvlib.solarposition.declination_spencer71(doy), dtype=float)
+    g_on, decl, ws = _daily_sun(latitude_deg, year)
     phi = np.radians(latitude_deg)
-    ws = _sunset_hour_angle_rad(latitude_deg, decl)
     h0_wh = (
         (24.0 / np.pi)
         * g_on
@@ -205,9 +216,38 @@ def monthly_extraterrestrial_kwh_m2_day(latitude_deg: float, year: int = 2021) -
     .. [1] Duffie, J.A. and Beckman, W.A., Solar Engineering of Thermal Processes, Wiley,
        section 1.10.
     """
-    h0 = daily_extraterrestrial_kwh_m2(latitude_deg, year)
-    months = pd.date_range(f"{year}-01-01", periods=h0.size, freq="D").month.to_numpy()
-    return np.array([h0[months == m].mean() for m in range(1, 13)])
+    return _month_means(daily_extraterrestrial_kwh_m2(latitude_deg, year), year)
+
+
+def monthly_extraterrestrial_normal_kwh_m2_day(latitude_deg: float,
+                                               year: int = 2021) -> np.ndarray:
+    """Monthly mean of the daily extraterrestrial normal irradiation over the daylight hours.
+
+    An upper bound of a month's direct normal irradiation at the ground: the beam of a sun
+    above the horizon all day long with no atmosphere.
+
+    Parameters
+    ----------
+    latitude_deg : float
+        Site latitude, north positive [deg].
+    year : int
+        Calendar year.
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (12,): mean of :math:`G_{on}\\,2\\omega_s\\,(24/2\\pi)` over each month's days
+        [kWh/m2/day], :math:`\\omega_s` the sunset hour angle [rad] (0 in polar night).
+
+    References
+    ----------
+    .. [1] Duffie, J.A. and Beckman, W.A., Solar Engineering of Thermal Processes, Wiley,
+       sections 1.4 and 1.6 (extraterrestrial radiation, day length).
+    .. [2] Spencer, J.W. (1971), Fourier series representation of the position of the sun,
+       Search 2(5), 172.
+    """
+    g_on, _, ws = _daily_sun(latitude_deg, year)
+    return _month_means(g_on * (24.0 / np.pi) * ws / 1000.0, year)
 
 
 def validate_monthly(
@@ -218,6 +258,7 @@ def validate_monthly(
     wind_speed_m_s=None,
     year: int = 2021,
     source: str = "synthetic weather",
+    dni_kwh_m2_day=None,
 ):
     """Check the monthly climate inputs of :func:`synthesize_year`.
 
@@ -238,11 +279,17 @@ def validate_monthly(
         Non-leap calendar year in [1900, 2100], used for the extraterrestrial reference.
     source : str
         Origin named in error messages (a file name, or a description).
+    dni_kwh_m2_day : sequence of 12 float or None
+        Optional monthly mean daily direct normal irradiation [kWh/m2/day]: each >= 0 and at
+        most the month's extraterrestrial normal irradiation over its daylight hours
+        (:func:`monthly_extraterrestrial_normal_kwh_m2_day`); zero where the month's GHI is
+        zero.
 
     Returns
     -------
     tuple of numpy.ndarray
-        ``(ghi_kwh_m2_day, temp_air_c, wind_speed_m_s)``, each float of shape (12,).
+        ``(ghi_kwh_m2_day, temp_air_c, wind_speed_m_s)``, each float of shape (12,), and
+        ``dni_kwh_m2_day`` (shape (12,)) as a fourth element when it is given.
 
     Raises
     ------
@@ -281,7 +328,24 @@ def validate_monthly(
             f"{MAX_MONTHLY_CLEARNESS} of the extraterrestrial {h0[i]:.3f} kWh/m2/day at "
             f"latitude {lat:g})",
         )
-    return ghi, temp, wind
+    if dni_kwh_m2_day is None:
+        return ghi, temp, wind
+    dni_field = "site.monthly.dni_kwh_m2_day"
+    dni = _twelve(dni_kwh_m2_day, dni_field, source, 0.0, np.inf, "kWh/m2/day")
+    h0n = monthly_extraterrestrial_normal_kwh_m2_day(lat, year)
+    for i in range(12):
+        if ghi[i] <= 0.0 and dni[i] > 0.0:
+            raise field_error(source, f"{dni_field}[{i}]", float(dni[i]),
+                              f"0 kWh/m2/day ({MONTH_NAMES[i]}: "
+                              f"site.monthly.ghi_kwh_m2_day[{i}] is 0, no beam without GHI)")
+        if dni[i] > h0n[i] + 1e-9:
+            raise field_error(
+                source, f"{dni_field}[{i}]", float(dni[i]),
+                f"at most {h0n[i]:.3f} kWh/m2/day ({MONTH_NAMES[i]}: the extraterrestrial "
+                f"normal irradiation over the daylight hours at latitude {lat:g}; monthly "
+                "sums must be divided by the days of the month)",
+            )
+    return ghi, temp, wind, dni
 
 
 def decompose_dni(ghi, zenith, times, pressure_pa, model: str = DEFAULT_DECOMPOSITION):
@@ -372,6 +436,33 @@ def _fill_to_target(values, caps, target):
     return out
 
 
+def _match_monthly_dni(dni, bound, month, target_wh, source):
+    """Scale each month's hourly DNI to ``target_wh`` (its sum [Wh/m2]) below ``bound``.
+
+    Hours are scaled by one factor per month; hours that reach their bound stay there and the
+    rest of the month takes up what they cannot (:func:`_fill_to_target`). Raises InputError
+    naming ``site.monthly.dni_kwh_m2_day[m]`` when the bounds of a month cannot hold its target.
+    """
+    out = dni.copy()
+    for m in range(12):
+        sel = month == m
+        filled = _fill_to_target(dni[sel], bound[sel], target_wh[m])
+        if filled is None:
+            days = np.count_nonzero(sel) / 24.0
+            reachable = bound[sel].sum() / days / 1000.0
+            raise field_error(
+                source,
+                f"site.monthly.dni_kwh_m2_day[{m}]",
+                float(target_wh[m] / days / 1000.0),
+                f"at most {reachable:.3f} kWh/m2/day ({MONTH_NAMES[m]}: more direct normal "
+                "than the synthesised hours can hold with beam on horizontal <= GHI and below "
+                f"{CLEAR_SKY_CAP_RATIO} x the clean clear sky; check it against "
+                f"site.monthly.ghi_kwh_m2_day[{m}])",
+            )
+        out[sel] = filled
+    return out
+
+
 def _diurnal_temperature(solar_hour, sunrise_hour, amplitude_c):
     """Two-piece cosine diurnal cycle around zero [C].
 
@@ -386,12 +477,13 @@ def _diurnal_temperature(solar_hour, sunrise_hour, amplitude_c):
     return amplitude_c * np.where(rising, rise_shape, fall_shape)
 
 
-def _clear_sky_ghi(app_zenith, am_abs, linke, alt, dni_extra, etr_h):
-    """Ineichen-Perez clear-sky GHI [W/m2], zero wherever the true sun is below the horizon."""
+def _clear_sky(app_zenith, am_abs, linke, alt, dni_extra, etr_h):
+    """Ineichen-Perez clear-sky (GHI, DNI) [W/m2], zero wherever the true sun is down."""
     with np.errstate(divide="ignore", invalid="ignore"):  # night hours divide by cos(90 deg)
         cs = pvlib.clearsky.ineichen(app_zenith, am_abs, linke, altitude=alt, dni_extra=dni_extra)
-    ghi = np.nan_to_num(np.asarray(cs["ghi"], dtype=float), nan=0.0)
-    return np.where(etr_h > 0.0, np.maximum(ghi, 0.0), 0.0)
+    up = etr_h > 0.0
+    return tuple(np.where(up, np.maximum(np.nan_to_num(np.asarray(cs[k], dtype=float), nan=0.0),
+                                         0.0), 0.0) for k in ("ghi", "dni"))
 
 
 def _check_year(year, source: str) -> int:
@@ -431,6 +523,7 @@ def synthesize_year(
     day_autocorrelation: float = DAY_AUTOCORRELATION,
     decomposition: str = DEFAULT_DECOMPOSITION,
     source: str = "synthetic weather",
+    dni_kwh_m2_day=None,
 ) -> pd.DataFrame:
     """Build an hourly weather year from monthly climate values.
 
@@ -464,6 +557,10 @@ def synthesize_year(
         Beam/diffuse model, one of :data:`DECOMPOSITIONS` (default ``"dirint"``).
     source : str
         Origin named in error messages.
+    dni_kwh_m2_day : sequence of 12 float or None
+        Optional monthly mean daily direct normal irradiation [kWh/m2/day]. When given, each
+        month's DNI sums to it exactly (see Notes, *Monthly DNI given*); None leaves the beam
+        to the decomposition alone.
 
     Returns
     -------
@@ -476,8 +573,9 @@ def synthesize_year(
     Raises
     ------
     lcoe.errors.InputError
-        For invalid inputs (see :func:`validate_monthly`), or a month whose GHI exceeds the
-        extraterrestrial irradiation of its sunlit hours.
+        For invalid inputs (see :func:`validate_monthly`), a month whose GHI exceeds the
+        extraterrestrial irradiation of its sunlit hours, or a month given more DNI than its
+        synthesised hours can hold.
 
     Notes
     -----
@@ -523,6 +621,21 @@ def synthesize_year(
     of pvlib's models. DNI is bounded by :math:`G_h/\\cos\\theta_z` and DHI is set to
     :math:`G_h - DNI\\cos\\theta_z`, so closure holds exactly.
 
+    *Monthly DNI given* (``dni_kwh_m2_day``). The decomposed hourly DNI of each calendar month
+    is multiplied by one factor so the month sums to the input, each hour bounded by
+    :math:`\\min(G_h/\\cos\\theta_z,\\ 1.1\\,B^{clean}_{cs,h},\\ G_{on})` with
+    :math:`B^{clean}_{cs}` the Ineichen-Perez clear-sky DNI at Linke turbidity at most 2; hours
+    that reach their bound stay there and the month's other hours take up the rest (the same
+    iterated proportional filling as for GHI). DHI then follows by closure,
+    :math:`D_h = G_h - DNI_h\\cos\\theta_z \\ge 0`, so the hourly GHI, the monthly GHI and
+    the temperatures are those of the GHI-only year of the same seed, the day-to-day and
+    hour-to-hour pattern of the beam is the decomposition's, and only the month's beam/diffuse
+    split changes (modelling choice: a monthly ratio correction of the kind used to adapt
+    modelled irradiance to a site's long-term means, common practice). Hours the decomposition
+    gave no beam keep none unless no other hour of the month has room. A month whose bounds cannot hold its DNI (more beam than its
+    synthesised GHI allows) is refused with an :class:`~lcoe.errors.InputError` naming the
+    largest value it could take for that seed.
+
     *Temperature.* Daily means interpolate the monthly means (placed mid-month) linearly; the
     diurnal cycle is a cosine rising from its minimum at sunrise to its maximum at 15 h solar
     time, and a cosine falling back to the next sunrise; amplitude
@@ -550,8 +663,9 @@ def synthesize_year(
     .. [8] McKay, M.D., Beckman, R.J. and Conover, W.J. (1979), Technometrics 21(2), 239-245.
     """
     alt, temp_range = _check_options(altitude_m, timezone, year, daily_temp_range_c, source)
-    ghi_in, temp_in, wind_in = validate_monthly(
-        latitude_deg, longitude_deg, ghi_kwh_m2_day, temp_air_c, wind_speed_m_s, year, source
+    ghi_in, temp_in, wind_in, *dni_in = validate_monthly(
+        latitude_deg, longitude_deg, ghi_kwh_m2_day, temp_air_c, wind_speed_m_s, year, source,
+        dni_kwh_m2_day,
     )
     lat, lon = float(latitude_deg), float(longitude_deg)
     rho = _scalar(day_autocorrelation, "weather.day_autocorrelation", source, 0.0, 0.95, "")
@@ -575,9 +689,9 @@ def synthesize_year(
     with warnings.catch_warnings():  # pvlib reads DatetimeIndex.dayofyear, deprecated in pandas
         warnings.filterwarnings("ignore", message=".*dayofyear is deprecated.*")
         linke = np.asarray(pvlib.clearsky.lookup_linke_turbidity(mid, lat, lon), dtype=float)
-    cs_ghi = _clear_sky_ghi(app_zenith, am_abs, linke, alt, dni_extra, etr_h)
+    cs_ghi, _ = _clear_sky(app_zenith, am_abs, linke, alt, dni_extra, etr_h)
     clean_linke = np.minimum(linke, CLEAN_LINKE_TURBIDITY)
-    clean_ghi = _clear_sky_ghi(app_zenith, am_abs, clean_linke, alt, dni_extra, etr_h)
+    clean_ghi, clean_dni = _clear_sky(app_zenith, am_abs, clean_linke, alt, dni_extra, etr_h)
     cap = np.minimum(CLEAR_SKY_CAP_RATIO * clean_ghi, etr_h)
 
     # --- solar days (split at local mean solar midnight)
@@ -654,7 +768,12 @@ def synthesize_year(
 
     # --- beam and diffuse (one of pvlib's decompositions), closure enforced
     dni = decompose_dni(ghi, zenith, mid, pressure, decomposition)
-    dni = np.minimum(dni, np.divide(ghi, cos_z, out=np.zeros(_HOURS), where=cos_z > 0.0))
+    dni_room = np.divide(ghi, cos_z, out=np.zeros(_HOURS), where=cos_z > 0.0)
+    dni = np.minimum(dni, dni_room)
+    if dni_in:  # each month's beam scaled to the given DNI, below GHI/cos z and the clear sky
+        dni_cap = np.minimum(CLEAR_SKY_CAP_RATIO * clean_dni, dni_extra)
+        dni = _match_monthly_dni(dni, np.minimum(dni_room, dni_cap), month,
+                                 dni_in[0] * days_in_month * 1000.0, source)
     dhi = ghi - dni * np.maximum(cos_z, 0.0)
     dhi = np.maximum(dhi, 0.0)
 

@@ -96,6 +96,8 @@ _BODY_DRIVE = {"item": "body drive (gear motor)", "units": 1.0, "per": "body",
 #: Invented monthly climate of the bundled site's latitude (a screening input only).
 MONTHLY_EXAMPLE = ("[2.6, 3.5, 4.8, 5.9, 6.4, 6.7, 6.5, 5.9, 5.0, 4.0, 2.9, 2.3]",
                    "[3.5, 5.0, 9.5, 14.5, 19.0, 23.5, 25.5, 24.8, 21.0, 15.0, 9.5, 5.0]")
+#: Invented monthly mean daily DNI to go with :data:`MONTHLY_EXAMPLE` [kWh/m2/day].
+MONTHLY_DNI_EXAMPLE = "[3.4, 4.0, 4.9, 5.6, 5.7, 5.8, 5.5, 5.2, 5.0, 4.8, 3.7, 3.1]"
 
 
 def _toml_value(v) -> str:
@@ -206,6 +208,12 @@ def _monthly_block() -> list[str]:
             "[kWh/m2/day]",
             f"# temp_air_c = {temp}   # mean air temperature per month [C]",
             "# wind_speed_m_s = 3.0   # mean wind speed [m/s]; optional",
+            "# Optional: mean daily direct normal irradiation per month (a monthly sum divided",
+            "# by the days of the month). When given, each month's beam matches it; from GHI",
+            "# alone a month's DNI can miss by 10-17 %. Allowed: >= 0, at most the",
+            "# extraterrestrial normal irradiation of the daylight hours, and no more beam than",
+            "# the month's GHI can hold [kWh/m2/day]; allowed: see above",
+            f"# dni_kwh_m2_day = {MONTHLY_DNI_EXAMPLE}",
             "# seed = 1               # seed of the synthetic year; optional"]
 
 

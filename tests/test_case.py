@@ -109,6 +109,42 @@ def test_monthly_climate_builds_synthetic_weather(tmp_path):
     assert abs(daily.iloc[0] / 2.6 - 1) < 0.01
 
 
+MONTHLY_DNI = "dni_kwh_m2_day = [3.0, 3.6, 4.5, 5.2, 5.6, 5.9, 5.7, 5.5, 5.0, 4.6, 3.5, 2.9]\n"
+TZ = "altitude_m = 273.0\ntimezone = \"Etc/GMT+5\""
+
+
+def test_monthly_dni_sets_each_months_beam(tmp_path):
+    from lcoe.model import load_weather_for
+
+    text = MINIMAL_CASE.replace("altitude_m = 273.0", TZ) + MONTHLY + MONTHLY_DNI
+    case = load_case(write_case(tmp_path, text))
+    d = load_weather_for(case).data
+    days = d.groupby(d.index.month).size().to_numpy() / 24
+    # The synthesis meets the given monthly DNI (lcoe.synth_weather contract) and the GHI.
+    dni = d["dni"].groupby(d.index.month).sum().to_numpy() / 1000 / days
+    assert dni == pytest.approx(case.monthly["dni_kwh_m2_day"], rel=1e-9)
+    ghi = d["ghi"].groupby(d.index.month).sum().to_numpy() / 1000 / days
+    assert ghi == pytest.approx(case.monthly["ghi_kwh_m2_day"], rel=1e-9)
+
+
+def test_monthly_dni_refused_in_one_line(tmp_path, capsys):
+    from lcoe.cli import main
+
+    bad = MONTHLY_DNI.replace("[3.0,", "[-3.0,")
+    msg = _bad(tmp_path, MINIMAL_CASE.replace("altitude_m = 273.0", TZ) + MONTHLY + bad)
+    assert "site.monthly.dni_kwh_m2_day[0] = -3.0" in msg and "January" in msg
+    # more beam than a dull month's GHI can hold: refused when the year is built, exit 2
+    dull = MONTHLY.replace("[2.6,", "[0.9,")
+    path = write_case(tmp_path, MINIMAL_CASE.replace("altitude_m = 273.0", TZ) + dull
+                      + MONTHLY_DNI.replace("[3.0,", "[9.0,"))
+    out = tmp_path / "res"
+    assert main(["run", str(path), "--samples", "0", "--quiet", "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "Traceback" not in err, err
+    assert "site.monthly.dni_kwh_m2_day[0] = 9.0" in err and "January" in err, err
+    assert not out.exists()  # nothing half-written
+
+
 @pytest.mark.parametrize("extra,match", [
     ("", "timezone"),  # timezone missing
     ("timezone = \"Etc/GMT+5\"\nweather = \"w.csv\"", "both given"),

@@ -144,3 +144,18 @@ def test_summary_lets_a_monthly_user_confirm_the_synthesis(monthly_demo, tmp_pat
     np.testing.assert_allclose(m["ghi_kwh_m2_day"], GHI_M, rtol=1e-6)
     np.testing.assert_allclose(m["temp_air_c"], m["input_temp_air_c"], atol=0.2)
     assert len(m["energy_kwh"]) == 12 and len(m["dni_kwh_m2"]) == 12
+    assert "input_dni_kwh_m2_day" not in m  # no monthly DNI given
+
+
+def test_summary_lists_the_given_monthly_dni(tmp_path):
+    from lcoe.export.summary import summary_json
+
+    dni = [3.0, 3.6, 4.5, 5.2, 5.6, 5.9, 5.7, 5.5, 5.0, 4.6, 3.5, 2.9]
+    text = DEMO.read_text(encoding="utf-8").split("# ---- What Larkspur is unsure of")[0]
+    text += (f"\n[site.monthly]\nghi_kwh_m2_day = {GHI_M}\ntemp_air_c = {TEMP_M}\n"
+             f"dni_kwh_m2_day = {dni}\n")
+    path = tmp_path / "monthly_dni.toml"
+    path.write_text(text, encoding="utf-8")
+    m = json.loads(summary_json(run_case(path, samples=0)))["energy"]["monthly"]
+    np.testing.assert_allclose(m["input_dni_kwh_m2_day"], dni)
+    np.testing.assert_allclose(m["dni_kwh_m2_day"], dni, rtol=1e-9)

@@ -399,6 +399,8 @@ def _refused(tmp_path, capsys, text, *needles):
     (site_toml("Farpoint", climate=(SUNNY[0][:3] + [-1.0] + SUNNY[0][4:], SUNNY[1])),
      ("site 'Farpoint'", "site.monthly.ghi_kwh_m2_day[3] = -1.0")),
     (site_toml("Farpoint", extra="elevation_m = 10.0\n"), ("site 'Farpoint'", "site.elevation_m")),
+    (site_toml("Farpoint") + f"dni_kwh_m2_day = {[-0.5] + SUNNY[0][1:]}\n",
+     ("site 'Farpoint'", "site.monthly.dni_kwh_m2_day[0] = -0.5", "January")),
 ])
 def test_bad_site_refused(tmp_path, capsys, site, needles):
     _refused(tmp_path, capsys, plan_toml(sites=site_toml("Dunecrest") + site), *needles)

@@ -182,12 +182,21 @@ def test_frame_layout(tmy3, synthetic):
     np.testing.assert_array_equal(frame["wind_speed"], DEFAULT_WIND_SPEED_M_S)
 
 
-def test_irradiance_closure_and_bounds(tmy3, synthetic):
+@pytest.fixture(scope="module")
+def synthetic_dni(tmy3):
+    """Seed SEEDS[0] synthesised with the file's own monthly DNI given as well."""
+    data, site, ghi_m, temp_m = tmy3
+    return synthesize_year(**site, ghi_kwh_m2_day=ghi_m, temp_air_c=temp_m, rng=SEEDS[0],
+                           dni_kwh_m2_day=_monthly_daily_kwh(data["dni"]))
+
+
+@pytest.mark.parametrize("given_dni", [False, True], ids=["ghi-only", "dni-given"])
+def test_irradiance_closure_and_bounds(tmy3, synthetic, synthetic_dni, given_dni):
     # Analytic: GHI = DHI + DNI cos(zenith) at mid-interval; GHI <= extraterrestrial horizontal;
     # DNI <= extraterrestrial normal; nothing while the sun is down at mid-interval.
     _, site, _, _ = tmy3
     lat, lon, alt = site["latitude_deg"], site["longitude_deg"], site["altitude_m"]
-    frame = synthetic[SEEDS[0]]
+    frame = synthetic_dni if given_dni else synthetic[SEEDS[0]]
     sp = _solar_mid(frame.index, lat, lon, alt)
     cos_z = np.maximum(np.cos(np.radians(sp["zenith"].to_numpy())), 0.0)
     doy = (frame.index + pd.Timedelta(minutes=30)).tz_convert("UTC").day_of_year.to_numpy()
@@ -199,6 +208,30 @@ def test_irradiance_closure_and_bounds(tmy3, synthetic):
     assert (dni <= dni_extra + 1e-9).all()
     assert (ghi[cos_z == 0.0] == 0.0).all()
     assert 900.0 < ghi.max() < 1150.0  # sunny summer noon at 36 N: sanity only
+
+
+def test_given_monthly_dni_is_met_and_bounded(tmy3, synthetic, synthetic_dni):
+    # Cross-implementation (the file read by pvlib): with the file's monthly DNI given, every
+    # month's DNI comes back exactly, GHI is unchanged (same seed, same hours) and the beam
+    # stays below 1.1 x the clean clear sky (Ineichen-Perez through pvlib, Linke turbidity
+    # at most 2, computed here independently of the module).
+    data, site, _, _ = tmy3
+    frame, ghi_only = synthetic_dni, synthetic[SEEDS[0]]
+    np.testing.assert_allclose(_monthly_daily_kwh(frame["dni"]), _monthly_daily_kwh(data["dni"]),
+                               rtol=1e-9)
+    np.testing.assert_array_equal(frame["ghi"].to_numpy(), ghi_only["ghi"].to_numpy())
+    np.testing.assert_array_equal(frame["temp_air"].to_numpy(), ghi_only["temp_air"].to_numpy())
+    loc = pvlib.location.Location(site["latitude_deg"], site["longitude_deg"],
+                                  altitude=site["altitude_m"])
+    mid = frame.index + pd.Timedelta(minutes=30)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        linke = np.minimum(pvlib.clearsky.lookup_linke_turbidity(mid, loc.latitude,
+                                                                 loc.longitude), 2.0)
+        clean = loc.get_clearsky(mid, model="ineichen", linke_turbidity=linke)
+    assert (frame["dni"].to_numpy() <= 1.1 * clean["dni"].to_numpy() + 1e-6).all()
+    # the months given more beam than DIRINT made get it in the hours that had beam already
+    assert (frame["dni"].to_numpy()[ghi_only["dni"].to_numpy() == 0.0] == 0.0).all()
 
 
 def test_temperature_diurnal_shape(tmy3, synthetic):
@@ -465,6 +498,65 @@ def test_validate_monthly_errors(kwargs, pattern):
     args.update(kwargs)
     with pytest.raises(InputError, match=pattern) as info:
         validate_monthly(**args)
+    assert "\n" not in str(info.value)
+
+
+GOOD_DNI = [3.1, 3.6, 4.4, 5.0, 4.6, 5.0, 4.6, 4.5, 4.2, 4.5, 3.7, 3.2]
+
+
+def test_validate_monthly_with_dni():
+    *_, dni = validate_monthly(36.1, -79.95, GOOD_GHI, GOOD_TEMP, dni_kwh_m2_day=GOOD_DNI)
+    np.testing.assert_array_equal(dni, GOOD_DNI)
+    assert len(validate_monthly(36.1, -79.95, GOOD_GHI, GOOD_TEMP)) == 3
+
+
+@pytest.mark.parametrize(
+    ("dni", "pattern"),
+    [
+        (GOOD_DNI[:11], r"site\.monthly\.dni_kwh_m2_day = .*12 numbers"),
+        (_with(GOOD_DNI, 4, -0.1), r"dni_kwh_m2_day\[4\] = -0\.1: .*>= 0 kWh/m2/day \(May\)"),
+        (_with(GOOD_DNI, 1, float("inf")), r"dni_kwh_m2_day\[1\] = inf"),
+        # a monthly sum (kWh/m2) given where the mean daily value belongs
+        (_with(GOOD_DNI, 6, 142.6), r"dni_kwh_m2_day\[6\] = 142\.6: expected at most 1\d\.\d+ "
+         r"kWh/m2/day \(July: the extraterrestrial normal"),
+    ],
+)
+def test_validate_monthly_dni_errors(dni, pattern):
+    with pytest.raises(InputError, match=pattern) as info:
+        validate_monthly(36.1, -79.95, GOOD_GHI, GOOD_TEMP, source="case.toml",
+                         dni_kwh_m2_day=dni)
+    assert "\n" not in str(info.value) and str(info.value).startswith("case.toml: ")
+
+
+def test_dni_without_ghi_refused():
+    ghi = _with(GOOD_GHI, 11, 0.0)
+    with pytest.raises(InputError, match=r"dni_kwh_m2_day\[11\] = 3\.2: expected 0 .*December"):
+        validate_monthly(36.1, -79.95, ghi, GOOD_TEMP, dni_kwh_m2_day=GOOD_DNI)
+
+
+def test_dni_bound_is_the_extraterrestrial_normal_over_daylight():
+    # Analytic: at the equator every day has 12 h of daylight (sunset hour angle 90 deg,
+    # Duffie & Beckman 1.6.10), so the bound is 12 h x the month's mean G_on (Spencer 1971,
+    # through pvlib); the polar night of 80 N has no daylight and no bound above 0.
+    from lcoe.synth_weather import monthly_extraterrestrial_normal_kwh_m2_day
+
+    g_on = np.asarray(pvlib.irradiance.get_extra_radiation(np.arange(1, 366)))
+    month = pd.date_range("2021-01-01", periods=365, freq="D").month.to_numpy()
+    expected = np.array([g_on[month == m].mean() for m in range(1, 13)]) * 12.0 / 1000.0
+    np.testing.assert_allclose(monthly_extraterrestrial_normal_kwh_m2_day(0.0), expected,
+                               rtol=1e-12)
+    polar = monthly_extraterrestrial_normal_kwh_m2_day(80.0)
+    assert polar[11] == 0.0 and polar[5] == pytest.approx(24 * g_on[month == 6].mean() / 1000)
+
+
+def test_dni_beyond_what_the_hours_can_hold_refused():
+    # Beam on horizontal cannot exceed GHI: a dull December (GHI 0.8 kWh/m2/day) given
+    # 9 kWh/m2/day of DNI (below its extraterrestrial bound) cannot be built.
+    ghi, dni = _with(GOOD_GHI, 11, 0.8), _with(GOOD_DNI, 11, 9.0)
+    with pytest.raises(InputError, match=r"site\.monthly\.dni_kwh_m2_day\[11\] = 9\.0: "
+                       r"expected at most \d\.\d+ kWh/m2/day \(December: .*GHI") as info:
+        synthesize_year(36.1, -79.95, 273.0, "Etc/GMT+5", ghi, GOOD_TEMP, rng=1,
+                        dni_kwh_m2_day=dni, source="case.toml")
     assert "\n" not in str(info.value)
 
 

@@ -109,6 +109,15 @@ def sunny_months(weather: Weather) -> np.ndarray:
     return (ghi > SUNNY_MONTH_KWH_M2_DAY) | (dni > SUNNY_MONTH_KWH_M2_DAY)
 
 
+def solar_zenith_mid(weather: Weather) -> np.ndarray:
+    """True solar zenith [deg] by SPA at the middle of each hour of ``weather``, shape (n,)."""
+    mid = weather.data.index + pd.Timedelta(minutes=30)
+    pressure = pvlib.atmosphere.alt2pres(weather.altitude_m)
+    return pvlib.solarposition.get_solarposition(
+        mid, weather.latitude_deg, weather.longitude_deg, altitude=weather.altitude_m,
+        pressure=pressure)["zenith"].to_numpy()
+
+
 def decomposed_dni_ratio(weather: Weather, model: str) -> np.ndarray:
     """Monthly DNI of ``model`` applied to the file's own hourly GHI, over the file's DNI.
 
@@ -120,10 +129,7 @@ def decomposed_dni_ratio(weather: Weather, model: str) -> np.ndarray:
     d = weather.data
     mid = d.index + pd.Timedelta(minutes=30)
     pressure = pvlib.atmosphere.alt2pres(weather.altitude_m)
-    sun = pvlib.solarposition.get_solarposition(mid, weather.latitude_deg,
-                                                weather.longitude_deg,
-                                                altitude=weather.altitude_m, pressure=pressure)
-    dni = decompose_dni(d["ghi"].to_numpy(), sun["zenith"].to_numpy(), mid, pressure, model)
+    dni = decompose_dni(d["ghi"].to_numpy(), solar_zenith_mid(weather), mid, pressure, model)
     return monthly_daily_kwh_m2(pd.Series(dni, index=d.index)) / monthly_daily_kwh_m2(d["dni"])
 
 
