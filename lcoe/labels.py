@@ -231,6 +231,12 @@ OUTPUT_NAMES: dict[str, str] = {
 }
 
 
+def schema_labels(currency: str = "currency") -> dict:
+    """Label with unit of every key of the schema, for :func:`humanize` of notes that may
+    name any input (e.g. a sweep's notes on its technologies)."""
+    return {path: input_label(path, currency) for path in FIELD_BY_PATH}
+
+
 def humanize(text: str, labels: dict) -> str:
     """``text`` with every dotted input key of ``labels`` (and output key) replaced by its
     label, for sentences written from machine names (notes, warnings)."""

@@ -327,8 +327,11 @@ def _cmd_sweep(args) -> int:
             from .sweep_voi import table_lines
 
             print("\n".join(table_lines(result.voi, plan.currency)))
+        from .labels import humanize, schema_labels
+
+        labels = schema_labels(plan.currency)
         for note in result.notes:
-            print(f"  note: {note}")
+            print(f"  note: {humanize(note, labels)}")
         print(f"  ran {len(plan.runs)} site x technology runs of {plan.samples} trials "
               f"({result.execution}, {result.elapsed_s:.1f} s); wrote {out_path}/")
     for f in result.failures:

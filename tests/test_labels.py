@@ -200,6 +200,27 @@ def test_sweep_page_has_units_names_and_no_dotted_key(small_sweep):
     assert "New single-axis tracker plant" in text  # technologies by case name
 
 
+def test_sweep_demo_page_and_workbook_show_no_dotted_key(tmp_path):
+    # The bundled sweep demo (its twelve sites, trials cut to 16) with the value of
+    # information per site: readable labels on the page, keys only in the JSON.
+    from lcoe.cli import main
+
+    text = (INPUTS / "sweep_demo.toml").read_text(encoding="utf-8")
+    for name in ("demo_fixed_tilt.toml", "tech_single_axis.toml", "tech_fixed_dense.toml"):
+        text = text.replace(f'"{name}"', json.dumps(str(INPUTS / name)))
+    plan = tmp_path / "plan.toml"
+    plan.write_text(text.replace("samples = 400", "samples = 16")
+                    .replace("chunk_trials = 200", "chunk_trials = 16"), encoding="utf-8")
+    assert main(["sweep", str(plan), "--out", str(tmp_path / "o"), "--voi", "--quiet"]) == 0
+    page = _page_text(tmp_path / "o" / "report.html")
+    assert not KEY.findall(page), KEY.findall(page)
+    voi = json.loads((tmp_path / "o" / "sweep.json").read_text())["value_of_information"]
+    assert "Worth up to ... to learn before choosing the technology" in page
+    assert len(voi) == 12 and all(r["evppi"][0]["label"] in page for r in voi)
+    assert not _sheet_keys(tmp_path / "o" / "sweep.xlsx"), _sheet_keys(tmp_path / "o" /
+                                                                        "sweep.xlsx")
+
+
 @pytest.mark.skipif(chromium_path() is None, reason="Chromium is not installed")
 def test_sweep_page_renders_in_chromium(small_sweep, tmp_path):
     from matplotlib.image import imread

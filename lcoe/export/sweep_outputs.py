@@ -208,7 +208,11 @@ def write_sweep_workbook(result, path: Path) -> None:
     about += [(f"Technology {t.label}", f"{t.path} (sha256 {t.sha256})")
               for t in plan.technologies]
     about += [(c, meaning.replace("currency", cur)) for c, meaning in COLUMN_NOTES.items()]
-    about += [("Note", n) for n in list(result.notes) + [CRN_NOTE]] + [("Caution", CAUTION)]
+    from ..labels import humanize, schema_labels
+
+    labels = schema_labels(cur)
+    about += [("Note", humanize(n, labels)) for n in list(result.notes) + [CRN_NOTE]] + \
+        [("Caution", CAUTION)]
     for i, (k, v) in enumerate(about, start=2):
         put_text(wa, i, 1, k)
         _put(wa, i, 2, v, "0")

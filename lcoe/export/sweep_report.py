@@ -20,6 +20,46 @@ CAPTIONS = {
 }
 
 
+def voi_section_html(rows: list, currency: str, names: dict) -> str:
+    """Section of the value of information at each site (``lcoe sweep --voi``).
+
+    Parameters
+    ----------
+    rows : list of dict
+        :func:`lcoe.sweep_voi.sweep_site_voi` (``value_of_information`` of sweep.json).
+    currency : str
+    names : dict
+        Technology label -> its readable name.
+    """
+    from ..compare_voi import CAUTION
+
+    if not rows:
+        return ""
+
+    def mwh(x: float) -> str:
+        return f"{max(1000 * x, 0.0):.3f}"  # no "-0.000" from rounding noise
+
+    cur = _e(currency)
+    lines = []
+    for r in rows:
+        top = r["evppi"][0] if r["evppi"] else None
+        flag = " (below its error)" if top and top["below_se"] else ""
+        lines.append(
+            f"<tr><td>{_e(r['site'])}</td><td>{_e(names.get(r['choice_now'], r['choice_now']))}"
+            f"</td><td class=\"num\">{mwh(r['evpi_per_kwh'])} &plusmn; "
+            f"{mwh(r['evpi_se_per_kwh'])}</td>"
+            + (f"<td>{_e(top.get('label', top['name']))}{_e(flag)}</td><td class=\"num\">"
+               f"{mwh(top['value'])} &plusmn; {mwh(top['se'])}</td>" if top else
+               "<td></td><td></td>") + "</tr>")
+    return ("<h2>Worth up to ... to learn before choosing the technology</h2>"
+            f"<p>{_e(rows[0]['basis'])}. Shown per MWh delivered; {rows[0]['n_trials']:,} "
+            "trials per site, none left out. EVPI: everything resolved; EVPPI: one input alone "
+            "(regression method of Strong, Oakley &amp; Brennan 2014).</p>"
+            f"<table><tr><th>Site</th><th>Choice with what is known now</th><th>EVPI "
+            f"[{cur}/MWh]</th><th>Input most worth learning</th><th>Its EVPPI [{cur}/MWh]"
+            "</th></tr>" + "".join(lines) + f"</table><p class=\"sub\">{_e(CAUTION)}</p>")
+
+
 def sweep_report_html(data: dict, figures: dict | None = None) -> str:
     """The sweep's report page as one HTML string (``data``: the content of sweep.json)."""
     plan = data["plan"]
@@ -50,7 +90,8 @@ def sweep_report_html(data: dict, figures: dict | None = None) -> str:
             f"(seed {_e(plan['seed'])}, {_e(plan['method'])}), common random numbers; costs in "
             f"{_e(plan['currency'])}. Plan <code>{_e(plan['source'])}</code>.</p>",
             "<h2>Which technology is cheapest where</h2>", sites,
-            "<h2>Every site x technology</h2>", table]
+            "<h2>Every site x technology</h2>", table,
+            voi_section_html(data.get("value_of_information") or [], plan["currency"], names)]
     if data.get("failures"):
         body.append("<h2>Runs that failed</h2><ul>" + "".join(
             f"<li>{_e(f['site'])}, {_e(names.get(f['technology'], f['technology']))}: "
@@ -60,10 +101,13 @@ def sweep_report_html(data: dict, figures: dict | None = None) -> str:
         cap = CAPTIONS.get(name, name)
         body.append(f"<figure><img alt=\"{_e(cap)}\" src=\"data:image/png;base64,{src}\">"
                     f"<figcaption>{_e(cap)}</figcaption></figure>")
+    from ..labels import humanize, schema_labels
+
+    labels = schema_labels(plan["currency"])
     body.append("<h2>Notes and cautions</h2><ul>" + "".join(
-        f"<li>{_e(n)}</li>" for n in data.get("notes") or []) + "</ul>")
+        f"<li>{_e(humanize(n, labels))}</li>" for n in data.get("notes") or []) + "</ul>")
     body.append(f"<p class=\"sub\">Formula: <code>{_e(data.get('formula', ''))}</code></p>")
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
             f"<title>{_e(title)} - lcoe sweep</title><style>{_CSS}</style></head>"
-            "<body>" + "\n".join(body) + "</body></html>\n")
+            "<body>" + "\n".join(b for b in body if b) + "</body></html>\n")
