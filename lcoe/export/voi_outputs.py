@@ -126,7 +126,8 @@ def voi_page_html(block, png: bytes | None = None) -> str:
     """A standalone page around :func:`voi_section_html`."""
     css = ("body{font-family:sans-serif;max-width:60em;margin:2em auto;color:#222}"
            "table{border-collapse:collapse}td,th{border:1px solid #ccc;padding:3px 8px}"
-           ".num{text-align:right}img{max-width:100%}.caution{font-weight:bold}")
+           ".num{text-align:right}img{max-width:100%}.caution{font-weight:bold}"
+           ".sub{color:#5b6670}")
     return (f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'><title>Value of "
             f"information - lcoe</title><style>{css}</style></head><body>"
             f"{voi_section_html(block, png)}</body></html>\n")
