@@ -92,8 +92,7 @@ def voi_section_html(block, png: bytes | None = None, src: str | None = None,
     rows = []
     for r in [block.evpi] + block.rows[:top]:
         flag = " (below its error)" if r.below_se else ""
-        members = "; ".join(block.label(m) for m in r.members) if len(r.members) > 1 else ""
-        rows.append(f"<tr><td>{_e(block.label(r.name))}{_e(flag)}</td><td>{_e(members)}</td>"
+        rows.append(f"<tr><td>{_e(block.label(r.name))}{_e(flag)}</td>"
                     f"<td class='num'>{r.value:,.0f}</td><td class='num'>{r.se:,.0f}</td>"
                     f"<td class='num'>{r.low:,.0f} to {r.high:,.0f}</td>"
                     f"<td class='num'>{1000 * r.value / e:.3f}</td></tr>")
@@ -111,11 +110,13 @@ def voi_section_html(block, png: bytes | None = None, src: str | None = None,
         "<section id='value-of-information'><h2>Worth up to ... to learn before deciding</h2>"
         f"<p>{_e(block.top_sentence())}</p>"
         f"<p>Decision: which case to build ({_e(', '.join(block.options))}); choice with what "
-        f"is known now: {_e(block.options[block.best])}. {_e(block.basis)}. Per MWh figures "
+        f"is known now: {_e(block.options[block.best])}. {_e(block.basis[:1].upper())}"
+        f"{_e(block.basis[1:])}. Per MWh figures "
         f"divide by the baseline's lifetime energy discounted at its real rate "
         f"({e:,.0f} kWh). {block.n_trials:,} trials, none left out.</p>"
-        f"<table><tr><th>Input or group</th><th>Members of a group</th><th>Value [{_e(cur)}]</th>"
-        f"<th>Standard error</th><th>95 % bootstrap interval</th><th>[{_e(cur)}/MWh]</th></tr>"
+        f"<table><tr><th>Input or group (the members of each group are listed in the JSON "
+        f"and the workbook)</th><th>Value [{_e(cur)}]</th><th>Standard error [{_e(cur)}]</th>"
+        f"<th>95 % bootstrap interval [{_e(cur)}]</th><th>Value [{_e(cur)}/MWh]</th></tr>"
         + "".join(rows) + "</table>" + more + img +
         f"<p>Method: {_e(s['method'])}.</p>"
         f"<p class='caution'>{_e(s['caution'])}</p>"
