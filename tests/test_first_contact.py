@@ -143,9 +143,9 @@ def test_progress_names_each_phase(tmp_path):
     result = run_case(DEMO, samples=32, sobol_base=16, progress=bar)
     write_outputs(result, tmp_path / "o", progress=bar)
     for phase in ("reading weather", "sun positions", "Monte Carlo", "Sobol"):
-        assert phase in seen, seen
+        assert any(phase in stage for stage in seen), seen  # a phase may share its line
     assert "writing outputs" in seen
-    assert "reading weather ..." in stream.getvalue()
+    assert "reading weather" in stream.getvalue()
     quiet = io.StringIO()  # not a terminal: nothing written
     Progress(stream=quiet)("Monte Carlo", 1, 2)
     assert quiet.getvalue() == ""
