@@ -103,15 +103,16 @@ class ResourceInfoBlock:
 
     def table_lines(self) -> list[str]:
         cur, g = self.currency, self.gains()
-        lines = [f"  Value of narrowing resource uncertainty (resource_sd {self.sigma[0]:.3f} "
-                 f"-> {self.sigma[-1]:.3f}), debt re-sized each time",
-                 f"    {'resource_sd':>12}{'sigma 1 yr':>12}{'debt ' + cur:>18}"
+        lines = [f"  Worth paying to measure the resource: long-term resource sd "
+                 f"{100 * self.sigma[0]:.1f} % -> {100 * self.sigma[-1]:.1f} %, debt re-sized "
+                 f"each time",
+                 f"    {'resource sd':>12}{'1-yr sd':>12}{'debt ' + cur:>18}"
                  f"{'equity value ' + cur:>22}  binding"]
         for s, s1, d, e, b in zip(self.sigma, self.sigma_1yr, self.debt, self.equity_value,
                                   self.binding):
-            lines.append(f"    {s:>12.4f}{s1:>12.4f}{d:>18,.0f}{e:>22,.0f}  {b}")
+            lines.append(f"    {100 * s:>10.2f} %{100 * s1:>10.2f} %{d:>18,.0f}{e:>22,.0f}  {b}")
         lines += [f"    Gained: debt {g['debt']:+,.0f} {cur} ({g['debt_per_0_01_sigma']:+,.0f} "
-                  f"per 0.01 of sigma); equity value {g['equity_value']:+,.0f} {cur} "
+                  f"per 0.01 of sd); equity value {g['equity_value']:+,.0f} {cur} "
                   f"({g['equity_value_per_0_01_sigma']:+,.0f} per 0.01), at the equity's "
                   f"target IRR {100 * self.target_irr:.1f} %",
                   "    note: assumes the campaign delivers the stated sigma and leaves the "
