@@ -436,20 +436,25 @@ def _fill_to_target(values, caps, target):
     return out
 
 
-def _match_monthly_dni(dni, bound, month, target_wh, source):
-    """Scale each month's hourly DNI to ``target_wh`` (its sum [Wh/m2]) below ``bound``.
+def _match_monthly_dni(dni, bounds, month, target_wh, source):
+    """Scale each month's hourly DNI to ``target_wh`` (its sum [Wh/m2]) below ``bounds``.
 
     Hours are scaled by one factor per month; hours that reach their bound stay there and the
-    rest of the month takes up what they cannot (:func:`_fill_to_target`). Raises InputError
-    naming ``site.monthly.dni_kwh_m2_day[m]`` when the bounds of a month cannot hold its target.
+    rest of the month takes up what they cannot (:func:`_fill_to_target`). ``bounds`` is a
+    sequence of hourly bounds, tightest first: a month takes the first that can hold its
+    target. Raises InputError naming ``site.monthly.dni_kwh_m2_day[m]`` when not even the
+    last can.
     """
     out = dni.copy()
     for m in range(12):
         sel = month == m
-        filled = _fill_to_target(dni[sel], bound[sel], target_wh[m])
-        if filled is None:
+        for bound in bounds:
+            filled = _fill_to_target(dni[sel], bound[sel], target_wh[m])
+            if filled is not None:
+                break
+        else:
             days = np.count_nonzero(sel) / 24.0
-            reachable = bound[sel].sum() / days / 1000.0
+            reachable = bounds[-1][sel].sum() / days / 1000.0
             raise field_error(
                 source,
                 f"site.monthly.dni_kwh_m2_day[{m}]",
@@ -623,10 +628,13 @@ def synthesize_year(
 
     *Monthly DNI given* (``dni_kwh_m2_day``). The decomposed hourly DNI of each calendar month
     is multiplied by one factor so the month sums to the input, each hour bounded by
-    :math:`\\min(G_h/\\cos\\theta_z,\\ 1.1\\,B^{clean}_{cs,h},\\ G_{on})` with
-    :math:`B^{clean}_{cs}` the Ineichen-Perez clear-sky DNI at Linke turbidity at most 2; hours
-    that reach their bound stay there and the month's other hours take up the rest (the same
-    iterated proportional filling as for GHI). DHI then follows by closure,
+    :math:`\\min((G_h - \\min(G_h, D^{clean}_{cs,h}))/\\cos\\theta_z,\\
+    1.1\\,B^{clean}_{cs,h},\\ G_{on})` with :math:`B^{clean}_{cs}` and :math:`D^{clean}_{cs}`
+    the Ineichen-Perez clear-sky DNI and DHI at Linke turbidity at most 2 (every hour keeps at
+    least a clean clear sky's diffuse); hours that reach their bound stay there and the
+    month's other hours take up the rest (the same iterated proportional filling as for GHI).
+    Only a month that cannot hold its DNI so drops the diffuse floor, bound then by
+    :math:`G_h/\\cos\\theta_z` (DHI down to 0). DHI then follows by closure,
     :math:`D_h = G_h - DNI_h\\cos\\theta_z \\ge 0`, so the hourly GHI, the monthly GHI and
     the temperatures are those of the GHI-only year of the same seed, the day-to-day and
     hour-to-hour pattern of the beam is the decomposition's, and only the month's beam/diffuse
@@ -772,7 +780,13 @@ def synthesize_year(
     dni = np.minimum(dni, dni_room)
     if dni_in:  # each month's beam scaled to the given DNI, below GHI/cos z and the clear sky
         dni_cap = np.minimum(CLEAR_SKY_CAP_RATIO * clean_dni, dni_extra)
-        dni = _match_monthly_dni(dni, np.minimum(dni_room, dni_cap), month,
+        # first keep at least the clean clear sky's diffuse in every hour; only a month that
+        # cannot hold its DNI so may take hours down to no diffuse at all
+        clean_dhi = np.maximum(clean_ghi - clean_dni * np.maximum(cos_z, 0.0), 0.0)
+        keep_diffuse = np.divide(np.maximum(ghi - clean_dhi, 0.0), cos_z,
+                                 out=np.zeros(_HOURS), where=cos_z > 0.0)
+        hard = np.minimum(dni_room, dni_cap)
+        dni = _match_monthly_dni(dni, (np.minimum(keep_diffuse, hard), hard), month,
                                  dni_in[0] * days_in_month * 1000.0, source)
     dhi = ghi - dni * np.maximum(cos_z, 0.0)
     dhi = np.maximum(dhi, 0.0)

@@ -230,6 +230,12 @@ def test_given_monthly_dni_is_met_and_bounded(tmy3, synthetic, synthetic_dni):
                                                                  loc.longitude), 2.0)
         clean = loc.get_clearsky(mid, model="ineichen", linke_turbidity=linke)
     assert (frame["dni"].to_numpy() <= 1.1 * clean["dni"].to_numpy() + 1e-6).all()
+    # every month holds its DNI while keeping at least the clean clear sky's diffuse
+    clean_dhi = clean["ghi"].to_numpy() - clean["dni"].to_numpy() * np.maximum(
+        np.cos(np.radians(_solar_mid(frame.index, loc.latitude, loc.longitude,
+                                     loc.altitude)["zenith"].to_numpy())), 0.0)
+    floor = np.minimum(frame["ghi"].to_numpy(), np.maximum(clean_dhi, 0.0))
+    assert (frame["dhi"].to_numpy() >= floor - 1e-6).all()
     # the months given more beam than DIRINT made get it in the hours that had beam already
     assert (frame["dni"].to_numpy()[ghi_only["dni"].to_numpy() == 0.0] == 0.0).all()
 
@@ -547,6 +553,21 @@ def test_dni_bound_is_the_extraterrestrial_normal_over_daylight():
                                rtol=1e-12)
     polar = monthly_extraterrestrial_normal_kwh_m2_day(80.0)
     assert polar[11] == 0.0 and polar[5] == pytest.approx(24 * g_on[month == 6].mean() / 1000)
+
+
+def test_dni_near_the_limit_gives_up_the_diffuse_floor_only_there():
+    # A December given 5.7 kWh/m2/day of beam on 2.2 of GHI (below the 5.82 its hours can
+    # hold, seed 1): it is met exactly, and only by taking most of its sunlit hours down to
+    # no diffuse at all; the other months keep their diffuse (analytic closure).
+    dni = _with(GOOD_DNI, 11, 5.7)
+    frame = synthesize_year(36.1, -79.95, 273.0, "Etc/GMT+5", GOOD_GHI, GOOD_TEMP, rng=1,
+                            dni_kwh_m2_day=dni)
+    np.testing.assert_allclose(_monthly_daily_kwh(frame["dni"]), dni, rtol=1e-9)
+    np.testing.assert_allclose(_monthly_daily_kwh(frame["ghi"]), GOOD_GHI, rtol=1e-9)
+    sunlit = frame["ghi"] > 0.0
+    no_diffuse = (frame["dhi"] <= 1e-9) & sunlit
+    share = no_diffuse.groupby(frame.index.month).sum() / sunlit.groupby(frame.index.month).sum()
+    assert share[12] > 0.5 and (share[share.index < 12] == 0.0).all(), share
 
 
 def test_dni_beyond_what_the_hours_can_hold_refused():
