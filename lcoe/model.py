@@ -111,6 +111,15 @@ class ModelOutput:
     weather_factors: np.ndarray | None = None
 
 
+#: Inputs that the factored sums (:mod:`lcoe.factored`) treat as fixed within a group of
+#: samples (the rear factor and soiling shape the group's hourly series). When one of them is
+#: sampled, ``evaluate`` uses the hourly method: decided from the inputs given, never from
+#: which samples happen to share a chunk, so results do not depend on chunking.
+SUMMED_PER_GROUP = frozenset({"plant.bifaciality", "plant.rear_loss_fraction",
+                              "plant.soiling.scale", "plant.soiling.rate_per_day",
+                              "plant.soiling.max_loss"})
+
+
 def load_weather_for(case: Case) -> Weather:
     """Read the case's weather file (or the bundled one) and check its time zone.
 
@@ -361,14 +370,17 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
         leaves the checks to the caller (the Monte Carlo counts failing trials).
     method : {"factored", "hourly"}
         How :func:`lcoe.energy.simulate` sums the hours: the exact factored sums, each
-        distinct row of physics inputs once (default), or every sample hour by hour (the
-        reference; same results within 1e-12 relative).
+        distinct row of physics inputs once (default; the hourly method when an input of
+        :data:`SUMMED_PER_GROUP` is given), or every sample hour by hour (the reference; same
+        results within 1e-12 relative).
 
     Returns
     -------
     ModelOutput
     """
     params = dict(params or {})
+    if method == "factored" and SUMMED_PER_GROUP.intersection(params):
+        method = "hourly"  # sampled: every sample its own group, nothing to share
     sizes = [np.asarray(v).size for v in params.values()]
     if weather_factors is not None:  # trials whose only uncertainty is the energy factors
         sizes.append(np.shape(weather_factors)[0])

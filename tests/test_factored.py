@@ -68,22 +68,45 @@ def lender():
 @pytest.mark.parametrize("seed", [1, 2])
 def test_fixed_rows_soiling_random_sets(demo, seed):
     case, site = demo
+    case = case.with_values({"plant.soiling.scale": 1.3})
     rng = np.random.default_rng(seed)
-    params = _sample(rng, 300, RANGES)
-    params["plant.soiling.scale"] = np.full(300, 1.3)
-    _assert_same(case, site, params)
+    _assert_same(case, site, _sample(rng, 300, RANGES))
 
 
-def test_fixed_bifacial_and_sampled_soiling(demo):
+def test_groups_of_rear_factor_and_soiling(demo):
+    # the sums per group (one rear factor and soiling level each): most samples share one,
+    # a few have their own; straight through energy.simulate (evaluate sends sampled rear
+    # and soiling inputs to the hourly method, see the next test)
+    from lcoe.energy import ENERGY_PARAMS, simulate
+    from lcoe.model import _geometry, _soiling, base_params
+
     case, site = demo
     case = case.with_values({"plant.bifaciality": 0.7})
+    n = 200
     rng = np.random.default_rng(3)
-    params = _sample(rng, 200, RANGES)
-    # one rear factor and soiling level for most samples (summed), a few of their own (hourly)
-    params["plant.rear_loss_fraction"] = np.where(np.arange(200) < 190, 0.1,
-                                                  rng.uniform(0.0, 0.2, 200))
-    params["plant.soiling.scale"] = np.where(np.arange(200) < 180, 1.0, rng.uniform(0, 3, 200))
-    _assert_same(case, site, params)
+    full = base_params(case, n)
+    full.update(_sample(rng, n, RANGES))
+    full["plant.rear_loss_fraction"] = np.where(np.arange(n) < 190, 0.1, rng.uniform(0, 0.2, n))
+    full["plant.soiling.scale"] = np.where(np.arange(n) < 180, 1.0, rng.uniform(0, 3, n))
+    poa = site.poa(_geometry(case, full, 0), case["plant.transposition"],
+                   case["plant.aoi_model"], bool(case["plant.diffuse_iam"]))
+    sub = {k: full[k] for k in ENERGY_PARAMS}
+    soil = _soiling(case, site, full, np.arange(n))
+    ref, got = (simulate(poa, site.weather, sub, soiling=soil, method=m)
+                for m in ("hourly", "factored"))
+    for k, v in ref.loss_chain_kwh.items():
+        np.testing.assert_allclose(got.loss_chain_kwh[k], v, rtol=RTOL, err_msg=k)
+    np.testing.assert_allclose(got.monthly_kwh, ref.monthly_kwh, rtol=RTOL,
+                               atol=RTOL * ref.monthly_kwh.max())
+
+
+def test_sampled_rear_or_soiling_inputs_go_hour_by_hour(demo):
+    case, site = demo
+    params = _sample(np.random.default_rng(12), 30, RANGES)
+    params["plant.soiling.scale"] = np.full(30, 1.2)
+    got = evaluate(case, site, params).energy.annual_kwh
+    np.testing.assert_array_equal(got, evaluate(case, site, params,
+                                                method="hourly").energy.annual_kwh)
 
 
 def test_single_axis_random_sets(lender):
