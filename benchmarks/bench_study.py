@@ -13,9 +13,14 @@ prepared sites or caches), from the call into the study to its result. Before a 
 printed, the two runs are checked to agree bit for bit (same trials, same outputs). The wall
 time of the cluster run includes starting and stopping the cluster.
 
-Target: a speed-up of at least 1.6 with 2 workers on a 2-core machine.
+Target: a speed-up of at least 1.6 with 2 workers on a 2-core machine. Wall times on a
+machine shared with other work depend on what else runs at that moment, so each pair is
+printed with the load average before, between and after, and with its CPU times: the
+"CPU-time bound" is the speed-up the same work would give if each process had a core of its
+own (serial CPU over the command's CPU plus the workers' CPU shared evenly).
 
     python benchmarks/bench_study.py [--trials 200000] [--workers 2] [--only sweep|run]
+                                     [--repeat 2]
 """
 
 from __future__ import annotations
@@ -23,6 +28,7 @@ from __future__ import annotations
 import argparse
 import os
 import pickle
+import resource
 import subprocess
 import sys
 import tempfile
@@ -54,11 +60,18 @@ def _run(workers: int, trials: int):
     return time.perf_counter() - t0, result
 
 
+def _cpu_s(who) -> float:
+    r = resource.getrusage(who)
+    return r.ru_utime + r.ru_stime
+
+
 def _child(kind: str, workers: int, trials: int, out: str) -> None:
     """One measurement in a fresh interpreter (nothing prepared or imported beforehand)."""
+    own, kids = _cpu_s(resource.RUSAGE_SELF), _cpu_s(resource.RUSAGE_CHILDREN)
     t, result = _sweep(workers) if kind == "sweep" else _run(workers, trials)
+    cpu = (_cpu_s(resource.RUSAGE_SELF) - own, _cpu_s(resource.RUSAGE_CHILDREN) - kids)
     with open(out, "wb") as fh:
-        pickle.dump((t, _digest(kind, result), _count(kind, result, trials)), fh)
+        pickle.dump((t, cpu, _digest(kind, result), _count(kind, result, trials)), fh)
 
 
 def _digest(kind: str, result) -> dict:
@@ -84,7 +97,7 @@ def _same(a: dict, b: dict) -> bool:
     return a.keys() == b.keys() and all(equal(a[k], b[k]) for k in a)
 
 
-def _measure(kind: str, workers: int, trials: int) -> tuple[float, dict, int]:
+def _measure(kind: str, workers: int, trials: int) -> tuple[float, tuple, dict, int]:
     """Wall time of one study in a fresh interpreter started for it (start-up excluded)."""
     with tempfile.TemporaryDirectory() as tmp:
         out = os.path.join(tmp, "result.pkl")
@@ -101,6 +114,7 @@ def main() -> None:
     ap.add_argument("--trials", type=int, default=200_000)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--only", choices=("sweep", "run"))
+    ap.add_argument("--repeat", type=int, default=1, help="serial/parallel pairs per study")
     ap.add_argument("--child", choices=("sweep", "run"), help=argparse.SUPPRESS)
     ap.add_argument("--out", help=argparse.SUPPRESS)
     args = ap.parse_args()
@@ -114,19 +128,29 @@ def main() -> None:
     if args.only in (None, "run"):
         jobs.append(("run", f"lcoe run lender demo, {args.trials:,} trials (Sobol off)"))
     for kind, title in jobs:
-        t_serial, serial, n = _measure(kind, 1, args.trials)
-        load_mid = os.getloadavg()[0]
-        t_par, par, _ = _measure(kind, args.workers, args.trials)
-        if not _same(serial, par):
-            raise SystemExit(f"{title}: serial and {args.workers}-worker results differ")
-        ratio = t_serial / t_par
         print(f"{title}")
-        print(f"  serial            {t_serial:8.1f} s  ({n / t_serial:,.0f} trials/s)")
-        print(f"  {args.workers} workers (start-up included) {t_par:8.1f} s  "
-              f"({n / t_par:,.0f} trials/s)")
-        print(f"  speed-up          {ratio:8.2f}x  (target >= {TARGET_SPEEDUP}x: "
-              f"{'met' if ratio >= TARGET_SPEEDUP else 'missed'}); bit-identical: yes; "
-              f"load average {load_mid:.2f} between the two")
+        for rep in range(args.repeat):
+            load0 = os.getloadavg()[0]
+            t_serial, cpu_serial, serial, n = _measure(kind, 1, args.trials)
+            load1 = os.getloadavg()[0]
+            t_par, (own, kids), par, _ = _measure(kind, args.workers, args.trials)
+            load2 = os.getloadavg()[0]
+            if not _same(serial, par):
+                raise SystemExit(f"{title}: serial and {args.workers}-worker results differ")
+            ratio = t_serial / t_par
+            # with a core for each process: the command's own work plus one worker's share
+            cpu_ratio = sum(cpu_serial) / (own + kids / args.workers)
+            print(f"  run {rep + 1}: load average {load0:.2f} / {load1:.2f} / {load2:.2f} "
+                  f"(before, between, after)")
+            print(f"    serial            {t_serial:8.1f} s  ({n / t_serial:,.0f} trials/s; "
+                  f"CPU {sum(cpu_serial):.1f} s)")
+            print(f"    {args.workers} workers (start-up included) {t_par:8.1f} s  "
+                  f"({n / t_par:,.0f} trials/s; CPU {own:.1f} s in the command + "
+                  f"{kids:.1f} s in the workers)")
+            print(f"    speed-up          {ratio:8.2f}x  (target >= {TARGET_SPEEDUP}x: "
+                  f"{'met' if ratio >= TARGET_SPEEDUP else 'missed'}); bit-identical: yes")
+            print(f"    CPU-time bound    {cpu_ratio:8.2f}x  (serial CPU / (command CPU + "
+                  f"worker CPU / {args.workers}): the speed-up if each process had a core)")
     print(f"load average {os.getloadavg()[0]:.2f} at end (other work on the machine slows "
           f"the parallel run most)")
 
