@@ -26,6 +26,7 @@ own (serial CPU over the command's CPU plus the workers' CPU shared evenly).
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import pickle
 import resource
@@ -46,18 +47,18 @@ def _sweep(workers: int):
     from lcoe.sweep_plan import load_plan
 
     plan = load_plan(ROOT / "inputs" / "sweep_demo.toml")
-    t0 = time.perf_counter()
-    result = run_sweep(plan, workers=workers)
-    return time.perf_counter() - t0, result
+    with _clock() as took:
+        result = run_sweep(plan, workers=workers)
+    return took, result
 
 
 def _run(workers: int, trials: int):
     from lcoe.runner import run_case
 
-    t0 = time.perf_counter()
-    result = run_case(ROOT / "inputs" / "lender_single_axis.toml", samples=trials, seed=7,
-                      sobol_base=0, workers=workers)
-    return time.perf_counter() - t0, result
+    with _clock() as took:
+        result = run_case(ROOT / "inputs" / "lender_single_axis.toml", samples=trials, seed=7,
+                          sobol_base=0, workers=workers)
+    return took, result
 
 
 def _cpu_s(who) -> float:
@@ -65,11 +66,21 @@ def _cpu_s(who) -> float:
     return r.ru_utime + r.ru_stime
 
 
+@contextlib.contextmanager
+def _clock():
+    """Wall time and CPU times (this process, its finished children) of the block: a list
+    filled on exit with ``wall_s, (own_cpu_s, children_cpu_s)``."""
+    took: list = []
+    own, kids = _cpu_s(resource.RUSAGE_SELF), _cpu_s(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    yield took
+    took += [time.perf_counter() - t0, (_cpu_s(resource.RUSAGE_SELF) - own,
+                                        _cpu_s(resource.RUSAGE_CHILDREN) - kids)]
+
+
 def _child(kind: str, workers: int, trials: int, out: str) -> None:
     """One measurement in a fresh interpreter (nothing prepared or imported beforehand)."""
-    own, kids = _cpu_s(resource.RUSAGE_SELF), _cpu_s(resource.RUSAGE_CHILDREN)
-    t, result = _sweep(workers) if kind == "sweep" else _run(workers, trials)
-    cpu = (_cpu_s(resource.RUSAGE_SELF) - own, _cpu_s(resource.RUSAGE_CHILDREN) - kids)
+    (t, cpu), result = _sweep(workers) if kind == "sweep" else _run(workers, trials)
     with open(out, "wb") as fh:
         pickle.dump((t, cpu, _digest(kind, result), _count(kind, result, trials)), fh)
 

@@ -246,6 +246,29 @@ def test_second_run_into_locked_folder_fails_at_once(target):
     assert _leftovers(target.parent) == []
 
 
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="fork only")
+def test_forked_worker_does_not_keep_the_folder_locked(target):
+    # A local worker forked while the command holds the folder (lcoe run --workers N on
+    # Linux) inherits the lock's descriptor; the lock file is removed while still locked, so
+    # the next run locks a new file and is not held up by a worker that lives on.
+    read, write = os.pipe()
+    with publish(target, force=True) as stage:
+        stage.write_text("summary.json", "first")
+        pid = os.fork()
+        if pid == 0:  # the "worker": waits until the parent has tried again, then exits
+            os.close(write)
+            os.read(read, 1)
+            os._exit(0)
+    try:
+        _write(target, NEW)  # the worker still runs: the folder is free all the same
+        assert _content(target) == NEW
+    finally:
+        os.write(write, b"x")
+        os.waitpid(pid, 0)
+        os.close(read)
+        os.close(write)
+
+
 def test_publish_file(tmp_path):
     p = tmp_path / "case.toml"
     publish_file(p, b"one")
