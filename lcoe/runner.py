@@ -92,9 +92,9 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     case = read_case(case)
     spec = read_spec(case)
     phase(progress, "reading weather and sun positions")
-    # the process's prepared site: the Monte Carlo (and forked workers) reuse it, with the
-    # plane of array of every geometry it computes
-    site, site_notes, _ = prepared(case)
+    # read and prepared for this run, then kept: the Monte Carlo (and forked workers) reuse it,
+    # with the plane of array of every geometry it computes
+    site, site_notes, _ = prepared(case, fresh=True)
     phase(progress, "energy and cash flow")
     base = evaluate(case, site, keep_hourly=True)  # one sample: the hourly arrays are small
     from .claims import audit_run

@@ -166,9 +166,16 @@ def yearly_factors(z: np.ndarray, interannual_cov: float,
     return np.ones_like(z)
 
 
-def prepared(case: Case):
-    """The case's prepared site, its notes and multi-year ratios, memoised in this process."""
+def prepared(case: Case, fresh: bool = False):
+    """The case's prepared site, its notes and multi-year ratios, memoised in this process.
+
+    ``fresh=True`` reads and prepares the site again (a run's own start: ``lcoe run`` reads
+    its weather each time) and keeps the result for the study's chunks and forked workers.
+    """
     key = (site_key(case), case.sha256, case.name)
+    if fresh:
+        _CACHE.pop(key, None)
+        _CACHE.pop(("site", site_key(case)), None)
     if key not in _CACHE:
         skey = ("site", site_key(case))
         if skey not in _CACHE:
