@@ -121,14 +121,18 @@ def test_ctrl_c_at_any_moment_of_start_up_and_run(tmp_path, delay_s):
     out = tmp_path / "res"
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     code = ("import sys, lcoe.cli; print('ready', flush=True); "
-            f"sys.exit(lcoe.cli.main({RUN + ['--out', str(out)]!r}))")
+            f"status = lcoe.cli.main({RUN + ['--out', str(out)]!r}); "
+            "print('returned', status, flush=True); sys.exit(status)")
     p = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE,
                          stderr=subprocess.PIPE, text=True, env=env)
     assert p.stdout.readline() == "ready\n"
     time.sleep(delay_s)
     p.send_signal(signal.SIGINT)
-    err = p.communicate(timeout=300)[1]
-    if p.returncode == 0:  # finished before the interrupt arrived (not expected, but legal)
+    said, err = p.communicate(timeout=300)
+    if p.returncode == 0 or "returned 0" in said:
+        # finished before the interrupt arrived (the run may take under 2.5 s): legal; a
+        # signal during the interpreter's own shutdown, after main() returned, ends the
+        # process by the signal (Python restores the default handlers as it exits)
         return
     assert p.returncode == 130, err
     assert err == "lcoe: interrupted\n"
