@@ -85,16 +85,19 @@ def run_case(case: Case | str | Path, samples: int | None = None, seed: int = DE
     -------
     RunResult
     """
+    from .model import load_weather_for
     from .progress import phase
     from .study.trials import prepared
     from .uncertainty.spec import read_spec
 
     case = read_case(case)
     spec = read_spec(case)
-    phase(progress, "reading weather and sun positions")
-    # read and prepared for this run, then kept: the Monte Carlo (and forked workers) reuse it,
-    # with the plane of array of every geometry it computes
-    site, site_notes, _ = prepared(case, fresh=True)
+    phase(progress, "reading weather")
+    weather = load_weather_for(case)
+    phase(progress, "sun positions")
+    # prepared for this run, then kept: the Monte Carlo (and forked workers) reuse it, with the
+    # plane of array of every geometry it computes
+    site, site_notes, _ = prepared(case, fresh=True, weather=weather)
     phase(progress, "energy and cash flow")
     base = evaluate(case, site, keep_hourly=True)  # one sample: the hourly arrays are small
     from .claims import audit_run

@@ -166,11 +166,12 @@ def yearly_factors(z: np.ndarray, interannual_cov: float,
     return np.ones_like(z)
 
 
-def prepared(case: Case, fresh: bool = False):
+def prepared(case: Case, fresh: bool = False, weather=None):
     """The case's prepared site, its notes and multi-year ratios, memoised in this process.
 
-    ``fresh=True`` reads and prepares the site again (a run's own start: ``lcoe run`` reads
-    its weather each time) and keeps the result for the study's chunks and forked workers.
+    ``fresh=True`` prepares the site again (a run's own start: ``lcoe run`` reads its weather
+    each time, and may pass it as ``weather``) and keeps the result for the study's chunks and
+    forked workers.
     """
     key = (site_key(case), case.sha256, case.name)
     if fresh:
@@ -180,7 +181,7 @@ def prepared(case: Case, fresh: bool = False):
         skey = ("site", site_key(case))
         if skey not in _CACHE:
             with collect_warnings() as caught:
-                site = prepare(case)
+                site = prepare(case, weather if fresh else None)
             notes = tuple(site.notes) + tuple(caught)
             _CACHE[skey] = (site, notes)
         site, notes = _CACHE[skey]
