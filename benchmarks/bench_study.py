@@ -21,6 +21,16 @@ own (serial CPU over the command's CPU plus the workers' CPU shared evenly).
 
     python benchmarks/bench_study.py [--trials 200000] [--workers 2] [--only sweep|run]
                                      [--repeat 2]
+
+Measured on this 2-core machine, 2026-12-03, shared with other sessions (target missed):
+
+- load average 2.3-2.8: sweep serial 5.6 s, 2 workers 7.2 s (0.78x; CPU-time bound 1.27x);
+  lender 200,000 trials serial 12.8 s (CPU 19.1 s), 2 workers 13.6 s (0.95x; bound 1.46x);
+- load average 4.5-5.5, before the factored engine landed: sweep 13.4 s vs 18.3 s (bound
+  1.20x); lender 47.0 s vs 35.8 s (1.31x; bound 1.76x).
+
+The kernel schedules by session (sched_autogroup), so a command's workers share one
+session's CPU share while others are busy; see DEVELOPERS.md, "Benchmarks".
 """
 
 from __future__ import annotations
