@@ -16,6 +16,7 @@ value matrix and the groups, and holds the result for the exporters.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -93,6 +94,14 @@ class VoiBlock:
         """Readable label of a row's name or of an input (the name when none is known)."""
         return self.labels.get(name, EVPI_LABEL if name == self.evpi.name else name)
 
+    def spoken(self, name: str) -> str:
+        """An input's label for a sentence: without its unit, its case after "of"
+        (``"Capex [USD/kW] [Plant A]"`` -> ``"Capex of Plant A"``)."""
+        m = _UNIT_AND_CASE.match(self.label(name)) if name in self.labels else None
+        if m is None:
+            return self.label(name)
+        return f"{m['name']} of {m['case']}" if m["case"] else m["name"]
+
     def row_dict(self, row: InfoValue) -> dict:
         """:meth:`InfoValue.to_dict` per kWh of the baseline, with ``label`` and the members'
         labels."""
@@ -114,7 +123,7 @@ class VoiBlock:
                     f"{_money(self.evpi.value, cur)}).")
         top, rest = rows[0], rows[1:]
         second = max((r.value for r in rest), default=0.0)
-        return (f"Learning {self.label(top.name)} before choosing is worth up to "
+        return (f"Learning {self.spoken(top.name)} before choosing is worth up to "
                 f"{_money(top.value, cur)} to this decision "
                 f"({1000 * top.value / self.energy_ref_kwh:.3g} {cur}/MWh of "
                 f"the baseline's discounted energy); nothing else alone is worth more than "
@@ -157,6 +166,8 @@ class VoiBlock:
         return lines
 
 
+#: A label with unit and, when cases draw the input apart, the case: "Name [unit] [Case]".
+_UNIT_AND_CASE = re.compile(r"^(?P<name>.*?) \[[^\[\]]*\](?: \[(?P<case>.*)\])?$")
 #: Width of the label column of the CLI table [characters].
 W = 66
 

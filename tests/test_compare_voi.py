@@ -84,6 +84,9 @@ def test_outputs_carry_the_value_of_information(comparison, tmp_path):
         assert row["label"] and row["name"] in {r.name for r in comparison.voi.rows}
     capex = next(r for r in data["evppi"] if r["name"] == "costs.capex_per_kw [novel]")
     assert capex["label"] == "Capex [USD/kW] [novel]"
+    if comparison.voi.inputs[0].name == capex["name"] and not comparison.voi.inputs[0].below_se:
+        assert comparison.voi.top_sentence().startswith("Learning Capex of novel before")
+    assert comparison.voi.spoken(capex["name"]) == "Capex of novel"
     ws = load_workbook(out / "comparison.xlsx")["Value of information"]
     assert ws.cell(7, 1).value == "Everything (EVPI)" and ws.cell(7, 8).value == "all (EVPI)"
     assert ws.cell(7, 2).value == pytest.approx(comparison.voi.evpi.value)
