@@ -22,10 +22,15 @@ own (serial CPU over the command's CPU plus the workers' CPU shared evenly).
     python benchmarks/bench_study.py [--trials 200000] [--workers 2] [--only sweep|run]
                                      [--repeat 2]
 
-Measured on this 2-core machine, 2026-12-03, shared with other sessions (target missed):
+Measured on this 2-core machine, 2026-12-03 (target missed):
 
+- quiet moment (load average 0.6-0.9), final code: sweep serial 5.5 s, 2 workers 4.2 s
+  (1.32x); lender 200,000 trials serial 11.1 s, 2 workers 7.7 s (1.45x); CPU-time bounds
+  1.34x and 1.40x;
 - load average 2.3-2.8: sweep serial 5.6 s, 2 workers 7.2 s (0.78x; CPU-time bound 1.27x);
   lender 200,000 trials serial 12.8 s (CPU 19.1 s), 2 workers 13.6 s (0.95x; bound 1.46x);
+- load average 2.7-3.3, IRR grid product on one BLAS thread: lender serial 16.1 s (CPU
+  11.3 s), 2 workers 20.4 s (0.79x; bound 1.30x, limited by the command's serial 3.7 s);
 - load average 4.5-5.5, before the factored engine landed: sweep 13.4 s vs 18.3 s (bound
   1.20x); lender 47.0 s vs 35.8 s (1.31x; bound 1.76x).
 
