@@ -106,7 +106,11 @@ def test_interrupt_turned_into_another_error_by_a_library_is_still_an_interrupt(
         except KeyboardInterrupt:
             raise ValueError("Error tokenizing data") from None
 
+    import lcoe.study.trials
+
     monkeypatch.setattr(pvlib.iotools, "read_tmy3", swallowing_reader)
+    # the process keeps prepared sites (earlier tests ran the demo): read the weather again
+    monkeypatch.setattr(lcoe.study.trials, "_CACHE", {})
     out = tmp_path / "res"
     assert main(RUN + ["--out", str(out)]) == 130
     assert _one_line(capsys.readouterr().err) == "lcoe: interrupted\n"
