@@ -194,27 +194,48 @@ def connect(address: str, timeout_s: float = CONNECT_TIMEOUT_S):
 
 
 def worker_start_method() -> str:
-    """How local worker processes start: ``"fork"`` on Linux, else ``"spawn"``.
+    """How local worker processes start: ``"forkserver"`` on Linux, else ``"spawn"``.
 
-    A forked worker starts in a fraction of a second with everything this process has
-    imported (numpy, pandas, pvlib, the model) and every site it has prepared (weather, sun,
-    rows; see :func:`lcoe.study.trials.prepared`); a spawned one imports all of it again and
-    prepares its sites again (measured on this 2-core machine under load: 0.4 s for two forked
-    workers to start and take their first task, 8 s spawned). The numbers do not depend on it:
-    the same code runs on the same data. Elsewhere (macOS, Windows) fork is unsafe or absent.
+    The workers are forked from a small single-threaded server process that has imported the
+    scientific stack and the model once (:func:`_preload_forkserver`), so they start without
+    importing it again. They are not forked from this process: the cluster's scheduler runs an
+    event-loop thread here, and a process forked while another thread holds a lock can hang
+    for ever (seen twice in the test suite with plain ``fork``: workers idle, the study never
+    finishing). A worker prepares its sites once (weather, sun, rows; see
+    :func:`lcoe.study.trials.prepared`) and keeps them for all its tasks. The numbers do not
+    depend on the start method: the same code runs on the same data. Elsewhere (macOS,
+    Windows) only ``spawn`` is used.
     """
     import multiprocessing
     import sys
 
-    if sys.platform.startswith("linux") and "fork" in multiprocessing.get_all_start_methods():
-        return "fork"
+    if (sys.platform.startswith("linux")
+            and "forkserver" in multiprocessing.get_all_start_methods()):
+        return "forkserver"
     return "spawn"
+
+
+#: Modules the fork server imports once, so that workers start with them in place.
+FORKSERVER_PRELOAD = ("distributed", "numpy", "pandas", "scipy.special", "pvlib",
+                      "lcoe.model", "lcoe.study.trials")
+
+
+def _preload_forkserver() -> None:
+    """Have the fork server import :data:`FORKSERVER_PRELOAD` (before its first start)."""
+    import multiprocessing
+
+    import distributed.utils
+
+    if not getattr(distributed.utils, "_forkserver_preload_set", True):
+        multiprocessing.get_context("forkserver").set_forkserver_preload(
+            list(FORKSERVER_PRELOAD))
+        distributed.utils._forkserver_preload_set = True
 
 
 def local_cluster(workers: int):
     """A LocalCluster of ``workers`` single-threaded processes on 127.0.0.1, no dashboard.
 
-    The workers are started by :func:`worker_start_method` (forked from this process on Linux).
+    The workers are started by :func:`worker_start_method` (from a fork server on Linux).
     """
     import logging
 
@@ -227,11 +248,14 @@ def local_cluster(workers: int):
     # pages fault in again; 8.6 s with it) and the sampling profiler (a thread walking every stack
     # every 10 ms; 7.4 s with it). Without both: 3.3 s. The workers keep one BLAS/OpenMP thread
     # each. Task failures are reported by the sweep itself, so the workers' logs are silenced.
+    method = worker_start_method()
+    if method == "forkserver":
+        _preload_forkserver()
     environ = {k: v for k, v in dask.config.get("distributed.nanny.pre-spawn-environ",
                                                 {}).items() if k != "MALLOC_TRIM_THRESHOLD_"}
     with dask.config.set({"distributed.nanny.pre-spawn-environ": environ,
                           "distributed.worker.profile.enabled": False,
-                          "distributed.worker.multiprocessing-method": worker_start_method()}):
+                          "distributed.worker.multiprocessing-method": method}):
         # The scheduler always serves a small HTTP API: bind it to 127.0.0.1 on a free port
         # (not the default 8787, which may be taken) and leave the dashboard off.
         return LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
@@ -280,9 +304,8 @@ def execute(tasks: Sequence, fn: Callable, workers: int = 1,
         except ImportError:
             results, errors = run_serial(tasks, fn, progress)
             return results, errors, "serial (in process)", [DASK_MISSING_NOTE]
-        # Forked workers inherit this process: the first task is run here before they start,
-        # so that its imports, the trial design's first block and its site are computed once
-        # and not again in every worker.
+        # Workers forked from this process would inherit its work, so the first task would be
+        # run here first; they start from a fork server instead (see worker_start_method).
         head = 1 if worker_start_method() == "fork" and len(tasks) > 1 else 0
         results, errors = run_serial(tasks[:head], fn)
         rest = (lambda done, total: progress(done + head, total + head)) if progress else None
