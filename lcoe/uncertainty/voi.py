@@ -281,20 +281,49 @@ class _Design:
 
     def grams(self, w: np.ndarray, chunk: int = 4_000_000) -> np.ndarray:
         """``B' diag(w_b) B`` for every row of w (n_boot, n) -> (n_boot, p, p)."""
+        n, r = self.cols.shape
+        if np.array_equal(self.cols, self.cols[:, :1] + np.arange(r)):
+            return self._banded_grams(w)
+        out = np.zeros((w.shape[0], self.p * self.p))
+        for a, q in self._outer_products(chunk):
+            out += (q.T @ w[:, a:a + q.shape[0]].T).T
+        return out.reshape(w.shape[0], self.p, self.p)
+
+    def _outer_products(self, chunk: int) -> list:
+        """Rows' outer products ``v_a v_c`` as sparse (m, p*p) blocks with their first row,
+        built once per design (the fit and its bootstrap use the same)."""
         from scipy import sparse
 
+        cache = self.__dict__.setdefault("_outer_cache", {})
+        if chunk not in cache:
+            n, r = self.cols.shape
+            step = max(1, chunk // (r * r))
+            blocks = []
+            for a in range(0, n, step):
+                c, v = self.cols[a:a + step], self.vals[a:a + step]
+                m = c.shape[0]
+                idx = (c[:, :, None] * self.p + c[:, None, :]).ravel()
+                blocks.append((a, sparse.csr_matrix(
+                    ((v[:, :, None] * v[:, None, :]).ravel(), idx,
+                     np.arange(0, m * r * r + 1, r * r)), shape=(m, self.p * self.p))))
+            cache[chunk] = blocks
+        return cache[chunk]
+
+    def _banded_grams(self, w: np.ndarray) -> np.ndarray:
+        """:meth:`grams` of a design whose rows store r neighbouring columns (one input's
+        B-spline pieces): rows grouped by their first column, each group one dense product
+        ``w[:, rows] @ (v_a v_c)[rows]`` added to its r x r block."""
         n, r = self.cols.shape
-        out = np.zeros((w.shape[0], self.p * self.p))
-        step = max(1, chunk // (r * r))
-        for a in range(0, n, step):
-            c, v = self.cols[a:a + step], self.vals[a:a + step]
-            m = c.shape[0]
-            idx = (c[:, :, None] * self.p + c[:, None, :]).ravel()
-            q = sparse.csr_matrix(((v[:, :, None] * v[:, None, :]).ravel(), idx,
-                                   np.arange(0, m * r * r + 1, r * r)),
-                                  shape=(m, self.p * self.p))
-            out += (q.T @ w[:, a:a + step].T).T
-        return out.reshape(w.shape[0], self.p, self.p)
+        start = self.cols[:, 0]
+        order = np.argsort(start, kind="stable")
+        firsts, bounds = np.unique(start[order], return_index=True)
+        bounds = np.append(bounds, n)
+        outer = (self.vals[:, :, None] * self.vals[:, None, :]).reshape(n, r * r)
+        out = np.zeros((w.shape[0], self.p, self.p))
+        for k, s in enumerate(firsts):
+            rows = order[bounds[k]:bounds[k + 1]]
+            out[:, s:s + r, s:s + r] += (w[:, rows] @ outer[rows]).reshape(-1, r, r)
+        return out
 
 
 def _design(u: np.ndarray) -> _Design:
