@@ -43,9 +43,9 @@ def _timed(fn):
 
 
 def main() -> None:
-    from lcoe.case import load_case
-    from lcoe.compare import run_comparison
+    from lcoe.case.reader import load_case
     from lcoe.model import evaluate, prepare
+    from lcoe.study.compare import run_comparison
 
     base = load_case(ROOT / "inputs" / "demo_fixed_tilt.toml")
     site = prepare(base)

@@ -55,9 +55,9 @@ def _peak_mb() -> float:
 # -- trials: the same draws for the engine and the references -------------------------------
 
 def _context(name: str) -> dict:
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
+    from lcoe.study.spec import read_spec
     from lcoe.study.trials import prepared
-    from lcoe.uncertainty.spec import read_spec
 
     case = load_case(CASES[name])
     site, _, ratios = prepared(case)
@@ -367,7 +367,7 @@ def part_million() -> dict:
 
 def part_study() -> dict:
     """10,000 trials + Sobol N = 1,024, measured from a fresh interpreter (start-up in)."""
-    code = ("import time; t0 = time.perf_counter(); from lcoe.runner import run_case; "
+    code = ("import time; t0 = time.perf_counter(); from lcoe.study.run import run_case; "
             f"r = run_case({str(CASES['demo'])!r}, samples=10000, sobol_base=1024); "
             "s = r.extras['sensitivity']; "
             "print(time.perf_counter() - t0, s.sobol.n_runs, "

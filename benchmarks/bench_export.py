@@ -58,9 +58,9 @@ def inside(samples: int, sobol: int, case: str) -> None:
     from lcoe.export.plots import render_figures
     from lcoe.export.report import write_report
     from lcoe.export.summary import summary_json
-    from lcoe.export.trials import write_trials_csv
-    from lcoe.export.workbook import write_workbook
-    from lcoe.runner import run_case
+    from lcoe.export.trials_csv import write_trials_csv
+    from lcoe.export.workbook.book import write_workbook
+    from lcoe.study.run import run_case
 
     warm = run_case(case, samples=16, sobol_base=0)  # caches and lazy imports
     with tempfile.TemporaryDirectory() as tmp:
@@ -107,8 +107,8 @@ if listing != "-":
         except Exception:
             pass
 t1 = time.perf_counter()
-from lcoe.errors import collect_warnings
-from lcoe.runner import read_case, run_case, write_outputs
+from lcoe.case.errors import collect_warnings
+from lcoe.study.run import read_case, run_case, write_outputs
 with collect_warnings():
     result = run_case(read_case(case), samples=None if samples == "default" else int(samples),
                       sobol_base=sobol)

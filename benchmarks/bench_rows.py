@@ -41,7 +41,7 @@ EXTRA_UNCERTAIN = {
 
 
 def _cases(path: Path):
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
 
     demo = load_case(DEMO_UNCERTAIN)
     base = replace(load_case(path), uncertain=demo.uncertain, correlation=demo.correlation)
@@ -53,7 +53,7 @@ def _cases(path: Path):
 
 def _timed_mc(case, site, n: int, seed: int) -> float:
     from lcoe.study.single import monte_carlo
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     spec = read_spec(case)
     t0 = time.perf_counter()

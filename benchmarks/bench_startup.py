@@ -121,7 +121,7 @@ def _compare(old: Path, tmp: Path, repeat: int) -> int:
                  if ln.strip().startswith("case")]
     assert case_line and case_line[0] in outputs[("lcoe check demo", "new")].stdout
     sys.path.insert(0, str(ROOT))
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
 
     for label in ("old", "new"):
         p = tmp / label / "t.toml"

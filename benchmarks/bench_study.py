@@ -64,8 +64,8 @@ TARGET_SPEEDUP = 1.6
 
 
 def _sweep(workers: int):
-    from lcoe.sweep import run_sweep
-    from lcoe.sweep_plan import load_plan
+    from lcoe.study.plan import load_plan
+    from lcoe.study.sweep import run_sweep
 
     plan = load_plan(ROOT / "inputs" / "sweep_demo.toml")
     with _clock() as took:
@@ -74,7 +74,7 @@ def _sweep(workers: int):
 
 
 def _run(workers: int, trials: int):
-    from lcoe.runner import run_case
+    from lcoe.study.run import run_case
 
     with _clock() as took:
         result = run_case(ROOT / "inputs" / "lender_single_axis.toml", samples=trials, seed=7,

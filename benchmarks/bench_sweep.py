@@ -32,7 +32,7 @@ TARGET_SPEEDUP = 1.6
 
 def invented_sites(n: int) -> list[dict]:
     """``n`` invented northern-hemisphere sites with plausible monthly climate values."""
-    from lcoe.synth_weather import monthly_extraterrestrial_kwh_m2_day
+    from lcoe.case.monthly import monthly_extraterrestrial_kwh_m2_day
 
     rng = np.random.default_rng(7)
     sites = []
@@ -86,7 +86,7 @@ def single_case_cost(plan, samples: int) -> float:
     """Seconds per trial of the single-case engine on the plan's first site x technology."""
     from lcoe.model import prepare
     from lcoe.study.single import monte_carlo
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     case = plan.runs[0].case()
     site = prepare(case)
@@ -103,8 +103,8 @@ def main(argv=None) -> int:
     ap.add_argument("--workers", type=int, default=2)
     args = ap.parse_args(argv)
 
-    from lcoe.sweep import run_sweep
-    from lcoe.sweep_plan import load_plan
+    from lcoe.study.plan import load_plan
+    from lcoe.study.sweep import run_sweep
 
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "bench_plan.toml"
@@ -137,7 +137,7 @@ def main(argv=None) -> int:
 
         # The same work on a cluster that is already running (as with --scheduler): the
         # start-up of worker processes and their imports is paid once, not per sweep.
-        from lcoe.sweep import local_cluster
+        from lcoe.study.executor import local_cluster
 
         warm_path = Path(tmp) / "warm_plan.toml"
         warm_path.write_text(plan_text(invented_sites(args.sites + 1)[-1:], 100),

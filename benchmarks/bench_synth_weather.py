@@ -20,7 +20,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from lcoe.synth_weather import DECOMPOSITIONS  # noqa: E402
+from lcoe.site.synth_weather import DECOMPOSITIONS  # noqa: E402
 from tests.helpers.bundled_weather import (  # noqa: E402
     DNI_BOUND,
     bundled_files,

@@ -37,10 +37,10 @@ def binned_evppi(values: np.ndarray, x: np.ndarray, bins: int = 40) -> float:
 
 
 def main() -> None:
-    from lcoe.case import load_case
-    from lcoe.compare import run_comparison
-    from lcoe.compare_cli import DEMO_COMPARE
-    from lcoe.compare_voi import comparison_voi, option_values
+    from lcoe.case.reader import load_case
+    from lcoe.cli.compare import DEMO_COMPARE
+    from lcoe.study.compare import run_comparison
+    from lcoe.study.value_of_information import comparison_voi, option_values
 
     cases = [load_case(ROOT / "inputs" / name) for name in DEMO_COMPARE]
     t0 = time.perf_counter()

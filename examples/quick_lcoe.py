@@ -7,8 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from lcoe.case import load_case
-from lcoe.model import evaluate, prepare
+from lcoe import evaluate, load_case, prepare
 
 case = load_case(Path(__file__).resolve().parent.parent / "inputs" / "demo_fixed_tilt.toml")
 site = prepare(case)  # weather + sun, once

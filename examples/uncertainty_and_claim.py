@@ -8,11 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from lcoe.case import load_case
-from lcoe.compare import run_comparison
-from lcoe.model import prepare
-from lcoe.study.single import energy_exceedance, monte_carlo
-from lcoe.uncertainty.spec import read_spec
+from lcoe import energy_exceedance, load_case, monte_carlo, prepare, read_spec, run_comparison
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 

@@ -13,11 +13,14 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .case import Case
-from .cashflow import CashFlow, build_cashflow, energy_by_year
-from .energy import ENERGY_PARAMS, EnergyResult, simulate
-from .errors import ImplausibleResult, InputError
-from .irradiance import (
+from lcoe.case.errors import ImplausibleResult, InputError
+from lcoe.case.plausibility import check_output
+from lcoe.case.reader import Case
+from lcoe.case.schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS, KIMBER_HISTORY_PATHS, ROW_MOUNTS
+from lcoe.money.cashflow import CashFlow, build_cashflow, energy_by_year
+from lcoe.plant.energy import ENERGY_PARAMS, EnergyResult, simulate
+from lcoe.plant.factored import distinct_rows
+from lcoe.site.irradiance import (
     FacetIrradiance,
     Geometry,
     SolarPosition,
@@ -26,9 +29,7 @@ from .irradiance import (
     plane_of_array,
     solar_position,
 )
-from .plausibility import check_output
-from .schema import BODY_GEOMETRY_PATHS, GEOMETRY_PATHS, KIMBER_HISTORY_PATHS, ROW_MOUNTS
-from .weather import (
+from lcoe.site.weather import (
     Weather,
     bundled_weather_path,
     check_against_sun,
@@ -60,13 +61,13 @@ class Site:
 
         Rows of facets with their incidence-angle losses (hence ``aoi_model`` and
         ``diffuse_loss``, the diffuse angle loss of Marion 2017): one row for a flat mount
-        (with the row model of :mod:`lcoe.rows` when ``geometry.rows``), the facets of a body
+        (with the row model of :mod:`lcoe.site.rows` when ``geometry.rows``), the facets of a body
         for ``mount = "body"``.
         """
         key = (geometry, transposition, aoi_model, diffuse_loss)
         if key not in self._poa_cache:
             if geometry.mount == "body":
-                from .bodies import body_irradiance
+                from lcoe.plant.body_light import body_irradiance
 
                 self._poa_cache[key] = body_irradiance(self.weather, self.sun, geometry.body,
                                                        transposition, aoi_model, diffuse_loss)
@@ -79,8 +80,8 @@ class Site:
 
     def rows(self, geometry: Geometry, tilt_deg, azimuth_deg):
         """Row shading, views and rear side of a fixed or single-axis geometry (infinite
-        sheds, :func:`lcoe.rows.row_irradiance`)."""
-        from .rows import row_irradiance, row_pitch_m
+        sheds, :func:`lcoe.site.rows.row_irradiance`)."""
+        from lcoe.site.rows import row_irradiance, row_pitch_m
 
         d = self.weather.data
         return row_irradiance(tilt_deg, azimuth_deg, self.sun.apparent_zenith_deg,
@@ -111,7 +112,7 @@ class ModelOutput:
     weather_factors: np.ndarray | None = None
 
 
-#: Inputs that the factored sums (:mod:`lcoe.factored`) treat as fixed within a group of
+#: Inputs that the factored sums (:mod:`lcoe.plant.factored`) treat as fixed within a group of
 #: samples (the rear factor and soiling shape the group's hourly series). When one of them is
 #: sampled, ``evaluate`` uses the hourly method: decided from the inputs given, never from
 #: which samples happen to share a chunk, so results do not depend on chunking.
@@ -124,7 +125,7 @@ def load_weather_for(case: Case) -> Weather:
     """Read the case's weather file (or the bundled one) and check its time zone.
 
     With ``[site.monthly]`` the hourly year is synthesised from the monthly values instead
-    (seeded, reproducible; a screening tool, see :mod:`lcoe.synth_weather`).
+    (seeded, reproducible; a screening tool, see :mod:`lcoe.site.synth_weather`).
     """
     if case.monthly is not None:
         weather = synthetic_weather(case)
@@ -141,7 +142,7 @@ def synthetic_weather(case: Case) -> Weather:
     """Hourly weather synthesised from the case's ``[site.monthly]`` values."""
     import pandas as pd
 
-    from .synth_weather import SYNTHETIC_WEATHER_WARNING, synthesize_year
+    from lcoe.site.synth_weather import SYNTHETIC_WEATHER_WARNING, synthesize_year
 
     m = case.monthly
     tz = case["site.timezone"]
@@ -191,7 +192,7 @@ def base_params(case: Case, n_samples: int = 1) -> dict:
         out[f"costs.replacement[{i}].cost_per_kw"] = np.full(n_samples, r.cost_per_kw)
         out[f"costs.replacement[{i}].every_years"] = np.full(n_samples, float(r.every_years))
     if case.moving_parts:
-        from .moving_parts import base_values
+        from lcoe.money.reliability import base_values
 
         for path, value in base_values(case.moving_parts).items():
             out[path] = np.full(n_samples, value)
@@ -208,7 +209,7 @@ def geometry_paths(case: Case) -> tuple[str, ...]:
 def _geometry(case: Case, params: Mapping, i: int) -> Geometry:
     body = None
     if case["plant.mount"] == "body":
-        from .bodies import body_spec
+        from lcoe.plant.body_shapes import body_spec
 
         body = body_spec(case, {p: params[p][i] for p in BODY_GEOMETRY_PATHS if p in params})
     mount = case["plant.mount"]
@@ -227,7 +228,7 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     """Energy of the samples ``idx`` that share one geometry, with areas and body count."""
     geometry = _geometry(case, full, int(idx[0]))
     if geometry.rows:  # a sampled row height or width must still clear the ground
-        from .rows import lowest_row_height_m
+        from lcoe.case.rules import lowest_row_height_m
 
         tilt = geometry.tilt_deg if geometry.mount == "fixed" else geometry.max_rotation_deg
         lowest = lowest_row_height_m(geometry.row_width_m, tilt)
@@ -241,17 +242,13 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     parasitic_kw, n_bodies = None, None
     cell_area = dc_kw / eff
     if geometry.body is not None:
-        from .bodies import count_and_land
+        from lcoe.plant.body_shapes import count_and_land
 
         n_bodies, land = count_and_land(geometry.body, dc_kw, eff)
         if geometry.body.rotating:
             parasitic_kw = n_bodies * full["plant.body.drive_power_w"][idx] / 1000.0
     elif geometry.mount == "concentrator":
-        from .tech.concentrator_model import (
-            CONCENTRATOR_PARAMS,
-            concentrator_beam,
-            rated_efficiency,
-        )
+        from lcoe.plant.concentrator import CONCENTRATOR_PARAMS, concentrator_beam, rated_efficiency
 
         poa = concentrator_beam(case, site.weather, site.sun)
         sub.update({k: full[k][idx] for k in CONCENTRATOR_PARAMS})
@@ -286,23 +283,6 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     return replace(energy, cell_area_m2=cell_area, land_area_m2=land, n_bodies=n_bodies)
 
 
-def distinct_rows(keys: np.ndarray, any_repeat: bool = False):
-    """Distinct rows of ``keys`` (n, k) and the index of each row's distinct row (n,).
-
-    Shortcuts the sort of ``np.unique(axis=0)`` in the common cases: every column constant
-    (one row), or, with ``any_repeat``, some column without repeated values (no two rows
-    alike: the rows themselves, in order).
-    """
-    n = keys.shape[0]
-    varying = [j for j in range(keys.shape[1]) if np.any(keys[:, j] != keys[0, j])]
-    if not varying:
-        return keys[:1], np.zeros(n, dtype=np.intp)
-    if any_repeat and any(np.unique(keys[:, j]).size == n for j in varying):
-        return keys, np.arange(n)
-    uniq, inverse = np.unique(keys, axis=0, return_inverse=True)
-    return uniq, inverse.reshape(-1)
-
-
 def _take(energy: EnergyResult, rows: np.ndarray) -> EnergyResult:
     """The per-sample arrays of ``energy`` at ``rows`` (distinct physics rows -> samples)."""
     return replace(energy, annual_kwh=energy.annual_kwh[rows],
@@ -318,14 +298,14 @@ def _soiling(case: Case, site: Site, full: Mapping, idx: np.ndarray):
     if model == "none":
         return None
     if model == "monthly":
-        from .soiling import monthly_history
+        from lcoe.plant.soiling import monthly_history
 
         hist = monthly_history(case.soiling_monthly, site.weather.data.index.month)
         return hist, full["plant.soiling.scale"][idx], np.ones(idx.size)
     i = int(idx[0])  # the samples of a group share the dirt history (grouped like geometry)
     key = ("kimber",) + tuple(float(full[p][i]) for p in KIMBER_HISTORY_PATHS)
     if key not in site._poa_cache:
-        from .soiling import kimber_history
+        from lcoe.plant.soiling import kimber_history
 
         site._poa_cache[key] = kimber_history(rain_series(site.weather, case.source), *key[1:])
     return (site._poa_cache[key], full["plant.soiling.rate_per_day"][idx],
@@ -365,11 +345,11 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     keep_hourly : bool
         Keep hourly delivered power (for checks; memory grows with n_s).
     guard : bool
-        Raise :class:`~lcoe.errors.ImplausibleResult` when a sample's result breaks physics
-        or is absurd (:func:`lcoe.plausibility.check_output`); False returns every sample and
+        Raise :class:`~lcoe.case.errors.ImplausibleResult` when a sample's result breaks physics
+        or is absurd (:func:`lcoe.case.plausibility.check_output`); False returns every sample and
         leaves the checks to the caller (the Monte Carlo counts failing trials).
     method : {"factored", "hourly"}
-        How :func:`lcoe.energy.simulate` sums the hours: the exact factored sums, each
+        How :func:`lcoe.plant.energy.simulate` sums the hours: the exact factored sums, each
         distinct row of physics inputs once (default; the hourly method when an input of
         :data:`SUMMED_PER_GROUP` is given), or every sample hour by hour (the reference; same
         results within 1e-12 relative).
@@ -423,7 +403,7 @@ def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
 
     Split from :func:`evaluate` so that the finance can be re-run on the same physics (e.g.
     at another capex per kW, which LCOE depends on affinely). Moving parts
-    (:mod:`lcoe.moving_parts`) add a ``moving_parts`` cost line and take the energy lost while
+    (:mod:`lcoe.money.reliability`) add a ``moving_parts`` cost line and take the energy lost while
     parts are down off each year's energy.
 
     Parameters
@@ -447,7 +427,7 @@ def cash_flow(case: Case, params: Mapping, energy: EnergyResult,
         return build_cashflow(params, case.replacements, life, e_by_year)
     from dataclasses import replace
 
-    from .moving_parts import moving_part_lines
+    from lcoe.money.reliability import moving_part_lines
 
     cost, lost, _ = moving_part_lines(case.moving_parts, params, energy.n_bodies, life)
     e_by_year[:, 1:] *= 1.0 - lost

@@ -13,7 +13,7 @@ DEMO = INPUTS / "demo_fixed_tilt.toml"
 
 @pytest.fixture(scope="session")
 def demo_case():
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
 
     return load_case(DEMO)
 
@@ -27,7 +27,7 @@ def demo_site(demo_case):
 
 @pytest.fixture(scope="session")
 def bundled_weather():
-    from lcoe.weather import bundled_weather_path, read_weather
+    from lcoe.site.weather import bundled_weather_path, read_weather
 
     return read_weather(bundled_weather_path())
 

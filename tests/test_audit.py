@@ -1,10 +1,10 @@
-"""Tests for lcoe.tech.audit: physics limits applied to results and claims."""
+"""Tests for lcoe.study.audit: physics limits applied to results and claims."""
 
 import pvlib
 import pytest
 
-from lcoe.errors import InputError
-from lcoe.tech import audit as au
+from lcoe.case.errors import InputError
+from lcoe.study import audit as au
 
 # An invented flat-plate case: 100 m2 of 21 % cells receiving 2,000 kWh/m2 a year.
 NORMAL = dict(

@@ -1,13 +1,14 @@
-"""Tests of lcoe.bank.metrics: the project-finance cash flow and the break-even tariff."""
+"""Tests of lcoe.money.metrics: the project-finance cash flow and the break-even tariff."""
 
 import numpy as np
 import numpy_financial as npf
 import pytest
 
-from lcoe.bank.debt import size_debt
-from lcoe.bank.metrics import breakeven_tariff, project_finance
-from lcoe.bank.tax import apply_tax_credits, tax_with_loss_carryforward
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.money.breakeven import breakeven_tariff
+from lcoe.money.debt import size_debt
+from lcoe.money.metrics import project_finance
+from lcoe.money.tax import apply_tax_credits, tax_with_loss_carryforward
 
 
 def test_worked_example_by_hand():

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from conftest import INPUTS, MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 
 LENDER = INPUTS / "lender_single_axis.toml"
 
@@ -23,7 +23,7 @@ tenor_years = 15
 
 @pytest.fixture(scope="module")
 def lender_result():
-    from lcoe.runner import run_case
+    from lcoe.study.run import run_case
 
     return run_case(LENDER, samples=300, sobol_base=0)
 
@@ -48,8 +48,8 @@ def test_summary_block(lender_result):
 def test_binding_constraint_is_met_exactly(lender_result):
     # Sizing identity (DOMAIN.md section 3): the binding constraint's case has its minimum DSCR
     # equal to its target; all other constraints are met.
-    from lcoe.bank.metrics import project_finance
-    from lcoe.bankability import finance_inputs
+    from lcoe.money.metrics import project_finance
+    from lcoe.study.lender_case import finance_inputs
 
     bank = lender_result.extras["bankability"]
     f = bank.finance
@@ -62,7 +62,7 @@ def test_binding_constraint_is_met_exactly(lender_result):
     assert abs(f.debt_balance[0, -1]) < 1e-6 * f.debt[0]
     # P99 case with the same loan keeps DSCR >= 1.00 (its constraint)
     fi = finance_inputs(lender_result.case, lender_result.base)
-    from lcoe.bankability import _tax_debt_kwargs
+    from lcoe.study.lender_case import _tax_debt_kwargs
 
     p99 = project_finance(revenue=fi["revenue"] * bank.factors["P99_1yr"], opex=fi["opex"],
                           renewals=fi["renewals"],
@@ -73,9 +73,9 @@ def test_binding_constraint_is_met_exactly(lender_result):
 
 def test_breakeven_tariff_gives_target_irr(lender_result):
     # Feeding the break-even tariff back gives the equity its target IRR (within 1e-6).
-    from lcoe.bank.metrics import BASE_CASE, project_finance
-    from lcoe.bankability import _tax_debt_kwargs, finance_inputs
-    from lcoe.finance import irr
+    from lcoe.money.irr import irr
+    from lcoe.money.metrics import BASE_CASE, project_finance
+    from lcoe.study.lender_case import _tax_debt_kwargs, finance_inputs
 
     case, bank = lender_result.case, lender_result.extras["bankability"]
     fi = finance_inputs(case, lender_result.base)
@@ -129,8 +129,8 @@ def test_breakeven_in_the_contracts_own_escalation(lender_result):
     # The year-1 contract price escalating at the contract's rate (merchant price after the
     # contract) that gives the equity its target IRR: fed back, the equity NPV at the target
     # rate is zero (within 1e-6 of the capex)
-    from lcoe.bank.metrics import BASE_CASE, project_finance
-    from lcoe.bankability import _tax_debt_kwargs, finance_inputs, price_by_year
+    from lcoe.money.metrics import BASE_CASE, project_finance
+    from lcoe.study.lender_case import _tax_debt_kwargs, finance_inputs, price_by_year
 
     case, bank = lender_result.case, lender_result.extras["bankability"]
     fi = finance_inputs(case, lender_result.base)

@@ -7,9 +7,9 @@ import tomllib
 import pytest
 from conftest import MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
-from lcoe.template import template_text
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
+from lcoe.case.template import template_text
 
 
 def _bad(tmp_path, text):
@@ -72,7 +72,7 @@ def test_invalid_toml(tmp_path):
 
 
 def test_template_is_valid_and_complete(tmp_path):
-    from lcoe.schema import FIELDS
+    from lcoe.case.schema import FIELDS
 
     text = template_text()
     case = load_case(write_case(tmp_path, text))
@@ -105,7 +105,7 @@ def test_monthly_climate_builds_synthetic_weather(tmp_path):
     assert w.fmt == "synthetic" and w.n_hours == 8760 and w.notes
     daily = w.data["ghi"].groupby(w.data.index.month).sum() / 1000 / \
         w.data["ghi"].groupby(w.data.index.month).size() * 24
-    # The synthetic year reproduces the monthly means (lcoe.synth_weather contract).
+    # The synthetic year reproduces the monthly means (lcoe.site.synth_weather contract).
     assert abs(daily.iloc[0] / 2.6 - 1) < 0.01
 
 
@@ -120,7 +120,7 @@ def test_monthly_dni_sets_each_months_beam(tmp_path):
     case = load_case(write_case(tmp_path, text))
     d = load_weather_for(case).data
     days = d.groupby(d.index.month).size().to_numpy() / 24
-    # The synthesis meets the given monthly DNI (lcoe.synth_weather contract) and the GHI.
+    # The synthesis meets the given monthly DNI (lcoe.site.synth_weather contract) and the GHI.
     dni = d["dni"].groupby(d.index.month).sum().to_numpy() / 1000 / days
     assert dni == pytest.approx(case.monthly["dni_kwh_m2_day"], rel=1e-9)
     ghi = d["ghi"].groupby(d.index.month).sum().to_numpy() / 1000 / days

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lcoe.case import Replacement
-from lcoe.cashflow import build_cashflow, energy_by_year
-from lcoe.finance import crf
+from lcoe.case.reader import Replacement
+from lcoe.money.cashflow import build_cashflow, energy_by_year
+from lcoe.money.finance import crf
 
 
 def _params(**over):
@@ -52,7 +52,7 @@ def test_present_values_match_numpy_financial():
 
 def test_fisher_real_rate():
     # DOMAIN.md: nominal 5 %, inflation 2 % -> real 2.94118 % (Fisher equation, analytic).
-    from lcoe.finance import real_rate
+    from lcoe.money.finance import real_rate
 
     assert real_rate(0.05, 0.02) == pytest.approx(0.0294118, abs=1e-7)
 

@@ -29,7 +29,7 @@ def test_numbers_stay_numbers_and_plain_text_is_untouched():
 
 
 def test_workbook_and_csv_share_one_rule():
-    from lcoe.export import workbook
+    from lcoe.export import cells as workbook
 
     assert workbook.FORMULA_START is FORMULA_START
 
@@ -58,7 +58,7 @@ def test_sweep_csv_names_are_neutralised_numbers_are_not(tmp_path):
 
 
 def test_trials_csv_is_numeric_with_one_header(tmp_path):
-    from lcoe.export.trials import write_trials_csv
+    from lcoe.export.trials_csv import write_trials_csv
 
     names = ("costs.capex_per_kw", "=evil")
     t = SimpleNamespace(n=3, names=names, X=np.array([[1.0, -2.0], [3.0, 4.0], [5.0, 6.0]]),

@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from conftest import MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.compare import build_design, drivers, run_comparison, study_runs
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import cash_flow, evaluate, prepare
+from lcoe.study.compare import build_design, drivers, run_comparison, study_runs
 from lcoe.study.shared import SharedInputs
 
 UNCERTAIN = """
@@ -98,7 +98,11 @@ def test_shared_and_case_specific_columns(tmp):
 def test_breakeven_values_solve_the_claim_exactly(demo_case, demo_site):
     # Analytic: LCOE is affine in capex per kW and A/s + B in a factor s on the energy; the
     # solved capex and energy factor reproduce the target LCOE when put back into the finance.
-    from lcoe.claims import breakeven_capex_per_kw, breakeven_energy_scale, energy_scale_terms
+    from lcoe.study.claim_ratio import (
+        breakeven_capex_per_kw,
+        breakeven_energy_scale,
+        energy_scale_terms,
+    )
 
     capex = np.array([800.0, 1000.0, 1300.0])
     out = evaluate(demo_case, demo_site, {"costs.capex_per_kw": capex,
@@ -168,7 +172,7 @@ def test_conflicting_correlations_refused(tmp):
 
 
 def test_claims_are_audited(tmp):
-    # Published limit (Shockley & Queisser 1961, via lcoe.tech.audit): 5,000 kWh/kW a year on
+    # Published limit (Shockley & Queisser 1961, via lcoe.study.audit): 5,000 kWh/kW a year on
     # cells that receive about 1,700 kWh/m2 needs more than the one-sun limit.
     claim = "\n[claim]\nenergy_per_kw_kwh = 5000.0\nenergy_ratio = 1.05\nlcoe_ratio = 0.5\n"
     a, b = _case(tmp, "a"), _case(tmp, "b", extra=claim)

@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from conftest import MINIMAL_CASE, ROOT, write_case
 
-from lcoe.case import load_case
-from lcoe.compare import run_comparison
-from lcoe.compare_voi import value_of_information
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
+from lcoe.study.compare import run_comparison
+from lcoe.study.value_of_information import value_of_information
 
 UNCERTAIN = """
 [uncertain]

@@ -1,10 +1,10 @@
-"""Tests for lcoe.tech.concentrator: acceptance, receiver energy balance, power bound."""
+"""Tests for lcoe.plant.concentrator: acceptance, receiver energy balance, power bound."""
 
 import numpy as np
 import pytest
 
-from lcoe.errors import InputError
-from lcoe.tech import concentrator as cpv
+from lcoe.case.errors import InputError
+from lcoe.plant import concentrator as cpv
 
 BASE = dict(
     aperture_area_m2=1.2,

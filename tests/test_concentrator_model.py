@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from conftest import MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
 
 CPV = """
@@ -79,7 +79,7 @@ def test_actual_optics_scale_output_not_plant_size(tmp_path, site):
 def test_beam_outside_acceptance_is_lost(tmp_path, site):
     # Analytic: with the pointing error beyond the acceptance half-angle no light reaches the
     # cells.
-    from lcoe.tech.concentrator_model import CONCENTRATOR_PARAMS, concentrator_beam
+    from lcoe.plant.concentrator import CONCENTRATOR_PARAMS, concentrator_beam
 
     case = _case(tmp_path)
     beam = concentrator_beam(case, site.weather, site.sun)

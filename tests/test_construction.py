@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from lcoe.bank.construction import construction_financing, sources_and_uses
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.money.construction import construction_financing, sources_and_uses
 
 
 def test_idc_capitalised_two_draws_by_hand():

@@ -1,19 +1,13 @@
-"""Tests of lcoe.bank.debt: sizing, schedule, DSCR and LLCR."""
+"""Tests of lcoe.money.debt: sizing, schedule, DSCR and LLCR."""
 
 import numpy as np
 import numpy_financial as npf
 import pytest
 
-from lcoe.bank.debt import (
-    debt_schedule,
-    dscr,
-    llcr,
-    size_annuity,
-    size_debt,
-    size_sculpted,
-)
-from lcoe.errors import InputError
-from lcoe.finance import crf
+from lcoe.case.errors import InputError
+from lcoe.money.debt import size_annuity, size_debt, size_sculpted
+from lcoe.money.finance import crf
+from lcoe.money.repayment import debt_schedule, dscr, llcr
 
 
 def _irregular_cfads(n_samples=4, n_years=20, seed=5):

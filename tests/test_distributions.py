@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
 from lcoe.uncertainty.distributions import Distribution, parse_distribution
 
 SOURCE = "case.toml"

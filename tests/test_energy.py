@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from lcoe.energy import dc_power_kw, faiman_cell_temperature, inverter_ac_kw
-from lcoe.irradiance import Geometry, orientation, plane_of_array, solar_position
+from lcoe.plant.energy import dc_power_kw, faiman_cell_temperature, inverter_ac_kw
+from lcoe.site.irradiance import Geometry, orientation, plane_of_array, solar_position
 
 
 def _params(**over):
@@ -58,7 +58,7 @@ def _modelchain_ac_kw(weather, geometry: Geometry, p):
 def test_matches_pvlib_modelchain(bundled_weather, geometry):
     # Cross-implementation check: pvlib ModelChain (pvwatts DC/AC, Faiman, physical IAM, Perez)
     # configured with the same parameters; issue target: annual within 0.3 %.
-    from lcoe.energy import simulate
+    from lcoe.plant.energy import simulate
 
     w = bundled_weather
     sun = solar_position(w, w.latitude_deg, w.longitude_deg, w.altitude_m)
@@ -137,8 +137,8 @@ def test_vectorised_equals_one_by_one(demo_case, demo_site):
 
 
 def test_loss_chain_is_monotone_and_pr_sensible(demo_case, demo_site):
-    from lcoe.energy import LOSS_CHAIN
     from lcoe.model import evaluate
+    from lcoe.plant.energy import LOSS_CHAIN
 
     e = evaluate(demo_case, demo_site).energy
     chain = [e.loss_chain_kwh[k][0] for k, _ in LOSS_CHAIN]

@@ -17,8 +17,9 @@ import warnings
 import pytest
 from conftest import DEMO, ROOT
 
+from lcoe.case.errors import collect_warnings
 from lcoe.cli import main
-from lcoe.errors import collect_warnings, describe
+from lcoe.cli.guard import describe
 
 RUN = ["run", str(DEMO), "--quiet", "--samples", "0"]
 
@@ -41,7 +42,7 @@ def _untouched(out, tmp_path):
     (errno.EDQUOT, "disk quota exceeded"),
 ])
 def test_disk_full_and_forbidden_writes_are_one_line(tmp_path, capsys, monkeypatch, code, words):
-    import lcoe.export.workbook as wb
+    from lcoe.export.workbook import book as wb
 
     def full(result, path):
         path.write_bytes(b"PK half a workbook")
@@ -144,7 +145,7 @@ def test_ctrl_c_at_any_moment_of_start_up_and_run(tmp_path, delay_s):
 
 
 def test_library_warnings_go_to_notes_not_terminal(tmp_path, capsys, monkeypatch):
-    import lcoe.runner as runner
+    from lcoe.study import run as runner
 
     real = runner.run_case
 

@@ -1,7 +1,7 @@
 """The factored engine against the direct hourly evaluation: same numbers for every mount.
 
 ``model.evaluate(method="hourly")`` evaluates every sample hour by hour (the reference
-implementation); the default sums factored terms (:mod:`lcoe.factored`). Random parameter sets
+implementation); the default sums factored terms (:mod:`lcoe.plant.factored`). Random parameter sets
 go through both, and every output must agree within 1e-12 relative.
 """
 
@@ -14,7 +14,7 @@ import pytest
 from conftest import MINIMAL_CASE, write_case
 from test_concentrator_model import CPV
 
-from lcoe.case import load_case
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -77,8 +77,8 @@ def test_groups_of_rear_factor_and_soiling(demo):
     # the sums per group (one rear factor and soiling level each): most samples share one,
     # a few have their own; straight through energy.simulate (evaluate sends sampled rear
     # and soiling inputs to the hourly method, see the next test)
-    from lcoe.energy import ENERGY_PARAMS, simulate
     from lcoe.model import _geometry, _soiling, base_params
+    from lcoe.plant.energy import ENERGY_PARAMS, simulate
 
     case, site = demo
     case = case.with_values({"plant.bifaciality": 0.7})
@@ -161,8 +161,8 @@ def test_repeated_physics_rows_and_small_sets(demo):
 
 
 def test_every_energy_parameter_is_handled_by_the_sums():
-    from lcoe.energy import ENERGY_PARAMS
-    from lcoe.factored import PARAMS
+    from lcoe.plant.energy import ENERGY_PARAMS
+    from lcoe.plant.factored import PARAMS
 
     assert set(ENERGY_PARAMS) == PARAMS
 
@@ -185,11 +185,11 @@ def test_cached_hours_and_groups_follow_the_soiling_profile(demo, tmp_path):
 
 def test_many_wind_speeds_are_summed_hour_by_hour(demo, monkeypatch):
     # the bundled file has 52 distinct wind speeds; below that limit the hourly method runs
-    import lcoe.energy
+    import lcoe.plant.energy
 
     case, site = demo
     params = _sample(np.random.default_rng(11), 20, RANGES)
-    monkeypatch.setattr(lcoe.energy, "MAX_WIND_SPEEDS", 10)
+    monkeypatch.setattr(lcoe.plant.energy, "MAX_WIND_SPEEDS", 10)
     got = evaluate(case, site, params).energy.loss_chain_kwh
     ref = evaluate(case, site, params, method="hourly").energy.loss_chain_kwh
     for k, v in ref.items():

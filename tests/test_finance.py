@@ -1,4 +1,4 @@
-"""Tests of lcoe.finance: rates, discounting, CRF, NPV, IRR and LCOE."""
+"""Tests of lcoe.money.finance: rates, discounting, CRF, NPV, IRR and LCOE."""
 
 from decimal import Decimal, getcontext
 
@@ -6,19 +6,18 @@ import numpy as np
 import numpy_financial as npf
 import pytest
 
-from lcoe.errors import InputError
-from lcoe.finance import (
+from lcoe.case.errors import InputError
+from lcoe.money.finance import (
     annuity_payment,
     crf,
     discount_factors,
-    irr,
-    investment_irr,
     lcoe_from_flows,
     nominal_rate,
     npv,
     real_rate,
     sign_changes,
 )
+from lcoe.money.irr import investment_irr, irr
 
 # numpy-financial docstring example (cross-implementation, verified in DOMAIN.md section 3)
 DOC_FLOWS = [-100, 39, 59, 55, 20]
@@ -148,7 +147,7 @@ def test_irr_only_rising_roots_has_no_investment_root():
 
 
 def test_mirr_numpy_financial_docstring_and_rows():
-    from lcoe.finance import mirr
+    from lcoe.money.irr import mirr
 
     flows = [-4500, -800, 800, 800, 600, 600, 800, 800, 700, 3000]
     # cross-implementation: numpy_financial.mirr docstring example -> 0.0665972
@@ -244,7 +243,8 @@ def test_lcoe_vectorised_over_samples():
 
 
 def test_investment_irr_takes_the_root_where_npv_turns_negative():
-    from lcoe.finance import investment_irr, npv
+    from lcoe.money.finance import npv
+    from lcoe.money.irr import investment_irr
 
     # classic textbook flows -100, +230, -132: roots 10 % and 20 % (DOMAIN.md section 8); the
     # NPV turns from + to - as the rate rises at 20 %, the investment root
@@ -277,7 +277,7 @@ def test_one_irr_rule_for_one_flow_and_many():
 
 
 def test_irr_text_names_the_investment_root_and_every_root():
-    from lcoe.finance import irr_text
+    from lcoe.money.irr import irr_text
 
     res = irr([-100.0, 230.0, -132.0])
     assert irr_text(res.value, res.roots, res.reason) == \

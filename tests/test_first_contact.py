@@ -13,8 +13,8 @@ import tomllib
 import pytest
 from conftest import DEMO, ROOT
 
+from lcoe.case.template import KINDS, template_text
 from lcoe.cli import main
-from lcoe.template import KINDS, template_text
 
 HEAVY = ("pvlib", "matplotlib", "openpyxl", "scipy", "SALib", "pandas", "numpy")
 
@@ -127,8 +127,9 @@ def test_check_catches_a_bad_correlation_and_tax_schedule(tmp_path, capsys):
 
 
 def test_progress_names_each_phase(tmp_path):
-    from lcoe.progress import Progress
-    from lcoe.runner import run_case, write_outputs
+    from lcoe.cli.progress import Progress
+    from lcoe.export.run_outputs import write_outputs
+    from lcoe.study.run import run_case
 
     stream = io.StringIO()
     seen = []

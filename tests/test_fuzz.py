@@ -34,9 +34,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import lcoe.model
+from lcoe.case.schema import FIELDS
 from lcoe.cli import main
-from lcoe.schema import FIELDS
-from lcoe.weather import bundled_weather_path, read_weather
+from lcoe.site.weather import bundled_weather_path, read_weather
 
 TOTAL = int(os.environ.get("LCOE_FUZZ_EXAMPLES", "0") or 0)
 settings.register_profile("ci", max_examples=150, deadline=None, derandomize=True, database=None,
@@ -51,7 +51,7 @@ def _examples(share: float, ci: int) -> settings:
     return settings(base, max_examples=max(1, int(TOTAL * share)) if TOTAL else ci)
 
 
-_real_solar_position = lcoe.model.solar_position
+_real_solar_position = lcoe.site.irradiance.solar_position
 _SUN: dict = {}
 
 

@@ -15,11 +15,11 @@ import pandas as pd
 import pytest
 from conftest import INPUTS, MINIMAL_CASE
 
+from lcoe.case.errors import MAX_LINE_CHARS, InputError, short_text
+from lcoe.case.plausibility import PR_MAX, energy_problems
 from lcoe.cli import main
-from lcoe.energy import EnergyResult
-from lcoe.errors import MAX_LINE_CHARS, InputError, short_text
-from lcoe.plausibility import PR_MAX, energy_problems
-from lcoe.weather import bundled_weather_path, read_weather
+from lcoe.plant.energy import EnergyResult
+from lcoe.site.weather import bundled_weather_path, read_weather
 
 FAST = ["--samples", "0", "--quiet", "--force"]
 
@@ -132,10 +132,10 @@ def test_monte_carlo_stops_on_impossible_trials(tmp_path, capsys):
 def test_monte_carlo_counts_impossible_trials_over_the_whole_run(tmp_path):
     # the count in the error is that of the run, not of the chunk where a failure was met:
     # the trials do not depend on the chunk size, so 4 chunks of 10 give the count of 1 of 40
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
     from lcoe.model import prepare
     from lcoe.study.single import monte_carlo
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     case = load_case(edited(tmp_path, INPUTS / "demo_fixed_tilt.toml", append=(
         '\n[uncertain."costs.salvage_per_kw"]\ndist = "uniform"\nlow = 0\nhigh = 2e5\n')))

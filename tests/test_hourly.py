@@ -10,11 +10,10 @@ import pandas as pd
 import pvlib
 import pytest
 
-from lcoe import energy as energy_module
 from lcoe.cli import main
-from lcoe.export.hourly import write_hourly
-from lcoe.hourly import LOSS_COLUMNS, hourly_table, monthly_tables
-from lcoe.runner import run_case
+from lcoe.export.hourly import LOSS_COLUMNS, hourly_table, monthly_tables, write_hourly
+from lcoe.plant import energy as energy_module
+from lcoe.study.run import run_case
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "inputs" / "demo_fixed_tilt.toml"

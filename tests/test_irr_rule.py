@@ -12,9 +12,9 @@ import numpy_financial as npf
 import pytest
 from conftest import INPUTS
 
-from lcoe.case import load_case
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate
-from lcoe.runner import run_case
+from lcoe.study.run import run_case
 from lcoe.study.trials import prepared, split_inputs
 
 LENDER = INPUTS / "lender_single_axis.toml"

@@ -13,7 +13,7 @@ import pytest
 from conftest import DEMO, INPUTS
 from helpers.browser import chromium_path, render
 
-from lcoe.labels import input_label
+from lcoe.case.labels import input_label
 
 #: A dotted input key or an output key, as the case file and the JSON spell them.
 KEY = re.compile(r"\b(?:case|site|plant|costs|finance|revenue|tax|debt|equity|claim|energy)"
@@ -69,7 +69,8 @@ def test_labels_come_from_the_schema_with_units():
 @pytest.mark.parametrize("case", [DEMO, INPUTS / "lender_single_axis.toml"])
 def test_run_report_and_charts_show_no_dotted_key(tmp_path, case):
     from lcoe.export.plots import build_figures
-    from lcoe.runner import run_case, write_outputs
+    from lcoe.export.run_outputs import write_outputs
+    from lcoe.study.run import run_case
 
     result = run_case(case, samples=64, sobol_base=16)
     write_outputs(result, tmp_path / "o")
@@ -112,10 +113,10 @@ def test_compare_page_and_charts_show_no_dotted_key(demo_compare):
 
 
 def test_compare_colours_and_one_bound_per_ratio():
-    from lcoe.case import load_case
-    from lcoe.compare import run_comparison
+    from lcoe.case.reader import load_case
     from lcoe.export.compare_outputs import build_figures
     from lcoe.export.plots import CASE_COLORS
+    from lcoe.study.compare import run_comparison
 
     cases = [load_case(INPUTS / n) for n in ("demo_fixed_tilt.toml",
                                              "compare_single_axis.toml",
@@ -164,7 +165,7 @@ def test_tornado_draws_both_bars_when_both_percentiles_fall_on_one_side():
 def test_sobol_noise_reads_as_zero():
     # An input that does not enter the output at all gives indices of rounding size only:
     # they read as exactly 0 and are not flagged (analytic: S1 = ST = 0 for it).
-    from lcoe.rng import make_rng
+    from lcoe.case.rng import make_rng
     from lcoe.uncertainty.distributions import Distribution
     from lcoe.uncertainty.sensitivity import sobol_analyze, sobol_sample
 

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from conftest import INPUTS, write_case
 
-from lcoe.bank.debt import size_debt
-from lcoe.bank.metrics import project_finance
+from lcoe.money.debt import size_debt
+from lcoe.money.metrics import project_finance
 
 LENDER = INPUTS / "lender_single_axis.toml"
 
@@ -21,8 +21,9 @@ def _lender_variant(tmp_path, old: str, new: str, name: str = "stress.toml"):
 
 
 def _run_and_write(path, out):
+    from lcoe.export.run_outputs import write_outputs
     from lcoe.export.summary import summary_dict
-    from lcoe.runner import run_case, write_outputs
+    from lcoe.study.run import run_case
 
     result = run_case(path, samples=16, sobol_base=0)
     write_outputs(result, out)

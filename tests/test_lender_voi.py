@@ -6,11 +6,11 @@ import numpy as np
 import pytest
 from conftest import INPUTS, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
-from lcoe.lender_voi import resource_information_value
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
-from lcoe.uncertainty.spec import read_spec
+from lcoe.study.spec import read_spec
+from lcoe.study.value_of_information import resource_information_value
 
 LENDER = INPUTS / "lender_single_axis.toml"
 
@@ -64,8 +64,9 @@ def test_lender_report_and_workbook_show_the_campaign_value(tmp_path):
     # the gains, the sigma curve and the binding constraint at every point.
     from openpyxl import load_workbook
 
+    from lcoe.export.run_outputs import write_outputs
     from lcoe.export.voi_outputs import RESOURCE_SHEET
-    from lcoe.runner import run_case, write_outputs
+    from lcoe.study.run import run_case
 
     result = run_case(LENDER, samples=0)
     write_outputs(result, tmp_path / "o")

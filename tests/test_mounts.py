@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from conftest import MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
 
 BODY = """
@@ -52,7 +52,7 @@ def test_poa_dual_above_single_above_fixed(demo_case, demo_site):
 def test_dual_axis_faces_the_sun(demo_case, demo_site):
     # Analytic: with the normal on the sun the angle of incidence is 0 and the beam on the
     # plane equals DNI (pvlib's beam component is DNI cos(aoi)).
-    from lcoe.irradiance import Geometry, orientation, plane_of_array
+    from lcoe.site.irradiance import Geometry, orientation, plane_of_array
 
     tilt, az = orientation(Geometry("dual_axis", 0.0, 180.0), demo_site.sun)
     poa = plane_of_array(demo_site.weather, demo_site.sun, tilt, az, "perez")
@@ -185,7 +185,7 @@ def test_body_table_needs_body_mount(tmp_path):
 def test_sky_view_fraction_uniform_horizon(b_deg):
     # Analytic view factors under a uniform horizon at elevation b: a horizontal plane keeps
     # cos^2 b of its sky, a vertical one (1/2 - b/pi - sin(2b)/(2 pi)) / (1/2).
-    from lcoe.bodies import sky_view_fraction
+    from lcoe.plant.body_light import sky_view_fraction
 
     b = np.radians(b_deg)
     got = sky_view_fraction(np.array([0.0, 90.0, 90.0]), np.array([0.0, 0.0, 135.0]),
@@ -198,7 +198,7 @@ def test_sky_view_fraction_uniform_horizon(b_deg):
 def test_horizon_of_the_nearest_neighbour():
     # Analytic: looking north along a grid axis the nearest neighbour's face is at
     # spacing - width/2 and its top, h/2 above the observer, at atan((h/2) / distance).
-    from lcoe.bodies import horizon_elevation_deg
+    from lcoe.plant.body_light import horizon_elevation_deg
 
     got = horizon_elevation_deg(2.0, 0.5, 3.0, np.array([0.0, 90.0, 180.0, 30.0]))
     np.testing.assert_allclose(got[:3], np.degrees(np.arctan(1.0 / 2.75)), rtol=1e-12)

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from conftest import MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import cash_flow, evaluate, prepare
 
 PART = """
@@ -52,7 +52,7 @@ def test_exponential_costs_and_lost_energy(tmp_path, site):
 
 def test_weibull_shape_one_matches_exponential(tmp_path, site):
     # Analytic: a Weibull life of shape 1 is exponential with mean = scale; the numerical
-    # renewal function agrees to its documented accuracy (relative 5e-7, lcoe.tech.reliability).
+    # renewal function agrees to its documented accuracy (relative 5e-7, lcoe.money.reliability).
     expo = evaluate(_case(tmp_path, name="e.toml"), site).cashflow.lines["moving_parts"][0]
     weib = evaluate(_case(tmp_path, life="shape = 1.0\nscale_years = 8.0", name="w.toml"),
                     site).cashflow.lines["moving_parts"][0]
@@ -62,7 +62,7 @@ def test_weibull_shape_one_matches_exponential(tmp_path, site):
 def test_wear_out_fails_less_early_then_converges(tmp_path, site):
     # Renewal theory (Cox 1962): with wear-out (k > 1) few parts fail in the first years;
     # the yearly rate tends to 1 / mean life.
-    from lcoe.tech.reliability import weibull_mean_years
+    from lcoe.money.reliability import weibull_mean_years
 
     case = _case(tmp_path, life="shape = 3.0\nscale_years = 8.0")
     line = evaluate(case, site).cashflow.lines["moving_parts"][0]
@@ -95,7 +95,7 @@ def test_lcoe_stays_affine_in_capex(tmp_path, site):
 
 
 def test_uncertain_part_inputs_run_through_the_study(tmp_path):
-    from lcoe.runner import run_case
+    from lcoe.study.run import run_case
 
     unc = ('\n[uncertain]\n"costs.moving_part[0].mean_years" = { dist = "triangular", '
            'low = 4, mode = 8, high = 12 }\n"costs.moving_part[0].damage_fraction" = '
@@ -123,7 +123,7 @@ def test_uncertain_part_inputs_run_through_the_study(tmp_path):
      '{ dist = "uniform", low = 1.0, high = 2.0 }\n', "moving_part"),
 ])
 def test_bad_moving_parts(tmp_path, life, extra, match):
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     with pytest.raises(InputError, match=match) as exc:
         read_spec(_case(tmp_path, life=life, extra=extra))

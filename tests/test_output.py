@@ -1,6 +1,7 @@
 """Publishing output folders: always entirely the old run or entirely the new one.
 
-Failures are injected at every step of :func:`lcoe.output.publish` (staging, writing, marker,
+Failures are injected at every step of :func:`lcoe.export.staging.publish` (staging, writing,
+marker,
 swap, the two-rename fallback, deleting the old folder; the one rename of a first run), by
 exception, by Ctrl-C and by SIGKILL of a child process; two processes race for one folder.
 """
@@ -20,9 +21,9 @@ from pathlib import Path
 import pytest
 from conftest import DEMO, ROOT
 
-from lcoe import output
-from lcoe.errors import InputError
-from lcoe.output import MARKER, publish, publish_file
+from lcoe.case.errors import InputError
+from lcoe.export import staging as output
+from lcoe.export.staging import MARKER, publish, publish_file
 
 OLD = {"summary.json": "old run", "trials.csv": "old trials", "old_plot.png": "old"}
 NEW = {"summary.json": "new run", "workbook.xlsx": "new book"}

@@ -18,7 +18,8 @@ from lcoe.export.plots import (
     figure_png,
     render_figures,
 )
-from lcoe.runner import run_case, write_outputs
+from lcoe.export.run_outputs import write_outputs
+from lcoe.study.run import run_case
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -92,9 +93,10 @@ def test_write_outputs_writes_pictures_and_report(study, tmp_path):
 
 
 def test_no_plotting_or_spreadsheet_library_at_import():
-    code = ("import sys, lcoe, lcoe.runner, lcoe.export.plots, lcoe.export.report, "
-            "lcoe.export.workbook, lcoe.export.workbook_sheets, lcoe.export.workbook_stats, "
-            "lcoe.export.readback; "
+    code = ("import sys, lcoe, lcoe.study.run, lcoe.export.plots, lcoe.export.report, "
+            "lcoe.export.workbook.layout, lcoe.export.workbook.book, "
+            "lcoe.export.workbook.yearly, lcoe.export.workbook.study_sheets, "
+            "lcoe.case.readback; "
             "print(sorted(m for m in ('matplotlib', 'openpyxl') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip()

@@ -12,13 +12,13 @@ import openpyxl
 import pytest
 from conftest import INPUTS
 
+from lcoe.case import readback
+from lcoe.case.errors import InputError
+from lcoe.case.readback import CASE_SHEET, case_from_workbook
 from lcoe.cli import main
-from lcoe.errors import InputError
-from lcoe.export import readback
-from lcoe.export.readback import case_from_workbook
-from lcoe.export.workbook import CASE_SHEET, write_workbook
+from lcoe.export.workbook.book import write_workbook
 from lcoe.model import evaluate
-from lcoe.runner import run_case
+from lcoe.study.run import run_case
 
 SENTINEL = 123456.789
 

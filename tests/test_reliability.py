@@ -1,11 +1,11 @@
-"""Tests for lcoe.tech.reliability: renewal function and moving-part costs."""
+"""Tests for lcoe.money.reliability: renewal function and moving-part costs."""
 
 import numpy as np
 import pytest
 from scipy.special import gamma
 
-from lcoe.errors import InputError
-from lcoe.tech import reliability as rel
+from lcoe.case.errors import InputError
+from lcoe.money import reliability as rel
 
 
 def test_exponential_expected_failures():

@@ -10,9 +10,9 @@ import pytest
 from conftest import DEMO, INPUTS
 from helpers.browser import chromium_path, render
 
-from lcoe.case import load_case
+from lcoe.case.reader import load_case
 from lcoe.export.report import report_html, write_report
-from lcoe.runner import run_case
+from lcoe.study.run import run_case
 
 HOSTILE_NAME = '<script>alert("x")</script> =HYPERLINK("http://example.invalid") & co'
 

@@ -5,9 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lcoe.bank.debt import cover_ratios_by_year, debt_schedule, size_debt
-from lcoe.bank.metrics import project_finance
-from lcoe.bank.reserves import maintenance_reserve, service_reserve
+from lcoe.money.debt import size_debt
+from lcoe.money.metrics import project_finance
+from lcoe.money.repayment import cover_ratios_by_year, debt_schedule
+from lcoe.money.reserves import maintenance_reserve, service_reserve
 
 
 def test_maintenance_reserve_accrues_ahead_by_hand():

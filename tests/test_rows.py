@@ -1,4 +1,5 @@
-"""Rows, rear side, diffuse angle loss, soiling and the loss chain (lcoe.rows, lcoe.soiling)."""
+"""Rows, rear side, diffuse angle loss, soiling and the loss chain (lcoe.site.rows,
+lcoe.plant.soiling)."""
 
 from __future__ import annotations
 
@@ -12,13 +13,13 @@ import pandas as pd
 import pytest
 from conftest import DEMO, INPUTS, MINIMAL_CASE, write_case
 
-from lcoe.case import load_case
-from lcoe.energy import LOSS_CHAIN
-from lcoe.errors import InputError
-from lcoe.irradiance import Geometry, orientation
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
-from lcoe.rows import diffuse_iam, row_irradiance
-from lcoe.soiling import kimber_history
+from lcoe.plant.energy import LOSS_CHAIN
+from lcoe.plant.soiling import kimber_history
+from lcoe.site.irradiance import Geometry, orientation
+from lcoe.site.rows import diffuse_iam, row_irradiance
 
 TRACKER = INPUTS / "tech_single_axis.toml"
 HSU_RAIN = Path(__import__("pvlib").__file__).parent / "data" / "soiling_hsu_example_inputs.csv"
@@ -250,7 +251,7 @@ def test_soiling_scale_is_an_uncertain_input(demo_case, demo_site):
     from dataclasses import replace
 
     from lcoe.study.single import monte_carlo
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     case = replace(demo_case, correlation=(), uncertain={"plant.soiling.scale": {
         "dist": "uniform", "low": 0.0, "high": 3.0}})
@@ -319,7 +320,7 @@ def test_sampled_row_height_below_the_ground_is_refused(demo_case, demo_site):
 
 
 def test_negative_rain_refused(tmp_path, bundled_weather):
-    from lcoe.weather import read_weather
+    from lcoe.site.weather import read_weather
 
     path, _ = _rain_weather_csv(tmp_path, bundled_weather)
     text = path.read_text().splitlines()

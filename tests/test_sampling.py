@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from lcoe.errors import InputError
-from lcoe.rng import make_rng
+from lcoe.case.errors import InputError
+from lcoe.case.rng import make_rng
 from lcoe.uncertainty.distributions import parse_distribution
 from lcoe.uncertainty.sampling import (
     correlation_matrix,

@@ -5,17 +5,19 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lcoe.rng import make_rng
-from lcoe.uncertainty.distributions import Distribution, parse_distribution
-from lcoe.uncertainty.sampling import correlation_matrix
-from lcoe.uncertainty.sensitivity import (
-    SobolResult,
+from lcoe.case.rng import make_rng
+from lcoe.uncertainty.analytic import (
     g_function,
     g_function_indices,
     ishigami,
     ishigami_indices,
     linear,
     linear_indices,
+)
+from lcoe.uncertainty.distributions import Distribution, parse_distribution
+from lcoe.uncertainty.sampling import correlation_matrix
+from lcoe.uncertainty.sensitivity import (
+    SobolResult,
     morris_screen,
     sobol_analyze,
     sobol_problem,

@@ -23,16 +23,16 @@ import numpy as np
 import pytest
 from conftest import DEMO, INPUTS
 
-from lcoe.case import load_case
-from lcoe.compare import run_comparison
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import prepare
+from lcoe.study.compare import run_comparison
 from lcoe.study.design import Member, build_design
+from lcoe.study.plan import load_plan
 from lcoe.study.shared import read_shared
 from lcoe.study.single import monte_carlo
-from lcoe.sweep import run_sweep
-from lcoe.sweep_plan import load_plan
-from lcoe.uncertainty.spec import read_spec
+from lcoe.study.spec import read_spec
+from lcoe.study.sweep import run_sweep
 
 needs_dask = pytest.mark.skipif(importlib.util.find_spec("distributed") is None,
                                 reason="dask.distributed not installed")

@@ -7,11 +7,11 @@ import pytest
 from conftest import MINIMAL_CASE, write_case
 from scipy.stats import norm
 
-from lcoe.case import load_case
-from lcoe.errors import InputError
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.model import prepare
 from lcoe.study.single import energy_exceedance, monte_carlo
-from lcoe.uncertainty.spec import read_spec
+from lcoe.study.spec import read_spec
 
 UNC = """
 [uncertain]
@@ -117,7 +117,6 @@ def test_multi_year_file_supplies_year_to_year_spread(tmp_path):
     # A weather file of several calendar years: each trial-year draws one of the file's years,
     # so the yearly factors are exactly the file's own year ratios.
     import pandas as pd
-
     import pvlib
 
     frames = []

@@ -16,14 +16,14 @@ import numpy as np
 import pytest
 from conftest import DEMO, INPUTS
 
-from lcoe.case import load_case
+from lcoe.case.errors import InputError
+from lcoe.case.reader import load_case
 from lcoe.cli import main
-from lcoe.errors import InputError
 from lcoe.study.design import chunk_bounds
 from lcoe.study.executor import DASK_MISSING_NOTE, execute, local_cluster, run_serial
+from lcoe.study.plan import load_plan
+from lcoe.study.sweep import prob_cheapest, run_sweep
 from lcoe.study.trials import evaluate_chunk, make_tasks, yearly_factors
-from lcoe.sweep import prob_cheapest, run_sweep
-from lcoe.sweep_plan import load_plan
 
 needs_dask = pytest.mark.skipif(importlib.util.find_spec("distributed") is None,
                                 reason="dask.distributed not installed "
@@ -186,7 +186,7 @@ def test_table_statistics_from_trials(serial_result):
 def test_no_uncertainty_reproduces_the_deterministic_model(tmp_path):
     """Cross-check against lcoe.model.evaluate: without uncertain inputs every trial is the
     deterministic case, bit for bit."""
-    from lcoe.case import load_case
+    from lcoe.case.reader import load_case
     from lcoe.model import evaluate, prepare
 
     text = DEMO.read_text(encoding="utf-8").split("# ---- What Larkspur is unsure of")[0]
@@ -216,7 +216,7 @@ def test_sweep_agrees_with_single_case_engine(serial_result):
     medians of 200 trials with a 10 % spread)."""
     from lcoe.model import prepare
     from lcoe.study.single import monte_carlo
-    from lcoe.uncertainty.spec import read_spec
+    from lcoe.study.spec import read_spec
 
     plan = serial_result.plan
     run = plan.runs[0]

@@ -7,7 +7,7 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from lcoe.sweep_voi import site_inputs, sweep_site_voi, table_lines
+from lcoe.study.value_of_information import site_inputs, sweep_site_voi, table_lines
 from lcoe.uncertainty.voi import normal_evpi
 
 

@@ -1,4 +1,4 @@
-"""Tests for lcoe.synth_weather: hourly weather synthesised from monthly values."""
+"""Tests for lcoe.site.synth_weather: hourly weather synthesised from monthly values."""
 
 from __future__ import annotations
 
@@ -12,23 +12,23 @@ import pvlib
 import pytest
 from scipy.integrate import quad
 
-from lcoe.errors import InputError
-from lcoe.synth_weather import (
-    BCR_K_MIN,
+from lcoe.case.errors import InputError
+from lcoe.case.monthly import (
     DEFAULT_WIND_SPEED_M_S,
     MAX_MONTHLY_CLEARNESS,
-    SYNTHETIC_WEATHER_WARNING,
-    _fill_to_target,
+    daily_extraterrestrial_kwh_m2,
+    monthly_extraterrestrial_kwh_m2_day,
+    validate_monthly,
+)
+from lcoe.site.synth_clearness import (
+    BCR_K_MIN,
     ar1_uniforms,
     bcr_gamma_from_mean,
     bcr_k_max,
     bcr_mean,
     bcr_quantile,
-    daily_extraterrestrial_kwh_m2,
-    monthly_extraterrestrial_kwh_m2_day,
-    synthesize_year,
-    validate_monthly,
 )
+from lcoe.site.synth_weather import SYNTHETIC_WEATHER_WARNING, _fill_to_target, synthesize_year
 
 TMY3_PATH = os.path.join(os.path.dirname(pvlib.__file__), "data", "723170TYA.CSV")
 DAYS_2021 = np.array([calendar.monthrange(2021, m)[1] for m in range(1, 13)])
@@ -544,7 +544,7 @@ def test_dni_bound_is_the_extraterrestrial_normal_over_daylight():
     # Analytic: at the equator every day has 12 h of daylight (sunset hour angle 90 deg,
     # Duffie & Beckman 1.6.10), so the bound is 12 h x the month's mean G_on (Spencer 1971,
     # through pvlib); the polar night of 80 N has no daylight and no bound above 0.
-    from lcoe.synth_weather import monthly_extraterrestrial_normal_kwh_m2_day
+    from lcoe.case.monthly import monthly_extraterrestrial_normal_kwh_m2_day
 
     g_on = np.asarray(pvlib.irradiance.get_extra_radiation(np.arange(1, 366)))
     month = pd.date_range("2021-01-01", periods=365, freq="D").month.to_numpy()
@@ -623,7 +623,7 @@ def test_synthesize_year_errors(kwargs, pattern):
 def test_tag_parameters_closed_form():
     # Analytic: the TAG polynomials (Aguiar & Collares-Pereira 1992, constants from memory)
     # evaluated by hand at K = 0.4 and K = 0.6.
-    from lcoe.synth_weather import tag_mean_hourly_clearness, tag_residual_parameters
+    from lcoe.site.synth_clearness import tag_mean_hourly_clearness, tag_residual_parameters
 
     phi, sigma = tag_residual_parameters(np.array([0.4, 0.6]))
     np.testing.assert_allclose(phi, [0.148 + 2.356 * 0.4 - 5.195 * 0.16 + 3.758 * 0.064,
@@ -639,7 +639,7 @@ def test_tag_parameters_closed_form():
 
 
 def test_tag_residuals_statistics_and_bounds():
-    from lcoe.synth_weather import tag_residuals
+    from lcoe.site.synth_clearness import tag_residuals
 
     n = 200_000
     day = np.repeat(np.arange(n // 20), 20)  # 20-hour days
@@ -659,7 +659,7 @@ def test_tag_residuals_statistics_and_bounds():
 
 
 def test_stratified_uniforms_keep_order():
-    from lcoe.synth_weather import stratified_uniforms
+    from lcoe.site.synth_clearness import stratified_uniforms
 
     u = np.array([0.9, 0.1, 0.5, 0.3])
     np.testing.assert_allclose(stratified_uniforms(u), [0.875, 0.125, 0.625, 0.375])
@@ -667,7 +667,7 @@ def test_stratified_uniforms_keep_order():
 
 def test_decomposition_is_pvlib_and_checked():
     # Cross-implementation: the Erbs choice returns pvlib.irradiance.erbs's DNI.
-    from lcoe.synth_weather import decompose_dni
+    from lcoe.site.synth_weather import decompose_dni
 
     times = pd.date_range("2021-06-01 06:30", periods=12, freq="h", tz="Etc/GMT+5")
     ghi = np.linspace(100.0, 900.0, 12)

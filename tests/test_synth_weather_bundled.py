@@ -8,7 +8,7 @@ fixed (tilt = latitude) and a single-axis plant, and monthly DNI within 10 % in 
 than 2 kWh/m2/day of GHI or DNI.
 
 In-sample: the decomposition (DIRINT) and the clear-sky cap were chosen looking at these same
-three files (see lcoe.synth_weather); no constant was fitted to them, but the agreement here is
+three files (see lcoe.site.synth_weather); no constant was fitted to them, but the agreement here is
 not an out-of-sample validation. The DNI bound is tested month by month; the months that miss it
 are listed in KNOWN_DNI_MISSES with the measured figure and run as strict xfail, so a change that
 fixes them (or a new miss) shows up; a looser guard keeps every case from getting worse.
@@ -38,7 +38,7 @@ import warnings
 import numpy as np
 import pytest
 
-from lcoe.synth_weather import DECOMPOSITIONS
+from lcoe.site.synth_weather import DECOMPOSITIONS
 from tests.helpers.bundled_weather import (
     DNI_BOUND,
     bundled_files,

@@ -1,9 +1,10 @@
-"""Tests of lcoe.bank.tax: depreciation, loss carry-forward, tax credits."""
+"""Tests of lcoe.money.tax: depreciation, loss carry-forward, tax credits."""
 
 import numpy as np
 import pytest
 
-from lcoe.bank.tax import (
+from lcoe.case.errors import InputError
+from lcoe.money.tax import (
     MACRS_5YR_HALF_YEAR,
     apply_tax_credits,
     basis_after_itc,
@@ -11,7 +12,6 @@ from lcoe.bank.tax import (
     investment_tax_credit,
     tax_with_loss_carryforward,
 )
-from lcoe.errors import InputError
 
 
 def test_macrs_table_is_the_published_one_and_sums_to_one():

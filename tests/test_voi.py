@@ -11,9 +11,9 @@ from scipy import integrate
 from scipy.interpolate import BSpline
 from scipy.stats import norm
 
-from lcoe.case import load_case
-from lcoe.compare import run_comparison
+from lcoe.case.reader import load_case
 from lcoe.model import base_params, cash_flow, evaluate, prepare
+from lcoe.study.compare import run_comparison
 from lcoe.uncertainty.voi import (
     N_SEGMENTS,
     conditional_means,

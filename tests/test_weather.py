@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from lcoe.errors import InputError
-from lcoe.weather import check_timezone, read_weather
+from lcoe.case.errors import InputError
+from lcoe.site.weather import check_timezone, read_weather
 
 
 def _csv(tmp_path, df, name="w.csv"):

@@ -2,7 +2,7 @@
 the Inputs sheet reads back into a case.
 
 Cross-implementation: the workbook's formulas are recalculated by LibreOffice headless
-(``soffice --convert-to xlsx``) and compared with the Python engine (lcoe.cashflow). All
+(``soffice --convert-to xlsx``) and compared with the Python engine (lcoe.money.cashflow). All
 workbooks of this module are recalculated in one soffice call (a few seconds each).
 """
 
@@ -17,13 +17,14 @@ import pytest
 from conftest import DEMO, INPUTS
 from helpers.office import pdf_pages, recalculate, soffice_path, to_pdf
 
-from lcoe.case import case_from_dict, load_case
-from lcoe.errors import InputError
-from lcoe.export.readback import case_from_workbook
-from lcoe.export.workbook import MAX_TRIALS_IN_SHEET, put_text, write_workbook
-from lcoe.export.workbook_stats import write_comparison_workbook
+from lcoe.case.errors import InputError
+from lcoe.case.readback import case_from_workbook
+from lcoe.case.reader import case_from_dict, load_case
+from lcoe.export.workbook.book import write_workbook
+from lcoe.export.workbook.layout import MAX_TRIALS_IN_SHEET, put_text
+from lcoe.export.workbook.study_sheets import write_comparison_workbook
 from lcoe.model import evaluate
-from lcoe.runner import run_case
+from lcoe.study.run import run_case
 
 openpyxl = pytest.importorskip("openpyxl")
 
@@ -416,7 +417,7 @@ def test_readback_keeps_bankability_tables(runs):
 
 def test_readback_keeps_nested_tables_and_lists(tmp_path):
     """A body of facets: the nested [plant.body] table and [[plant.body.facet]] list."""
-    from lcoe.schema import FIELD_BY_PATH
+    from lcoe.case.schema import FIELD_BY_PATH
 
     if "plant.body.shape" not in FIELD_BY_PATH:
         pytest.skip("this schema has no [plant.body]")

@@ -14,8 +14,8 @@ import openpyxl
 import pytest
 from openpyxl import Workbook
 
-from lcoe.export.workbook import put, put_formula, put_text
-from lcoe.export.workbook_stream import add_number_table, save_workbook
+from lcoe.export.workbook.layout import put, put_formula, put_text
+from lcoe.export.workbook.stream import add_number_table, save_workbook
 
 N = 500
 FORMATS = ("0", "0.00000", "#,##0", "General")

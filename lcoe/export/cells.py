@@ -3,7 +3,8 @@
 A spreadsheet program reads a cell that starts with ``=``, ``+``, ``-``, ``@``, a tab or a line
 break as a formula (spreadsheet formula injection: ``=HYPERLINK(...)`` in a site name becomes
 a live link). The workbook writer keeps such text a text cell with a quote prefix
-(:func:`lcoe.export.workbook.put_text`); CSV has no cell types, so :func:`csv_cell` writes the
+(:func:`lcoe.export.workbook.layout.put_text`); CSV has no cell types, so :func:`csv_cell` writes
+the
 same mark the way a spreadsheet shows it, a leading apostrophe. Numbers stay numbers: a
 negative value is written as ``-0.5``, not neutralised.
 
@@ -44,7 +45,7 @@ def write_csv(path: Path, header: Iterable, rows: Iterable[Iterable]) -> None:
     Parameters
     ----------
     path : pathlib.Path
-        File to write (normally in an output stage, see :func:`lcoe.output.publish`).
+        File to write (normally in an output stage, see :func:`lcoe.export.staging.publish`).
     header : iterable
         Column names.
     rows : iterable of iterables

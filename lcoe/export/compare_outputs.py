@@ -1,6 +1,6 @@
 """Outputs of ``lcoe compare``: ``comparison.json``, pictures and ``comparison.xlsx``.
 
-The exporters read a :class:`lcoe.compare.ComparisonResult` and compute nothing but
+The exporters read a :class:`lcoe.study.compare.ComparisonResult` and compute nothing but
 formatting: every number is the engine's.
 """
 
@@ -11,11 +11,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..claims import audit_sentence, claim_sentence
-from ..compare import ComparisonResult, drivers, input_labels
-from ..output import staged
-from ..tech.audit import worst_verdict
-from .summary import _clean
+from lcoe.export.staging import staged
+from lcoe.export.summary import _clean
+from lcoe.study.audit import audit_sentence, worst_verdict
+from lcoe.study.claim_ratio import claim_sentence
+from lcoe.study.compare import ComparisonResult, drivers, input_labels
 
 SCHEMA_VERSION = 1
 
@@ -37,7 +37,7 @@ PICTURES = ("lcoe_cumulative.png", "lcoe_ratio.png")
 
 
 def _stats_block(values: np.ndarray, deterministic: float) -> dict:
-    from ..uncertainty.stats import stats
+    from lcoe.uncertainty.stats import stats
 
     return {"deterministic": float(deterministic), **stats(values)}
 
@@ -104,7 +104,7 @@ def comparison_dict(result: ComparisonResult, provenance: dict | None = None) ->
 
 def _labelled(rows: list, labels: dict) -> list:
     """Driver rows with a human ``label`` (unit included) beside the dotted ``input``."""
-    from ..labels import group_label
+    from lcoe.case.labels import group_label
 
     out = []
     for r in rows:
@@ -116,7 +116,7 @@ def _labelled(rows: list, labels: dict) -> list:
 
 
 def _cautions(result: ComparisonResult) -> list[str]:
-    from .workbook import CAUTIONS
+    from lcoe.export.workbook.layout import CAUTIONS
 
     out = list(CAUTIONS)
     for o in result.cases:
@@ -131,11 +131,11 @@ def comparison_json(result: ComparisonResult, provenance: dict | None = None) ->
 
 def render_figures(result: ComparisonResult) -> dict[str, bytes]:
     """PNG bytes by file name: the cases' LCOE and the candidates' ratio, as cumulative curves."""
-    from .plots import figure_png
+    from lcoe.export.plots import figure_png
 
     out = {name: figure_png(fig) for name, fig in build_figures(result).items()}
     if result.voi is not None:
-        from .voi_outputs import PICTURE, voi_png
+        from lcoe.export.voi_outputs import PICTURE, voi_png
 
         out[PICTURE] = voi_png(result.voi)
     return out
@@ -147,7 +147,7 @@ def build_figures(result: ComparisonResult) -> dict:
     Case i keeps colour ``CASE_COLORS[i]`` in both pictures; each claimed bound is drawn once
     (one line per distinct ratio) and each candidate's probability goes in its own legend entry.
     """
-    from .plots import CASE_COLORS, GREY, fig_cumulative
+    from lcoe.export.plots import CASE_COLORS, GREY, fig_cumulative
 
     cur = result.currency
     fig = fig_cumulative({o.name: o.trials.lcoe_real for o in result.cases},
@@ -188,8 +188,8 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     information) sheets."""
     from openpyxl import Workbook
 
-    from .workbook import header, put, put_text, title, widths
-    from .workbook_stream import add_number_table, save_workbook
+    from lcoe.export.workbook.layout import header, put, put_text, title, widths
+    from lcoe.export.workbook.stream import add_number_table, save_workbook
 
     data = comparison_dict(result, provenance)
     cur = result.currency
@@ -208,7 +208,7 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     put_text(ws, r + 1, 1, METHOD)
     r += 3
     title(ws, r, "Notes and cautions")
-    from ..labels import humanize
+    from lcoe.case.labels import humanize
 
     for line in [humanize(n, data["labels"]) for n in data["notes"]] + data["cautions"]:
         r += 1
@@ -334,7 +334,7 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
                      [np.asarray(c[:result.samples], dtype=float) for c in cols],
                      ["General"] + ["0.00000"] * len(cols))
     if result.voi is not None:
-        from .voi_outputs import write_voi_sheet
+        from lcoe.export.voi_outputs import write_voi_sheet
 
         write_voi_sheet(wb, result.voi)
     save_workbook(wb, path)
@@ -344,7 +344,7 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
                           replace_own: bool = False, provenance: dict | None = None) -> Path:
     """Write ``comparison.json``, the pictures and ``comparison.xlsx`` into ``out_dir``.
 
-    ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.output.publish`; a
+    ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.export.staging.publish`; a
     non-empty folder is refused unless ``force``), or the stage of a command that holds it.
     """
     with staged(out_dir, force=force, replace_own=replace_own) as out:
@@ -353,17 +353,17 @@ def write_compare_outputs(result: ComparisonResult, out_dir, force: bool = False
         for name, png in figures.items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
         if result.voi is not None:
-            from .voi_outputs import PAGE, PICTURE, voi_page_html
+            from lcoe.export.voi_outputs import PAGE, PICTURE, voi_page_html
 
             out.write_text(PAGE, voi_page_html(result.voi, figures[PICTURE]))
         out.write_with("comparison.xlsx",
                        lambda p: write_comparison_workbook(result, p, provenance))
-        from .compare_report import compare_report_html
+        from lcoe.export.compare_report import compare_report_html
 
         data = comparison_dict(result, provenance)
         extra, pictures = [], dict(figures)
         if result.voi is not None:  # the section itself, with its chart, on the page
-            from .voi_outputs import PICTURE, voi_section_html
+            from lcoe.export.voi_outputs import PICTURE, voi_section_html
 
             extra.append(voi_section_html(result.voi, pictures.pop(PICTURE, None)))
         out.write_text("report.html", compare_report_html(data, pictures, extra))

@@ -15,7 +15,7 @@ from __future__ import annotations
 import base64
 import html
 
-from .plots import LOSS_LABELS
+from lcoe.export.plots import LOSS_LABELS
 
 #: Captions of the comparison's pictures, by file name.
 CAPTIONS = {
@@ -182,7 +182,7 @@ def compare_report_html(data: dict, figures: dict | None = None,
             cap = CAPTIONS.get(name, name)
             body.append(f"<figure><img alt=\"{_e(cap)}\" src=\"data:image/png;base64,{src}\">"
                         f"<figcaption>{_e(cap)}</figcaption></figure>")
-    from ..labels import humanize
+    from lcoe.case.labels import humanize
 
     labels = data.get("labels") or {}
     notes = list(dict.fromkeys(humanize(n, labels) for n in list(data.get("notes") or []) + [

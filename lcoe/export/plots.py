@@ -19,8 +19,8 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..energy import LOSS_CHAIN
-from .workbook import MONTHS
+from lcoe.export.workbook.layout import MONTHS
+from lcoe.plant.energy import LOSS_CHAIN
 
 #: Figure size [inch] and resolution [dot/inch] of every picture (800 x 460 pixels).
 FIGSIZE = (8.0, 4.6)
@@ -269,7 +269,7 @@ def fig_loss_chain(loss_chain_kwh: Mapping):
     Parameters
     ----------
     loss_chain_kwh : mapping
-        Energy after each stage of :data:`lcoe.energy.LOSS_CHAIN` [kWh/year], scalars.
+        Energy after each stage of :data:`lcoe.plant.energy.LOSS_CHAIN` [kWh/year], scalars.
     """
     keys = [k for k, _ in LOSS_CHAIN if k in loss_chain_kwh]
     vals = np.array([float(loss_chain_kwh[k]) for k in keys]) / 1000.0

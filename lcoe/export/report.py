@@ -12,10 +12,10 @@ import base64
 import html
 from pathlib import Path
 
-from ..cashflow import LCOE_FORMULA
-from ..results import RunResult
-from .plots import output_label
-from .workbook import CAUTIONS
+from lcoe.export.plots import output_label
+from lcoe.export.workbook.layout import CAUTIONS
+from lcoe.money.cashflow import LCOE_FORMULA
+from lcoe.study.results import RunResult
 
 #: Caution specific to concentrated sunlight, shown after :data:`CAUTIONS`.
 CONCENTRATION_CAUTION = (
@@ -103,8 +103,8 @@ def _pct(x) -> str:
 
 def _irr(b: dict, key: str, roots_key: str) -> tuple[str, str]:
     """Value and unit of an IRR: the investment root with every root beside it
-    (:func:`lcoe.finance.irr_text`, as in the command line's table)."""
-    from lcoe.finance import irr_text
+    (:func:`lcoe.money.irr.irr_text`, as in the command line's table)."""
+    from lcoe.money.irr import irr_text
 
     found = (b.get("irr_roots") or {}).get(roots_key) or {}
     text = irr_text(b.get(key), found.get("roots") or [], found.get("reason", ""), unit="")
@@ -198,7 +198,7 @@ def _notes(result: RunResult) -> list[str]:
             if wide:
                 notes.append(f"{len(wide)} Sobol indices have a confidence half-width above "
                              f"10 % of the index; more base samples give tighter intervals.")
-    from ..labels import humanize, labeller
+    from lcoe.case.labels import humanize, labeller
 
     label = labeller(result.case)
     labels = dict(sens.labels) if sens is not None else {}
@@ -223,7 +223,7 @@ def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> s
         A complete, self-contained HTML document.
     """
     if figures is None:
-        from .plots import render_figures
+        from lcoe.export.plots import render_figures
 
         figures = render_figures(result)
     case = result.case
@@ -248,12 +248,12 @@ def report_html(result: RunResult, figures: dict[str, bytes] | None = None) -> s
     bank = result.extras.get("bankability")
     figures = dict(figures)
     if bank is not None and hasattr(bank, "to_summary"):
-        from .report_debt import debt_section_html
+        from lcoe.export.debt_section import debt_section_html
 
         body.append(debt_section_html(bank.to_summary(), case["case.currency"],
                                       figures.pop("dscr_fan.png", None)))
     if result.extras.get("resource_information") is not None:  # the lender's campaign value
-        from .voi_outputs import resource_section_html
+        from lcoe.export.voi_outputs import resource_section_html
 
         body.append(resource_section_html(result.extras["resource_information"].to_summary(),
                                           case["case.currency"]))

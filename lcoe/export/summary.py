@@ -7,10 +7,10 @@ import math
 
 import numpy as np
 
-from ..cashflow import LCOE_FORMULA
-from ..energy import LOSS_CHAIN
-from ..hourly import monthly_tables
-from ..results import RunResult
+from lcoe.export.hourly import monthly_tables
+from lcoe.money.cashflow import LCOE_FORMULA
+from lcoe.plant.energy import LOSS_CHAIN
+from lcoe.study.results import RunResult
 
 SCHEMA_VERSION = 1
 

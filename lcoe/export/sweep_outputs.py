@@ -1,8 +1,8 @@
 """Files of a sweep: ``sweep.csv``, ``sweep.json``, ``sweep.xlsx`` and two charts.
 
-The exporters read a :class:`lcoe.sweep.SweepResult` and compute nothing. User text (site and
+The exporters read a :class:`lcoe.study.sweep.SweepResult` and compute nothing. User text (site and
 technology names, notes) goes into the workbook as text cells, never formulas
-(:func:`lcoe.export.workbook.put_text`).
+(:func:`lcoe.export.workbook.layout.put_text`).
 """
 
 from __future__ import annotations
@@ -10,11 +10,11 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from ..cashflow import LCOE_FORMULA
-from .plots import literal_text
-from .summary import _clean
-from .cells import write_csv
-from .workbook import put_text
+from lcoe.export.cells import write_csv
+from lcoe.export.plots import literal_text
+from lcoe.export.summary import _clean
+from lcoe.export.workbook.layout import put_text
+from lcoe.money.cashflow import LCOE_FORMULA
 
 SCHEMA_VERSION = 1
 #: Fields of a sweep row (``sweep.json`` keys), in order.
@@ -208,7 +208,7 @@ def write_sweep_workbook(result, path: Path) -> None:
     about += [(f"Technology {t.label}", f"{t.path} (sha256 {t.sha256})")
               for t in plan.technologies]
     about += [(c, meaning.replace("currency", cur)) for c, meaning in COLUMN_NOTES.items()]
-    from ..labels import humanize, schema_labels
+    from lcoe.case.labels import humanize, schema_labels
 
     labels = schema_labels(cur)
     about += [("Note", humanize(n, labels)) for n in list(result.notes) + [CRN_NOTE]] + \
@@ -359,9 +359,9 @@ def _place_labels(fig, ax, points) -> None:
 
 
 def write_sweep_outputs(result, out_dir, force: bool = False) -> None:
-    """Write every sweep file into a folder published whole (:func:`lcoe.output.publish`) or
-    into the :class:`lcoe.output.Stage` of a command that holds it."""
-    from ..output import staged
+    """Write every sweep file into a folder published whole (:func:`lcoe.export.staging.publish`) or
+    into the :class:`lcoe.export.staging.Stage` of a command that holds it."""
+    from lcoe.export.staging import staged
 
     with staged(out_dir, force=force) as out:
         out.write_with("sweep.csv", lambda p: write_sweep_csv(result, p))
@@ -376,6 +376,6 @@ def write_sweep_outputs(result, out_dir, force: bool = False) -> None:
             plot(result, buf)
             figures[name] = buf.getvalue()
             out.write_with(name, lambda p, png=figures[name]: p.write_bytes(png))
-        from .sweep_report import sweep_report_html
+        from lcoe.export.sweep_report import sweep_report_html
 
         out.write_text("report.html", sweep_report_html(sweep_dict(result), figures))

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import base64
 
-from .compare_report import _CSS, _e
+from lcoe.export.compare_report import _CSS, _e
 
 CAPTIONS = {
     "sweep_ranking.png": "Median real LCOE with 10th-90th percentile bars at every site; a "
@@ -26,12 +26,13 @@ def voi_section_html(rows: list, currency: str, names: dict) -> str:
     Parameters
     ----------
     rows : list of dict
-        :func:`lcoe.sweep_voi.sweep_site_voi` (``value_of_information`` of sweep.json).
+        :func:`lcoe.study.value_of_information.sweep_site_voi` (``value_of_information`` of
+        sweep.json).
     currency : str
     names : dict
         Technology label -> its readable name.
     """
-    from ..compare_voi import CAUTION
+    from lcoe.study.value_of_information import CAUTION
 
     if not rows:
         return ""
@@ -101,7 +102,7 @@ def sweep_report_html(data: dict, figures: dict | None = None) -> str:
         cap = CAPTIONS.get(name, name)
         body.append(f"<figure><img alt=\"{_e(cap)}\" src=\"data:image/png;base64,{src}\">"
                     f"<figcaption>{_e(cap)}</figcaption></figure>")
-    from ..labels import humanize, schema_labels
+    from lcoe.case.labels import humanize, schema_labels
 
     labels = schema_labels(plan["currency"])
     body.append("<h2>Notes and cautions</h2><ul>" + "".join(

@@ -1,7 +1,9 @@
 """Value of information: bar chart, workbook sheets and HTML sections.
 
-For a comparison it reads a :class:`lcoe.compare_voi.VoiBlock`; for the lender's case the
-summary of a :class:`lcoe.lender_voi.ResourceInfoBlock` (the value of narrowing the resource
+For a comparison it reads a :class:`lcoe.study.value_of_information.VoiBlock`; for the lender's case
+the
+summary of a :class:`lcoe.study.value_of_information.ResourceInfoBlock` (the value of narrowing the
+resource
 uncertainty). It computes nothing but formatting. The HTML sections are self-contained
 (:func:`voi_section_html`, :func:`resource_section_html`) so that a report page can include
 them; the comparison also writes its section as ``value_of_information.html``.
@@ -37,7 +39,7 @@ def fig_voi(block, top: int = TOP):
     """
     import numpy as np
 
-    from .plots import BLUE, GREY, ORANGE, _figure, _short
+    from lcoe.export.plots import BLUE, GREY, ORANGE, _figure, _short
 
     rows = block.rows[:top]
     k = 1e-3 if max([block.evpi.value] + [r.value for r in rows]) < 1e6 else 1e-6
@@ -68,7 +70,7 @@ def fig_voi(block, top: int = TOP):
 
 def voi_png(block) -> bytes:
     """PNG bytes of :func:`fig_voi`."""
-    from .plots import figure_png
+    from lcoe.export.plots import figure_png
 
     return figure_png(fig_voi(block))
 
@@ -136,7 +138,7 @@ def voi_page_html(block, png: bytes | None = None) -> str:
 
 def write_voi_sheet(wb, block) -> None:
     """Add the sheet :data:`SHEET` to an openpyxl workbook."""
-    from .workbook import header, put, put_text, title, widths
+    from lcoe.export.workbook.layout import header, put, put_text, title, widths
 
     ws = wb.create_sheet(SHEET)
     cur = block.currency
@@ -190,7 +192,7 @@ def resource_section_html(s: dict, currency: str) -> str:
     Parameters
     ----------
     s : dict
-        :meth:`lcoe.lender_voi.ResourceInfoBlock.to_summary`.
+        :meth:`lcoe.study.value_of_information.ResourceInfoBlock.to_summary`.
     currency : str
     """
     cur = _e(currency)
@@ -212,7 +214,7 @@ def resource_section_html(s: dict, currency: str) -> str:
 
 def write_resource_sheet(wb, s: dict, currency: str) -> None:
     """Add the sheet :data:`RESOURCE_SHEET` (the lender's block, gains as formulas)."""
-    from .workbook import header, put, put_formula, put_text, title, widths
+    from lcoe.export.workbook.layout import header, put, put_formula, put_text, title, widths
 
     ws = wb.create_sheet(RESOURCE_SHEET)
     cur = currency

@@ -10,19 +10,26 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..case import Case
-from ..model import Site, base_params
-from ..rng import make_rng
-from ..uncertainty.sensitivity import (
+from lcoe.case.reader import Case
+from lcoe.case.rng import make_rng
+from lcoe.model import Site, base_params
+from lcoe.study.single import (
+    OUTPUTS,
+    EnergyExceedance,
+    Trials,
+    energy_exceedance,
+    model_function,
+    monte_carlo,
+)
+from lcoe.study.spec import UncertainSpec
+from lcoe.uncertainty.sensitivity import (
     SobolResult,
     morris_screen,
     sobol_analyze,
     sobol_sample,
     tornado,
 )
-from ..uncertainty.spec import UncertainSpec
-from ..uncertainty.stats import stats
-from .single import OUTPUTS, EnergyExceedance, Trials, energy_exceedance, model_function, monte_carlo
+from lcoe.uncertainty.stats import stats
 
 #: Plain names of the outputs, for sentences.
 OUTPUT_LABELS = {"lcoe_real_per_kwh": "the real cost per kWh (LCOE)",
@@ -172,7 +179,7 @@ class SensitivityBlock:
                          f"ST {r['ST']:6.3f} ± {r['ST_conf']:.3f}{flag}")
         if self.sobol:
             wide = [w for w in self.sobol.warnings if "wide interval" in w]
-            from ..labels import humanize
+            from lcoe.case.labels import humanize
 
             lines += [f"  note: {humanize(w, self.labels)}" for w in self.sobol.warnings
                       if "wide interval" not in w]
@@ -265,7 +272,7 @@ def run_study(case: Case, site: Site, spec: UncertainSpec, samples: int, seed: i
 
 def input_labels(case: Case, dists) -> dict:
     """Human labels with units of the uncertain inputs and Sobol groups of ``case``."""
-    from ..labels import group_label, labeller
+    from lcoe.case.labels import group_label, labeller
 
     label = labeller(case)
     out = {d.name: label(d.name) for d in dists}

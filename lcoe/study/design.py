@@ -37,9 +37,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import InputError
-from ..rng import make_rng
-from ..uncertainty.sampling import correlation_matrix, iman_conover, latin_hypercube, random_uniform
+from lcoe.case.errors import InputError
+from lcoe.case.rng import make_rng
+from lcoe.uncertainty.sampling import (
+    correlation_matrix,
+    iman_conover,
+    latin_hypercube,
+    random_uniform,
+)
 
 #: Largest block of trials drawn as one Latin hypercube [trials].
 BLOCK_TRIALS = 1000
@@ -85,7 +90,7 @@ class Member:
     site : str
         The site key: runs with the same key share the site's weather draws.
     names : tuple of str
-        Its sampled inputs in the order of its :class:`~lcoe.uncertainty.spec.UncertainSpec`.
+        Its sampled inputs in the order of its :class:`~lcoe.study.spec.UncertainSpec`.
     shared : frozenset of str
         Those of ``names`` declared once for the whole study.
     corr_pairs : tuple of (str, str, float)

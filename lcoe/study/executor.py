@@ -19,7 +19,7 @@ import re
 import uuid
 from collections.abc import Callable, Sequence
 
-from ..errors import InputError
+from lcoe.case.errors import InputError
 
 #: Seconds to wait for an existing dask scheduler to answer.
 CONNECT_TIMEOUT_S = 5.0

@@ -27,9 +27,9 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-from ..case import Case, read_toml
-from ..errors import InputError, did_you_mean, field_error, unknown_key_error
-from ..uncertainty.spec import valid_paths
+from lcoe.case.errors import InputError, did_you_mean, field_error, unknown_key_error
+from lcoe.case.reader import Case, read_toml
+from lcoe.study.spec import valid_paths
 
 #: Top-level tables of a ``--shared`` file.
 SHARED_KEYS = ("uncertain", "correlation")

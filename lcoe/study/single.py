@@ -19,13 +19,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..case import Case
-from ..errors import ImplausibleResult, InputError
-from ..model import ModelOutput, Site, evaluate
-from ..uncertainty.spec import UncertainSpec
-from ..uncertainty.stats import Z90, Z99
-from .design import build_design
-from .trials import (
+from lcoe.case.errors import ImplausibleResult, InputError
+from lcoe.case.reader import Case
+from lcoe.model import ModelOutput, Site, evaluate
+from lcoe.study.design import build_design
+from lcoe.study.spec import UncertainSpec
+from lcoe.study.trials import (
     CHUNK_TRIALS,
     StudyRun,
     evaluate_runs,
@@ -34,6 +33,7 @@ from .trials import (
     split_inputs,
     trial_text,
 )
+from lcoe.uncertainty.stats import Z90, Z99
 
 #: Outputs collected from every trial, with their units.
 OUTPUTS = {

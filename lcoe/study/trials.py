@@ -23,14 +23,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import ndtr
 
-from ..case import Case
-from ..errors import InputError, collect_warnings
-from ..model import evaluate, prepare
-from ..plausibility import check_output
-from ..uncertainty.sampling import uniforms_to_values
-from ..uncertainty.spec import ENERGY_FACTOR_FLOOR, UncertainSpec
-from .design import Member, TrialDesign, chunk_bounds
-from .executor import execute
+from lcoe.case.errors import InputError, collect_warnings
+from lcoe.case.plausibility import check_output
+from lcoe.case.reader import Case
+from lcoe.model import evaluate, prepare
+from lcoe.study.design import Member, TrialDesign, chunk_bounds
+from lcoe.study.executor import execute
+from lcoe.study.spec import ENERGY_FACTOR_FLOOR, UncertainSpec
+from lcoe.uncertainty.sampling import uniforms_to_values
 
 #: Default trials per chunk (a task of a worker, and the memory bound of a model call).
 CHUNK_TRIALS = 1000
@@ -219,7 +219,7 @@ def evaluate_chunk(task: ChunkTask) -> dict:
         Also ``notes``: tuple of remarks from preparing the site.
 
         A chunk where some trial fails the plausibility checks
-        (:func:`lcoe.plausibility.check_output`) returns only ``notes`` and ``implausible``:
+        (:func:`lcoe.case.plausibility.check_output`) returns only ``notes`` and ``implausible``:
         (failing trials, trials of the chunk, text of its first failing trial), so that
         :func:`evaluate_runs` counts them over the whole run.
     """

@@ -37,7 +37,7 @@ from typing import Any
 
 import numpy as np
 
-from lcoe.errors import InputError, did_you_mean
+from lcoe.case.errors import InputError, did_you_mean
 
 #: Required and optional parameter names of each supported distribution.
 DIST_PARAMETERS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
@@ -535,7 +535,7 @@ def parse_distribution(path: str, spec: dict, source: str) -> Distribution:
 
     Raises
     ------
-    lcoe.errors.InputError
+    lcoe.case.errors.InputError
         One line naming ``source``, the key ``uncertain."<path>"``, the value and what is
         allowed: unknown dist (with the closest name), missing or unexpected parameter,
         ``sd``/``sigma``/``median`` <= 0, ``low`` >= ``high``, ``mode`` outside [low, high],

@@ -4,7 +4,7 @@ The chain is ``uniforms (n, d) -> [Iman-Conover reordering] -> Distribution.ppf 
 Working in uniform space first lets one design serve any mix of marginals; reordering before
 the (monotone) ppf keeps the ranks, hence the rank correlation.
 
-Every function takes a :class:`numpy.random.Generator` (see :func:`lcoe.rng.make_rng`); none
+Every function takes a :class:`numpy.random.Generator` (see :func:`lcoe.case.rng.make_rng`); none
 touches global random state, so one seed reproduces the whole sample.
 """
 
@@ -15,7 +15,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from lcoe.errors import InputError, did_you_mean
+from lcoe.case.errors import InputError, did_you_mean
 from lcoe.uncertainty.distributions import Distribution, is_real
 
 #: Smallest and largest uniform handed to a ppf: keeps unbounded quantiles finite.
@@ -223,7 +223,7 @@ def correlation_matrix(
 
     Raises
     ------
-    lcoe.errors.InputError
+    lcoe.case.errors.InputError
         One line naming ``source``, ``key[i]`` and the value: malformed pair, rho not a number
         in [-1, 1], a name not among the uncertain inputs (with the closest one), a self pair, a
         pair given twice (in either order), or a matrix that is not positive definite. In the

@@ -50,8 +50,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.stats import norm, rankdata
 
-from ..rng import make_rng
-from ..threads import one_blas_thread as _one_blas_thread
+from lcoe.case.rng import make_rng
+from lcoe.case.threads import one_blas_thread as _one_blas_thread
 
 #: Equal segments of the cubic P-spline on (0, 1) (23 basis functions).
 N_SEGMENTS = 20

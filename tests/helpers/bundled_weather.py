@@ -3,7 +3,7 @@
 Used by ``tests/test_synth_weather_bundled.py`` and ``benchmarks/bench_synth_weather.py``:
 each file is read with pvlib's own reader, placed in the year 2021 (start-labelled hours, the
 file's fixed UTC offset), reduced to its twelve monthly means, and an hourly year is then
-synthesised from those means with :func:`lcoe.synth_weather.synthesize_year`. Both years run
+synthesised from those means with :func:`lcoe.site.synth_weather.synthesize_year`. Both years run
 through the project's energy model (fixed tilt and single-axis) for the comparison.
 """
 
@@ -17,10 +17,10 @@ import numpy as np
 import pandas as pd
 import pvlib
 
-from lcoe.case import load_case
+from lcoe.case.reader import load_case
 from lcoe.model import evaluate, prepare
-from lcoe.synth_weather import decompose_dni, synthesize_year
-from lcoe.weather import Weather
+from lcoe.site.synth_weather import decompose_dni, synthesize_year
+from lcoe.site.weather import Weather
 
 YEAR = 2021
 DATA_DIR = Path(os.path.dirname(pvlib.__file__)) / "data"
@@ -121,7 +121,7 @@ def solar_zenith_mid(weather: Weather) -> np.ndarray:
 def decomposed_dni_ratio(weather: Weather, model: str) -> np.ndarray:
     """Monthly DNI of ``model`` applied to the file's own hourly GHI, over the file's DNI.
 
-    The decomposition (one of :data:`lcoe.synth_weather.DECOMPOSITIONS`, pvlib's published
+    The decomposition (one of :data:`lcoe.site.synth_weather.DECOMPOSITIONS`, pvlib's published
     models) sees the real hours, with the sun by SPA at the middle of each hour and the
     pressure of the site's altitude: what the beam would be if the synthesis reproduced every
     hour of GHI exactly. Shape (12,) [-].

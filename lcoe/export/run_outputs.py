@@ -1,0 +1,46 @@
+"""Files of one ``lcoe run``: ``summary.json``, ``workbook.xlsx``, pictures, ``report.html``,
+``trials.csv`` and the optional hourly table, published in one step.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from lcoe.export.staging import staged
+from lcoe.study.results import RunResult
+
+
+def write_outputs(result: RunResult, out_dir, force: bool = False,
+                  replace_own: bool = False, progress=None, hourly: bool = False) -> Path:
+    """Write ``summary.json``, ``workbook.xlsx``, the pictures (PNG) and ``report.html``.
+
+    With an uncertainty study also ``trials.csv``; with ``hourly`` also every hour of the
+    deterministic case (``hourly.parquet``, or ``hourly.csv`` when pyarrow is missing).
+    ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.export.staging.publish`; a
+    non-empty folder is refused unless
+    ``force``), or the :class:`lcoe.export.staging.Stage` of a command that already holds it.
+    """
+    from lcoe.study.progress import phase
+
+    phase(progress, "writing outputs")
+    from lcoe.export.plots import render_figures
+    from lcoe.export.report import write_report
+    from lcoe.export.summary import summary_json
+    from lcoe.export.workbook.book import write_workbook
+
+    with staged(out_dir, force=force, replace_own=replace_own) as out:
+        out.write_text("summary.json", summary_json(result))
+        out.write_with("workbook.xlsx", lambda p: write_workbook(result, p))
+        if "uncertainty" in result.extras:
+            from lcoe.export.trials_csv import write_trials_csv
+
+            out.write_with("trials.csv", lambda p: write_trials_csv(result, p))
+        figures = render_figures(result)
+        for name, png in figures.items():
+            out.write_with(name, lambda p, png=png: p.write_bytes(png))
+        out.write_with("report.html", lambda p: write_report(result, p, figures))
+        if hourly:
+            from lcoe.export.hourly import hourly_file_name, write_hourly
+
+            out.write_with(hourly_file_name(), lambda p: write_hourly(result, p))
+    return out.target

@@ -1,0 +1,349 @@
+"""Exact factored evaluation of the hourly chain: sums instead of hours wherever the model allows.
+
+:func:`lcoe.plant.energy.simulate` evaluates, for every sample and daylight hour, light -> cell
+temperature -> DC -> inverter -> clipping. This module computes the same totals with far less
+work per sample, exactly (same formulas, only summed in another order; agreement with the
+hourly evaluation within 1e-12 relative is tested in ``tests/test_factored.py``).
+
+The structure used (notation of :func:`lcoe.plant.energy.simulate`; facet j with share s_j, hour h):
+
+- the DC per unit nameplate ``q_h = sum_j s_j (A_j + a B_j) / 1000 (1 + g (T'_h + w_h (N_j +
+  a G_j)))`` with ``a`` the albedo, ``g`` the temperature coefficient, ``T' = T_air - 25``,
+  ``w = 1 / (U0 + U1 v)`` (v the wind speed), ``A, B`` the effective front (x (1 - soiling))
+  plus rear light (x bifaciality x (1 - rear loss)) without and per unit albedo, ``N, G`` the
+  front light that drives the cell temperature. Written as ``q = (U (1 + g T') + g w V) /
+  1000`` with ``U = UA + a UB`` and ``V = V0 + a V1 + a^2 V2`` hourly series that depend only
+  on the site, the geometry, soiling and the rear-side factor (a *group* of samples);
+- DC capacity, DC loss, inverter efficiency and DC/AC ratio enter the inverter only through
+  ``z = beta q``, ``beta = (1 - DC loss) x eta_inv x DC/AC``: the output before clipping is
+  ``AC_rating / 0.9637 x p(z)``, ``p(z) = 0.9858 z - 0.0162 z^2 - 0.0059`` floored at 0, and
+  it clips exactly where ``p(z) >= 0.9637``;
+- so for a set of hours that, for every sample of a sub-chunk, certainly lies between the
+  inverter's start and its clipping threshold, the energy needs only ``sum q`` and
+  ``sum q^2``: polynomials in ``a`` and ``g`` whose coefficients are hourly sums, and sums per
+  distinct wind speed (``w`` takes one value per wind speed of the file) - a few dozen numbers
+  per sample instead of thousands of hours. Hours that certainly clip count as the AC rating;
+  hours that certainly stay below the start give nothing. Which hours are certain follows from
+  interval bounds over the sub-chunk's samples (sorted by ``beta`` so that the bounds are
+  narrow); the remaining hours are evaluated one by one as in the hourly method;
+- capacity, AC loss, availability and everything after are scale factors applied to these
+  sums by the caller.
+
+References
+----------
+.. [1] A. P. Dobos, "PVWatts Version 5 Manual", NREL/TP-6A20-62641, 2014 (inverter curve).
+.. [2] D. Faiman, "Assessing the outdoor operating temperature of photovoltaic modules",
+   Progress in Photovoltaics 16(4), 2008 (cell temperature).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from lcoe.case.threads import one_blas_thread
+
+#: The per-sample inputs these sums handle: :data:`lcoe.plant.energy.ENERGY_PARAMS` must equal this
+#: set (a new one enters the hourly method, here, and ``tests/test_factored.py``).
+PARAMS = frozenset({
+    "site.albedo", "plant.dc_capacity_kw", "plant.dc_ac_ratio", "plant.temp_coeff_per_c",
+    "plant.thermal_u0", "plant.thermal_u1", "plant.dc_loss_fraction",
+    "plant.inverter_efficiency", "plant.ac_loss_fraction", "plant.availability",
+    "plant.bifaciality", "plant.rear_loss_fraction"})
+
+#: Part-load polynomial of the inverter (Dobos 2014) in z = P_dc / P_dc0, and its reference.
+_C1, _C2, _C0 = 0.9858, 0.0162, 0.0059
+ETA_INV_REF = 0.9637
+#: z where the output starts (p(z) = 0), where it reaches the rating (p(z) = eta_ref) and
+#: where it would fall back below the rating past the top of the parabola.
+Z_START = (_C1 - math.sqrt(_C1 ** 2 - 4.0 * _C2 * _C0)) / (2.0 * _C2)
+Z_CLIP = (_C1 - math.sqrt(_C1 ** 2 - 4.0 * _C2 * (_C0 + ETA_INV_REF))) / (2.0 * _C2)
+Z_TOP = _C1 / _C2 - Z_CLIP
+#: Relative safety margin of the interval classification (rounding of the bounds).
+MARGIN = 1e-9
+#: Samples that share interval bounds (sorted by beta); smaller = fewer hours left hourly.
+SUB_CHUNK = 128
+#: Hours whose effective light without albedo reaches this are summed (the rest, dawn and
+#: dusk, are evaluated per sample unless certainly below the inverter's start) [W/m2].
+BASE_LIGHT_W_M2 = 5.0
+
+
+def _imul(a_lo, a_hi, b_lo, b_hi):
+    """Bounds of the product of two intervals (elementwise)."""
+    p = (a_lo * b_lo, a_lo * b_hi, a_hi * b_lo, a_hi * b_hi)
+    return np.minimum(np.minimum(p[0], p[1]), np.minimum(p[2], p[3])), \
+        np.maximum(np.maximum(p[0], p[1]), np.maximum(p[2], p[3]))
+
+
+def _quad_bounds(c0, c1, c2, lo: float, hi: float):
+    """Bounds of c0 + c1 a + c2 a^2 over a in [lo, hi] (elementwise over the coefficients)."""
+    v_lo = c0 + lo * (c1 + lo * c2)
+    v_hi = c0 + hi * (c1 + hi * c2)
+    out_lo, out_hi = np.minimum(v_lo, v_hi), np.maximum(v_lo, v_hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vertex = np.where(c2 != 0.0, -c1 / (2.0 * c2), np.nan)
+    inside = (vertex > lo) & (vertex < hi)
+    if inside.any():
+        v = c0 + vertex * (c1 + vertex * c2)
+        out_lo = np.where(inside, np.minimum(out_lo, v), out_lo)
+        out_hi = np.where(inside, np.maximum(out_hi, v), out_hi)
+    return out_lo, out_hi
+
+
+class _Group:
+    """Hourly series and their products for samples sharing soiling and the rear factor."""
+
+    def __init__(self, st: dict, share: np.ndarray, keep, rear_k: float, t_prime, wind_class,
+                 n_class: int, seg, n_seg: int):
+        A = st["eff_n"] if keep is None else st["eff_n"] * keep
+        B = st["eff_g"] if keep is None else st["eff_g"] * keep
+        if "rear_n" in st and rear_k != 0.0:
+            A = A + rear_k * st["rear_n"]
+            B = B + rear_k * st["rear_g"]
+        N, G = st["shaded_n"], st["shaded_g"]
+        ua, ub = share @ A, share @ B
+        v0, v1, v2 = share @ (A * N), share @ (A * G + B * N), share @ (B * G)
+        self.ua, self.ub, self.v0, self.v1, self.v2 = ua, ub, v0, v1, v2
+        tp = t_prime
+        # sum q: a^i g^j (i, j in 0..1), and per wind class g w a^i (i in 0..2)
+        # sum q^2: U^2 (1 + g T')^2 -> a^i g^j (i, j in 0..2); 2 g w U V (1 + g T') -> per
+        # class 2 g w a^i and 2 g^2 w a^i (i in 0..3); g^2 w^2 V^2 -> a^i (i in 0..4)
+        u2 = (ua * ua, 2.0 * ua * ub, ub * ub)
+        uv = (ua * v0, ua * v1 + ub * v0, ua * v2 + ub * v1, ub * v2)
+        vv = (v0 * v0, 2.0 * v0 * v1, v1 * v1 + 2.0 * v0 * v2, 2.0 * v1 * v2, v2 * v2)
+        self.glob = (np.stack([ua, ub, ua * tp, ub * tp]),
+                     np.stack([u * t for u in u2 for t in (1.0, 2.0 * tp, tp * tp)]))
+        self.wind_class = wind_class
+        cell = seg * n_class + wind_class
+        self.order = np.argsort(cell, kind="stable")
+        cs = cell[self.order]
+        self.cell_starts = np.concatenate(([0], np.nonzero(np.diff(cs))[0] + 1))
+        self.cells = cs[self.cell_starts]
+        self.cls = (np.stack([v0, v1, v2])[:, self.order],
+                    np.stack(list(uv) + [x * tp for x in uv] + list(vv))[:, self.order])
+        self.seg_starts = np.concatenate(([0], np.nonzero(np.diff(seg))[0] + 1))
+        self.tp, self.seg, self.n_class, self.n_seg = tp, seg, n_class, n_seg
+        # Fixed sets of the group (never depend on which samples are evaluated together):
+        # the summed hours, and the hours without any light (nothing for any sample).
+        self.base = ua >= BASE_LIGHT_W_M2
+        self.unlit = (ua == 0) & (ub == 0) & (v0 == 0) & (v1 == 0) & (v2 == 0)
+        every = np.ones(ua.size, dtype=bool)
+        self.k1 = np.concatenate([self.coefficients(every, 1), self.coefficients(self.base, 1)],
+                                 axis=1)
+        self.k2 = self.coefficients(self.base, 2)
+        self.n_base = self.count(self.base)
+
+    def coefficients(self, mask: np.ndarray, moment: int) -> np.ndarray:
+        """Sums over the hours of ``mask`` matching the features of :func:`_features`:
+        ``(n_features, n_seg)`` for the first (1) or second (2) moment of q."""
+        ns, nc = self.n_seg, self.n_class
+        m = mask.astype(float)
+        glob = np.add.reduceat(self.glob[moment - 1] * m, self.seg_starts, axis=1)
+        rows = self.cls[moment - 1]
+        by_cell = np.zeros((rows.shape[0], ns * nc))
+        by_cell[:, self.cells] = np.add.reduceat(rows * m[self.order], self.cell_starts, axis=1)
+        # (k, seg, class) -> rows k x class, columns seg
+        by_cell = by_cell.reshape(-1, ns, nc).transpose(0, 2, 1).reshape(-1, ns)
+        return np.concatenate([glob, by_cell])
+
+    def count(self, mask: np.ndarray) -> np.ndarray:
+        return np.add.reduceat(mask.astype(float), self.seg_starts)
+
+
+def _features(a, g, w):
+    """Per-sample monomials of sum q (moment 1) and sum q^2 (moment 2), scaled to W/m2."""
+    n_t, nc = w.shape
+    ap = [np.ones_like(a), a, a * a, a ** 3, a ** 4]
+    gp = [ap[0], g, g * g]
+    gw = g[:, None] * w
+    f1 = np.empty((n_t, 4 + 3 * nc))
+    f1[:, :4] = np.stack([ap[0], a, g, a * g], axis=1)
+    for i in range(3):
+        np.multiply(gw, ap[i][:, None], out=f1[:, 4 + i * nc:4 + (i + 1) * nc])
+    f1 /= 1000.0
+    f2 = np.empty((n_t, 9 + 13 * nc))
+    f2[:, :9] = np.stack([ap[i] * gp[j] for i in range(3) for j in range(3)], axis=1)
+    g2w, g2w2 = 2.0 * gw, gw * gw
+    blocks = ([(g2w, ap[i]) for i in range(4)] + [(g2w, g * ap[i]) for i in range(4)] +
+              [(g2w2, ap[i]) for i in range(5)])
+    for b, (left, right) in enumerate(blocks):
+        np.multiply(left, right[:, None], out=f2[:, 9 + b * nc:9 + (b + 1) * nc])
+    f2 /= 1e6
+    return f1, f2
+
+
+def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h):
+    """(sum q, sum of output before clipping, after clipping) by segment for the samples of
+    one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
+
+    The summed hours contribute ``p(z)`` through the factored sums; hours where some sample
+    of the sub-chunk may start late, clip or fall below the start are evaluated hour by hour
+    as corrections (``max(p, 0) - p``, ``min(max(p, 0), 0.9637) - p``) that are exactly 0
+    wherever nothing happens, plus the full value of unsummed hours that may deliver. The
+    corrections are added up in hour order (``cumsum``, into which exact zeros change
+    nothing), so a sample's result does not depend on the samples evaluated with it.
+    """
+    tp = grp.tp
+    a_lo, a_hi = a.min(), a.max()
+    g_lo, g_hi = g.min(), g.max()
+    w_lo = 1.0 / (u0.max() + u1.max() * wind_h)
+    w_hi = 1.0 / (u0.min() + u1.min() * wind_h)
+    u_lo, u_hi = _imul(1.0, 1.0, grp.ua + a_lo * grp.ub, grp.ua + a_hi * grp.ub)
+    v_lo, v_hi = _quad_bounds(grp.v0, grp.v1, grp.v2, a_lo, a_hi)
+    c_lo, c_hi = _imul(1.0, 1.0, 1.0 + g_lo * tp, 1.0 + g_hi * tp)
+    uc = _imul(u_lo, u_hi, c_lo, c_hi)
+    gwv = _imul(g_lo, g_hi, *_imul(w_lo, w_hi, v_lo, v_hi))
+    z_lo, z_hi = _imul(beta.min(), beta.max(), (uc[0] + gwv[0]) / 1000.0,
+                       (uc[1] + gwv[1]) / 1000.0)
+    z_lo = z_lo - MARGIN * np.abs(z_lo)
+    z_hi = z_hi + MARGIN * np.abs(z_hi)
+    plain = (z_lo > Z_START) & (z_hi < Z_CLIP)  # certainly between start and clipping
+    dark = z_hi < Z_START  # certainly below the start
+    cand = np.where(grp.base, ~plain, ~(dark | grp.unlit))
+    w_cls = 1.0 / (u0[:, None] + u1[:, None] * wind_values[None, :])  # (n_t, n_class)
+    f1, f2 = _features(a, g, w_cls)
+    s1 = f1 @ grp.k1
+    ns = grp.n_seg
+    total_q, q1 = s1[:, :ns], s1[:, ns:]
+    poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * (f2 @ grp.k2)) - \
+        _C0 * grp.n_base[None, :]
+    before, after = poly.copy(), poly
+    h = np.nonzero(cand)[0]
+    if h.size:  # per sample and hour, in place: z = beta q / 1000 and p(z)
+        a_, g_ = a[:, None], g[:, None]
+        q = grp.v2[h] * a_
+        q += grp.v1[h]
+        q *= a_
+        q += grp.v0[h]
+        q *= w_cls[:, grp.wind_class[h]]
+        q *= g_
+        u = grp.ub[h] * a_
+        u += grp.ua[h]
+        c = tp[h] * g_
+        c += 1.0
+        u *= c
+        q += u
+        q *= (beta / 1000.0)[:, None]
+        p = q * -_C2
+        p += _C1
+        p *= q
+        p -= _C0
+        summed = np.where(grp.base[h], p, 0.0)
+        np.maximum(p, 0.0, out=p)
+        # partial sums in hour order at each segment's first hour, then differences
+        cut = np.append(np.searchsorted(h, grp.seg_starts), h.size)
+        run = np.zeros((a.size, h.size + 1))
+        for out, clip in ((before, False), (after, True)):
+            if clip:
+                np.minimum(p, ETA_INV_REF, out=p)
+            np.subtract(p, summed, out=c)
+            np.cumsum(c, axis=1, out=run[:, 1:])
+            edges = run[:, cut]
+            out += edges[:, 1:] - edges[:, :-1]
+    return total_q, before, after
+
+
+def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarray, cols: dict,
+                  soil, seg: np.ndarray, n_seg: int, groups: dict | None = None) -> dict:
+    """Totals of the hourly chain for every sample, without an hourly array per sample.
+
+    Parameters
+    ----------
+    st : dict of str to numpy.ndarray
+        Facet stages of the daylight hours (``shaded_n``, ``shaded_g``, ``eff_n``, ``eff_g``
+        and, with a rear side, ``rear_n``, ``rear_g``) [W/m2], (k, n_h).
+    share : numpy.ndarray
+        Area fraction of each facet [-], (k,).
+    t_air, wind : numpy.ndarray
+        Air temperature [C] and wind speed [m/s], (n_h,).
+    cols : dict of str to numpy.ndarray
+        The energy parameters, (n_s, 1) each (see :data:`lcoe.plant.energy.ENERGY_PARAMS`).
+    soil : tuple (history (n_h,), coef (n_s, 1), cap (n_s, 1)) or None
+    seg : numpy.ndarray of int
+        Segment (run of one year and month) of each hour, (n_h,).
+    n_seg : int
+    groups : dict, optional
+        Cache of the groups' hourly series for these hours (kept by the caller per plane of
+        array and weather).
+
+    Returns
+    -------
+    dict
+        ``pdc_kw`` sum of DC before DC losses [kW h], ``unclipped_kw`` sum of inverter output
+        before clipping, ``clipped_kw`` after (n_s,), ``seg_clipped_kw`` (n_s, n_seg) by
+        segment, ``soiled_w_m2`` sum of the front effective light after soiling weighted by
+        facet (n_s,) or None without soiling [W/m2 h].
+    """
+
+    n_s = cols["site.albedo"].shape[0]
+    col = {k: v[:, 0] for k, v in cols.items()}
+    smp = {"a": col["site.albedo"], "g": col["plant.temp_coeff_per_c"],
+           "u0": col["plant.thermal_u0"], "u1": col["plant.thermal_u1"],
+           "p_stc": col["plant.dc_capacity_kw"],
+           "ac": col["plant.dc_capacity_kw"] / col["plant.dc_ac_ratio"],
+           "beta": (1.0 - col["plant.dc_loss_fraction"]) * col["plant.inverter_efficiency"] *
+           col["plant.dc_ac_ratio"]}
+    rear_k = col["plant.bifaciality"] * (1.0 - col["plant.rear_loss_fraction"])
+    if "rear_n" not in st:
+        rear_k = np.zeros(n_s)
+    keys = [rear_k] + ([] if soil is None else [soil[1][:, 0], soil[2][:, 0]])
+    uniq, inverse = distinct_rows(np.stack(keys, axis=1))
+    wind_values, wind_class = np.unique(wind, return_inverse=True)
+    site = {"wind": wind, "wind_values": wind_values, "wind_class": wind_class.reshape(-1),
+            "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}
+    out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
+           "clipped_kw": np.empty(n_s), "seg_clipped_kw": np.empty((n_s, n_seg)),
+           "soiled_w_m2": None if soil is None else np.empty(n_s)}
+    history = None if soil is None else hash(np.asarray(soil[0]).tobytes())
+    with one_blas_thread():  # small products: threads cost more than they give
+        for gi in range(uniq.shape[0]):
+            key = tuple(float(x) for x in uniq[gi]) + (history,)
+            if groups is None or key not in groups:
+                keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 1] * soil[0],
+                                                                  uniq[gi, 2])
+                grp = _Group(st, share, keep, key[0], site["t_prime"], site["wind_class"],
+                             site["wind_values"].size, seg, n_seg)
+                grp.soiled = None if keep is None else (
+                    (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
+                if groups is not None:
+                    if len(groups) > 64:
+                        groups.clear()
+                    groups[key] = grp
+            _group_sums(out, np.nonzero(inverse == gi)[0], groups[key] if groups is not None
+                        else grp, smp, site)
+    return out
+
+
+def _group_sums(out: dict, idx: np.ndarray, grp: _Group, smp: dict, site: dict) -> None:
+    """Fill ``out`` at the samples ``idx`` of one group (one soiling level and rear factor)."""
+    if grp.soiled is not None:
+        out["soiled_w_m2"][idx] = grp.soiled[0] + smp["a"][idx] * grp.soiled[1]
+    order = idx[np.argsort(smp["beta"][idx], kind="stable")]
+    for start in range(0, order.size, SUB_CHUNK):
+        sub = order[start:start + SUB_CHUNK]
+        q, before, after = _sub_chunk(grp, *(smp[k][sub] for k in ("a", "g", "u0", "u1",
+                                                                   "beta")),
+                                      site["wind_values"], site["wind"])
+        scale = (smp["ac"][sub] / ETA_INV_REF)[:, None]
+        out["pdc_kw"][sub] = smp["p_stc"][sub] * q.sum(axis=1)
+        out["unclipped_kw"][sub] = (scale * before).sum(axis=1)
+        out["seg_clipped_kw"][sub] = scale * after
+        out["clipped_kw"][sub] = out["seg_clipped_kw"][sub].sum(axis=1)
+
+
+def distinct_rows(keys: np.ndarray, any_repeat: bool = False):
+    """Distinct rows of ``keys`` (n, k) and the index of each row's distinct row (n,).
+
+    Shortcuts the sort of ``np.unique(axis=0)`` in the common cases: every column constant
+    (one row), or, with ``any_repeat``, some column without repeated values (no two rows
+    alike: the rows themselves, in order).
+    """
+    n = keys.shape[0]
+    varying = [j for j in range(keys.shape[1]) if np.any(keys[:, j] != keys[0, j])]
+    if not varying:
+        return keys[:1], np.zeros(n, dtype=np.intp)
+    if any_repeat and any(np.unique(keys[:, j]).size == n for j in varying):
+        return keys, np.arange(n)
+    uniq, inverse = np.unique(keys, axis=0, return_inverse=True)
+    return uniq, inverse.reshape(-1)
