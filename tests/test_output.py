@@ -288,7 +288,7 @@ _CHILD = textwrap.dedent("""
     import os, signal, sys
     sys.path.insert(0, {root!r})
     from pathlib import Path
-    from lcoe import output
+    from lcoe.export import staging as output
     target, step = Path(sys.argv[1]), sys.argv[2]
     die = lambda *a, **k: os.kill(os.getpid(), signal.SIGKILL)
     real_rename = os.rename
