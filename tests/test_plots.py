@@ -120,3 +120,11 @@ def test_pictures_drawn_once_in_the_shared_style(study):
         assert not ax.spines["top"].get_visible() and not ax.spines["right"].get_visible()
     assert {name: len(d) for name, d in draws.items()} == {name: 1 for name in figs}
     assert {k: matplotlib.rcParams[k] for k in STYLE} == before
+
+
+def test_every_loss_chain_stage_has_a_label():
+    # the waterfall and the comparison's loss table name each stage, none by its key
+    from lcoe.export.plots import LOSS_LABELS
+    from lcoe.plant.energy import LOSS_CHAIN
+
+    assert [k for k, _ in LOSS_CHAIN] == list(LOSS_LABELS)

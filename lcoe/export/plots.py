@@ -55,16 +55,25 @@ def styled(build):
             return build(*args, **kwargs)
 
     return run
-#: Short labels of the loss-chain stages (the loss *into* each stage).
+
+
+#: Short labels of the loss-chain stages (the loss *into* each stage), one per stage of
+#: :data:`lcoe.plant.energy.LOSS_CHAIN`.
 LOSS_LABELS = {
     "poa_kwh": "Nameplate x irradiation",
+    "after_row_shading_kwh": "Row shading",
+    "after_body_shading_kwh": "Body shading",
     "after_iam_kwh": "Incidence angle",
+    "after_soiling_kwh": "Soiling",
+    "after_bifacial_kwh": "Rear side",
     "after_temperature_kwh": "Temperature",
     "after_dc_losses_kwh": "DC losses",
     "after_inverter_kwh": "Inverter",
     "after_clipping_kwh": "Clipping",
     "after_ac_losses_kwh": "AC losses",
     "after_availability_kwh": "Availability",
+    "delivered_kwh": "Own consumption",
+    "after_outages_kwh": "Moving-part outages",
 }
 
 
@@ -287,10 +296,7 @@ def fig_loss_chain(loss_chain_kwh: Mapping):
         ax.text(x[i], vals[i - 1], text, ha="center", va="bottom", fontsize=8)
     ax.bar(x[-1], vals[-1], color=GREEN)
     ax.text(x[-1], vals[-1], f"{vals[-1]:,.0f}", ha="center", va="bottom", fontsize=8)
-    labels = [LOSS_LABELS.get(k, k.replace("after_", "").replace("_kwh", "").replace("_", " "))
-              for k in keys]
-    if keys[-1] == "delivered_kwh":  # the last loss is the one that leads to delivery
-        labels[-1] = "Own consumption" if "after_availability_kwh" in keys else "Availability"
+    labels = [LOSS_LABELS[k] for k in keys]
     ax.set_xticks(x, labels + ["Delivered"], rotation=35, ha="right", fontsize=9)
     lo = max(0.0, float(vals.min()) * 0.8)
     ax.set_ylim(lo, float(vals.max()) * 1.06)
