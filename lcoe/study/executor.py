@@ -304,17 +304,8 @@ def execute(tasks: Sequence, fn: Callable, workers: int = 1,
         except ImportError:
             results, errors = run_serial(tasks, fn, progress)
             return results, errors, "serial (in process)", [DASK_MISSING_NOTE]
-        # Workers forked from this process would inherit its work, so the first task would be
-        # run here first; they start from a fork server instead (see worker_start_method).
-        head = 1 if worker_start_method() == "fork" and len(tasks) > 1 else 0
-        results, errors = run_serial(tasks[:head], fn)
-        rest = (lambda done, total: progress(done + head, total + head)) if progress else None
-        if progress and head:
-            progress(head, len(tasks))
         with local_cluster(workers) as cluster, Client(cluster) as client:
-            more, more_errors = run_on_client(client, tasks[head:], fn, rest, _site_of)
-        results += more
-        errors.update({i + head: e for i, e in more_errors.items()})
+            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
         return results, errors, f"local dask cluster, {workers} worker processes", []
     results, errors = run_serial(tasks, fn, progress)
     return results, errors, "serial (in process)", []
