@@ -252,6 +252,7 @@ def test_pert_table_matches_scipy_beta(c):
     {"dist": "truncnormal", "mean": 0.0, "sd": 1.0, "low": 2.0, "high": 9.0},
     {"dist": "lognormal", "median": 0.005, "sigma": 0.35, "high": 0.02},
     {"dist": "normal", "mean": -3.0, "sd": 0.4},
+    {"dist": "normal", "mean": 1.0, "sd": 0.03, "low": 0.05},  # a bound 31.7 sd out
 ])
 def test_normal_quantiles_match_scipy(spec):
     # cross-implementation: scipy.stats.truncnorm / norm built independently here

@@ -194,3 +194,25 @@ def test_many_wind_speeds_are_summed_hour_by_hour(demo, monkeypatch):
     ref = evaluate(case, site, params, method="hourly").energy.loss_chain_kwh
     for k, v in ref.items():
         np.testing.assert_array_equal(got[k], v)
+
+
+@pytest.mark.parametrize("fixture", ["demo", "lender"])
+def test_a_samples_result_does_not_depend_on_its_companions(fixture, request):
+    # chunking and workers must give bit-identical numbers: the same 40 samples evaluated
+    # alone, among 600 others (wide ranges: many of them clip), in reverse order and one at a
+    # time give the very same bits on every output
+    case, site = request.getfixturevalue(fixture)
+    rng = np.random.default_rng(12)
+    ours = _sample(rng, 40, RANGES)
+    others = _sample(rng, 600, RANGES)
+    alone = _outputs(evaluate(case, site, ours))
+    mixed = {k: np.concatenate([others[k][:300], v, others[k][300:]]) for k, v in ours.items()}
+    among = _outputs(evaluate(case, site, mixed))
+    backwards = _outputs(evaluate(case, site, {k: v[::-1] for k, v in ours.items()}))
+    single = [_outputs(evaluate(case, site, {k: v[i:i + 1] for k, v in ours.items()}))
+              for i in (0, 17, 39)]
+    for k, v in alone.items():
+        np.testing.assert_array_equal(among[k][300:340], v, err_msg=k)
+        np.testing.assert_array_equal(backwards[k][::-1], v, err_msg=k)
+        for j, i in enumerate((0, 17, 39)):
+            np.testing.assert_array_equal(single[j][k][0], v[i], err_msg=k)

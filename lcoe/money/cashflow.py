@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from lcoe.case.threads import sample_product
 from lcoe.money.finance import discount_factors, real_rate
 
 LCOE_FORMULA = (
@@ -169,12 +170,12 @@ def build_cashflow(params: dict, replacements: Sequence, lifetime_years: int,
     years = np.stack([np.asarray(amounts[k][1], dtype=float) for k in names] +
                      [w for _, w in reps])
     lines = {k: coef[:, j, None] * years[j] * esc for j, k in enumerate(names)}
-    lines["replacements"] = (coef[:, len(names):] @ years[len(names):]) * esc
+    lines["replacements"] = sample_product(coef[:, len(names):], years[len(names):]) * esc
     lines["variable_om"] = p("costs.variable_om_per_kwh")[:, None] * energy_kwh * esc
     for name, line in (extra_cost_lines or {}).items():
         lines[name] = np.broadcast_to(line, (n_s, n + 1)).astype(float)
     lines = {k: lines[k] for k in COST_LINES + tuple(extra_cost_lines or ())}
-    total = (coef @ years) * esc + lines["variable_om"]
+    total = sample_product(coef, years) * esc + lines["variable_om"]
     for name in extra_cost_lines or ():
         total = total + lines[name]
     r_nom = p("finance.discount_rate")

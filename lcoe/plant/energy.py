@@ -26,6 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from lcoe.case.threads import sample_product
 from lcoe.site.irradiance import FacetIrradiance, PlaneOfArray, as_facets
 from lcoe.site.weather import Weather
 
@@ -568,8 +569,8 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     seg = raw["seg_clipped_kw"] * (ac_keep * avail)[:, None]
     if parasitic is not None:
         seg -= np.add.reduceat(parasitic, starts, axis=1)
-    monthly = seg @ seg_month / n_years
-    yearly = seg @ seg_year
+    monthly = sample_product(seg, seg_month) / n_years
+    yearly = sample_product(seg, seg_year)
     return EnergyResult(annual_kwh=chain["delivered_kwh"], monthly_kwh=monthly,
                         yearly_kwh=yearly, loss_chain_kwh=chain, poa_kwh_m2=poa_kwh_m2,
                         dc_capacity_kw=cols["plant.dc_capacity_kw"][:, 0], hourly_ac_kw=hourly,

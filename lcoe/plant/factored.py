@@ -42,7 +42,7 @@ import math
 
 import numpy as np
 
-from lcoe.case.threads import one_blas_thread
+from lcoe.case.threads import one_blas_thread, sample_product
 
 #: The per-sample inputs these sums handle: :data:`lcoe.plant.energy.ENERGY_PARAMS` must equal this
 #: set (a new one enters the hourly method, here, and ``tests/test_factored.py``).
@@ -63,7 +63,7 @@ Z_TOP = _C1 / _C2 - Z_CLIP
 #: Relative safety margin of the interval classification (rounding of the bounds).
 MARGIN = 1e-9
 #: Samples that share interval bounds (sorted by beta); smaller = fewer hours left hourly.
-SUB_CHUNK = 128
+SUB_CHUNK = 256
 #: Hours whose effective light without albedo reaches this are summed (the rest, dawn and
 #: dusk, are evaluated per sample unless certainly below the inverter's start) [W/m2].
 BASE_LIGHT_W_M2 = 5.0
@@ -128,10 +128,12 @@ class _Group:
         # the summed hours, and the hours without any light (nothing for any sample).
         self.base = ua >= BASE_LIGHT_W_M2
         self.unlit = (ua == 0) & (ub == 0) & (v0 == 0) & (v1 == 0) & (v2 == 0)
+        self.lit = np.nonzero(~self.unlit)[0]
         every = np.ones(ua.size, dtype=bool)
         self.k1 = np.concatenate([self.coefficients(every, 1), self.coefficients(self.base, 1)],
                                  axis=1)
         self.k2 = self.coefficients(self.base, 2)
+        self.k1t, self.k2t = np.ascontiguousarray(self.k1.T), np.ascontiguousarray(self.k2.T)
         self.n_base = self.count(self.base)
 
     def coefficients(self, mask: np.ndarray, moment: int) -> np.ndarray:
@@ -151,46 +153,47 @@ class _Group:
         return np.add.reduceat(mask.astype(float), self.seg_starts)
 
 
-def _features(a, g, w):
-    """Per-sample monomials of sum q (moment 1) and sum q^2 (moment 2), scaled to W/m2."""
-    n_t, nc = w.shape
-    ap = [np.ones_like(a), a, a * a, a ** 3, a ** 4]
-    gp = [ap[0], g, g * g]
-    gw = g[:, None] * w
-    f1 = np.empty((n_t, 4 + 3 * nc))
-    f1[:, :4] = np.stack([ap[0], a, g, a * g], axis=1)
-    for i in range(3):
-        np.multiply(gw, ap[i][:, None], out=f1[:, 4 + i * nc:4 + (i + 1) * nc])
+def _features(a, g, gw):
+    """Per-sample monomials of sum q (moment 1) and sum q^2 (moment 2), scaled to W/m2:
+    ``(n_features, n_t)`` each (samples along rows, so every product runs over samples).
+
+    ``gw`` is g x w per wind class and sample, (n_class, n_t).
+    """
+    nc, n_t = gw.shape
+    ap = np.stack([np.ones_like(a), a, a * a, a ** 3, a ** 4])  # (5, n_t)
+    f1 = np.empty((4 + 3 * nc, n_t))
+    f1[:4] = np.stack([ap[0], a, g, a * g])
+    np.multiply(ap[:3, None, :], gw[None, :, :], out=f1[4:].reshape(3, nc, n_t))
     f1 /= 1000.0
-    f2 = np.empty((n_t, 9 + 13 * nc))
-    f2[:, :9] = np.stack([ap[i] * gp[j] for i in range(3) for j in range(3)], axis=1)
-    g2w, g2w2 = 2.0 * gw, gw * gw
-    blocks = ([(g2w, ap[i]) for i in range(4)] + [(g2w, g * ap[i]) for i in range(4)] +
-              [(g2w2, ap[i]) for i in range(5)])
-    for b, (left, right) in enumerate(blocks):
-        np.multiply(left, right[:, None], out=f2[:, 9 + b * nc:9 + (b + 1) * nc])
+    f2 = np.empty((9 + 13 * nc, n_t))
+    gp = np.stack([ap[0], g, g * g])
+    np.multiply(ap[:3, None, :], gp[None, :, :], out=f2[:9].reshape(3, 3, n_t))
+    # blocks of nc rows: 2 g w a^i (i < 4), 2 g w g a^i (i < 4), (g w)^2 a^i (i < 5)
+    blocks = f2[9:].reshape(13, nc, n_t)
+    right = np.concatenate([ap[:4], g * ap[:4]])
+    np.multiply(right[:, None, :], (2.0 * gw)[None, :, :], out=blocks[:8])
+    np.multiply(ap[:, None, :], (gw * gw)[None, :, :], out=blocks[8:])
     f2 /= 1e6
     return f1, f2
 
 
-def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h):
-    """(sum q, sum of output before clipping, after clipping) by segment for the samples of
-    one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
+def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h) -> np.ndarray:
+    """The hours of ``hrs`` where some of the samples may start late, clip or fall below the
+    inverter's start (summed hours), or may deliver at all (unsummed hours).
 
-    The summed hours contribute ``p(z)`` through the factored sums; hours where some sample
-    of the sub-chunk may start late, clip or fall below the start are evaluated hour by hour
-    as corrections (``max(p, 0) - p``, ``min(max(p, 0), 0.9637) - p``) that are exactly 0
-    wherever nothing happens, plus the full value of unsummed hours that may deliver. The
-    corrections are added up in hour order (``cumsum``, into which exact zeros change
-    nothing), so a sample's result does not depend on the samples evaluated with it.
+    Interval bounds of ``z = beta q`` over the samples' ranges of albedo, temperature
+    coefficient, thermal coefficients and ``beta``; every other hour of ``hrs`` is certainly
+    between start and clipping (summed) or certainly dark for every sample.
     """
-    tp = grp.tp
+    tp = grp.tp[hrs]
     a_lo, a_hi = a.min(), a.max()
     g_lo, g_hi = g.min(), g.max()
-    w_lo = 1.0 / (u0.max() + u1.max() * wind_h)
-    w_hi = 1.0 / (u0.min() + u1.min() * wind_h)
-    u_lo, u_hi = _imul(1.0, 1.0, grp.ua + a_lo * grp.ub, grp.ua + a_hi * grp.ub)
-    v_lo, v_hi = _quad_bounds(grp.v0, grp.v1, grp.v2, a_lo, a_hi)
+    wind = wind_h[hrs]
+    w_lo = 1.0 / (u0.max() + u1.max() * wind)
+    w_hi = 1.0 / (u0.min() + u1.min() * wind)
+    ua, ub = grp.ua[hrs], grp.ub[hrs]
+    u_lo, u_hi = _imul(1.0, 1.0, ua + a_lo * ub, ua + a_hi * ub)
+    v_lo, v_hi = _quad_bounds(grp.v0[hrs], grp.v1[hrs], grp.v2[hrs], a_lo, a_hi)
     c_lo, c_hi = _imul(1.0, 1.0, 1.0 + g_lo * tp, 1.0 + g_hi * tp)
     uc = _imul(u_lo, u_hi, c_lo, c_hi)
     gwv = _imul(g_lo, g_hi, *_imul(w_lo, w_hi, v_lo, v_hi))
@@ -200,47 +203,67 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h):
     z_hi = z_hi + MARGIN * np.abs(z_hi)
     plain = (z_lo > Z_START) & (z_hi < Z_CLIP)  # certainly between start and clipping
     dark = z_hi < Z_START  # certainly below the start
-    cand = np.where(grp.base, ~plain, ~(dark | grp.unlit))
-    w_cls = 1.0 / (u0[:, None] + u1[:, None] * wind_values[None, :])  # (n_t, n_class)
-    f1, f2 = _features(a, g, w_cls)
-    s1 = f1 @ grp.k1
+    return hrs[np.where(grp.base[hrs], ~plain, ~dark)]
+
+
+def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.ndarray):
+    """(sum q, sum of output before clipping, after clipping) by segment for the samples of
+    one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
+
+    The summed hours contribute ``p(z)`` through the factored sums; the hours of ``hrs``
+    where some sample of the sub-chunk may start late, clip or fall below the start are
+    evaluated hour by hour as corrections (``max(p, 0) - p``, ``min(max(p, 0), 0.9637) - p``)
+    that are exactly 0 wherever nothing happens, plus the full value of unsummed hours that
+    may deliver. Laid out hours x samples, the corrections are added up one hour after the
+    other (running sums, into which exact zeros change nothing; a segment's share is the
+    difference of the running sums at its ends), so a sample's result does not depend on
+    the samples evaluated with it.
+    """
+    h = _candidates(grp, hrs, a, g, u0, u1, beta, wind_h)
+    gw = g / (u0 + u1 * wind_values[:, None])  # g w, (n_class, n_t)
+    f1, f2 = _features(a, g, gw)
+    # samples x segments in C order: a row's sums then run the same way for any n_t
+    s1 = np.ascontiguousarray(sample_product(grp.k1t, f1, "columns").T)
     ns = grp.n_seg
     total_q, q1 = s1[:, :ns], s1[:, ns:]
-    poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * (f2 @ grp.k2)) - \
-        _C0 * grp.n_base[None, :]
-    before, after = poly.copy(), poly
-    h = np.nonzero(cand)[0]
-    if h.size:  # per sample and hour, in place: z = beta q / 1000 and p(z)
-        a_, g_ = a[:, None], g[:, None]
-        q = grp.v2[h] * a_
-        q += grp.v1[h]
-        q *= a_
-        q += grp.v0[h]
-        q *= w_cls[:, grp.wind_class[h]]
-        q *= g_
-        u = grp.ub[h] * a_
-        u += grp.ua[h]
-        c = tp[h] * g_
+    q2 = np.ascontiguousarray(sample_product(grp.k2t, f2, "columns").T)
+    poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * q2) - _C0 * grp.n_base[None, :]
+    after = poly
+    before = poly.sum(axis=1)
+    if h.size:  # hours x samples: z = beta q / 1000, p(z) and the corrections, in place
+        col = {k: getattr(grp, k)[h][:, None] for k in ("ua", "ub", "v0", "v1", "v2", "tp")}
+        gw = gw[grp.wind_class[h]]  # (H, n_t)
+        u = col["ub"] * a
+        u += col["ua"]
+        c = col["tp"] * g
         c += 1.0
         u *= c
-        q += u
-        q *= (beta / 1000.0)[:, None]
-        p = q * -_C2
+        v = col["v2"] * a
+        v += col["v1"]
+        v *= a
+        v += col["v0"]
+        v *= gw
+        u += v
+        u *= beta / 1000.0
+        p = u * -_C2
         p += _C1
-        p *= q
+        p *= u
         p -= _C0
-        summed = np.where(grp.base[h], p, 0.0)
-        np.maximum(p, 0.0, out=p)
-        # partial sums in hour order at each segment's first hour, then differences
-        cut = np.append(np.searchsorted(h, grp.seg_starts), h.size)
-        run = np.zeros((a.size, h.size + 1))
-        for out, clip in ((before, False), (after, True)):
-            if clip:
-                np.minimum(p, ETA_INV_REF, out=p)
-            np.subtract(p, summed, out=c)
-            np.cumsum(c, axis=1, out=run[:, 1:])
-            edges = run[:, cut]
-            out += edges[:, 1:] - edges[:, :-1]
+        r = np.maximum(p, 0.0, out=c)
+        np.minimum(r, ETA_INV_REF, out=r)
+        base = grp.base[h]
+        r[base] -= p[base]
+        np.subtract(p, ETA_INV_REF, out=v)
+        np.maximum(v, 0.0, out=v)  # clipped away
+        # running sums down the hours (accumulate is sequential by definition; numpy's
+        # reductions may sum pairwise, whose grouping depends on how many hours there are)
+        np.cumsum(r, axis=0, out=r)
+        np.cumsum(v, axis=0, out=v)
+        ends = np.append(np.searchsorted(h, grp.seg_starts), h.size)  # (n_seg + 1,)
+        edges = np.zeros((ends.size, a.size))
+        edges[ends > 0] = r[ends[ends > 0] - 1]
+        after = poly + np.ascontiguousarray((edges[1:] - edges[:-1]).T)
+        before = after.sum(axis=1) + v[-1]
     return total_q, before, after
 
 
@@ -320,15 +343,19 @@ def _group_sums(out: dict, idx: np.ndarray, grp: _Group, smp: dict, site: dict) 
     if grp.soiled is not None:
         out["soiled_w_m2"][idx] = grp.soiled[0] + smp["a"][idx] * grp.soiled[1]
     order = idx[np.argsort(smp["beta"][idx], kind="stable")]
+    # hours that any sample of the group may need one by one: the sub-chunks' bounds look
+    # only at these (a superset of each sub-chunk's own hours)
+    hrs = _candidates(grp, grp.lit, *(smp[k][idx] for k in ("a", "g", "u0", "u1", "beta")),
+                      site["wind"])
     for start in range(0, order.size, SUB_CHUNK):
         sub = order[start:start + SUB_CHUNK]
         q, before, after = _sub_chunk(grp, *(smp[k][sub] for k in ("a", "g", "u0", "u1",
                                                                    "beta")),
-                                      site["wind_values"], site["wind"])
-        scale = (smp["ac"][sub] / ETA_INV_REF)[:, None]
+                                      site["wind_values"], site["wind"], hrs)
+        scale = smp["ac"][sub] / ETA_INV_REF
         out["pdc_kw"][sub] = smp["p_stc"][sub] * q.sum(axis=1)
-        out["unclipped_kw"][sub] = (scale * before).sum(axis=1)
-        out["seg_clipped_kw"][sub] = scale * after
+        out["unclipped_kw"][sub] = scale * before
+        out["seg_clipped_kw"][sub] = scale[:, None] * after
         out["clipped_kw"][sub] = out["seg_clipped_kw"][sub].sum(axis=1)
 
 

@@ -289,13 +289,16 @@ class Distribution:
                                                1.0 - np.sqrt((1.0 - c) * (1.0 - u)))
         if self.dist in ("normal", "truncnormal", "lognormal"):
             loc, scale, low, high = _normal_terms(self.dist, p, self.low, self.high)
-            z = _normal_quantile(u, (low - loc) / scale, (high - loc) / scale)
+            alpha, beta = (low - loc) / scale, (high - loc) / scale
+            z = _normal_quantile(u, alpha, beta)
             if z is not None:
                 x = loc + scale * z
                 # Next to a truncation bound loc + scale z cancels: scipy's truncnorm there.
+                # (A bound beyond FAR_SD does not truncate anything a double can tell.)
                 tail = (u < 1e-6) | (u > 1.0 - 1e-6)
-                if (math.isfinite(low) or math.isfinite(high)) and np.any(tail):
-                    x = np.where(tail, self._rv.ppf(np.where(tail, u, 0.5)), x)
+                if (alpha >= -FAR_SD or beta <= FAR_SD) and np.any(tail):
+                    x = np.array(x, dtype=float)
+                    x[tail] = self._rv.ppf(u[tail])
                 return x
         return self._rv.ppf(u)
 
@@ -423,6 +426,10 @@ def _normal_terms(dist: str, p: dict, low, high) -> tuple[float, float, float, f
     return (loc, scale, -math.inf if low is None else low, math.inf if high is None else high)
 
 
+#: Standard deviations beyond which a truncation bound of a normal law changes nothing.
+FAR_SD = 30.0
+
+
 def _normal_quantile(u: np.ndarray, alpha: float, beta: float) -> np.ndarray | None:
     """Quantile of the standard normal restricted to [alpha, beta], or None when the window
     holds too little mass for this formula (scipy's truncnorm then).
@@ -433,11 +440,16 @@ def _normal_quantile(u: np.ndarray, alpha: float, beta: float) -> np.ndarray | N
     """
     from scipy.special import ndtr, ndtri
 
-    if alpha == -math.inf and beta == math.inf:
-        return ndtri(u)
-    lo_tail, hi_tail = float(ndtr(alpha)), float(ndtr(-beta))
+    if alpha > FAR_SD or beta < -FAR_SD:  # the whole window lies far out in one tail
+        return None
+    # A bound more than FAR_SD sd out cuts off < 1e-197 of the mass: that side counts as open.
+    a_in = -math.inf if alpha < -FAR_SD else alpha
+    b_in = math.inf if beta > FAR_SD else beta
+    if a_in == -math.inf and b_in == math.inf:
+        return np.clip(ndtri(u), alpha, beta)
+    lo_tail, hi_tail = float(ndtr(a_in)), float(ndtr(-b_in))
     mass = 1.0 - lo_tail - hi_tail
-    if not mass > 1e-3 or min(abs(alpha), abs(beta)) > 30.0:
+    if not mass > 1e-3:
         return None
     upper = u > 0.5
     z = np.where(upper, -ndtri(hi_tail + (1.0 - u) * mass), ndtri(lo_tail + u * mass))

@@ -173,9 +173,9 @@ def iman_conover(
     if n <= d:
         raise ValueError(f"u has {n} rows for {d} columns: expected more rows than columns")
 
-    from scipy import stats
+    from scipy.special import ndtri
 
-    scores = stats.norm.ppf(np.arange(1, n + 1) / (n + 1.0))
+    scores = ndtri(np.arange(1, n + 1) / (n + 1.0))
     m = np.column_stack([rng.permutation(scores) for _ in range(d)])
     e = np.corrcoef(m, rowvar=False)
     q = np.linalg.cholesky(e)
