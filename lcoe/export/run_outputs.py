@@ -16,6 +16,8 @@ def write_outputs(result: RunResult, out_dir, force: bool = False,
 
     With an uncertainty study also ``trials.csv``; with ``hourly`` also every hour of the
     deterministic case (``hourly.parquet``, or ``hourly.csv`` when pyarrow is missing).
+    The pictures are drawn in a forked process while the other files are written, where one
+    can be forked (:func:`lcoe.export.parallel.beside`; the files are the same either way).
     ``out_dir`` is a folder, published whole in one rename (:func:`lcoe.export.staging.publish`; a
     non-empty folder is refused unless
     ``force``), or the :class:`lcoe.export.staging.Stage` of a command that already holds it.
@@ -23,19 +25,21 @@ def write_outputs(result: RunResult, out_dir, force: bool = False,
     from lcoe.study.progress import phase
 
     phase(progress, "writing outputs")
+    from lcoe.export.parallel import beside
     from lcoe.export.plots import render_figures
     from lcoe.export.report import write_report
     from lcoe.export.summary import summary_json
     from lcoe.export.workbook.book import write_workbook
 
-    with staged(out_dir, force=force, replace_own=replace_own) as out:
+    with staged(out_dir, force=force, replace_own=replace_own) as out, \
+            beside(lambda: render_figures(result)) as pictures:  # drawn by a child meanwhile
         out.write_text("summary.json", summary_json(result))
         out.write_with("workbook.xlsx", lambda p: write_workbook(result, p))
         if "uncertainty" in result.extras:
             from lcoe.export.trials_csv import write_trials_csv
 
             out.write_with("trials.csv", lambda p: write_trials_csv(result, p))
-        figures = render_figures(result)
+        figures = pictures.result()
         for name, png in figures.items():
             out.write_with(name, lambda p, png=png: p.write_bytes(png))
         out.write_with("report.html", lambda p: write_report(result, p, figures))

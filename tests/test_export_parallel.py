@@ -1,0 +1,120 @@
+"""Pictures drawn in a forked child while the workbook is written: same files, no leftovers.
+
+The child (:func:`lcoe.export.parallel.beside`) only sends bytes back; any failure of it makes
+the command draw the pictures itself; leaving the block early kills and reaps it.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import threading
+import time
+
+import pytest
+from conftest import DEMO
+
+from lcoe.export import parallel
+from lcoe.export.parallel import beside, can_fork
+from lcoe.export.run_outputs import write_outputs
+from lcoe.study.run import run_case
+
+needs_fork = pytest.mark.skipif(not can_fork(), reason="forks only on Linux without threads")
+
+
+def _files(folder):
+    return {p.name: p.read_bytes() for p in sorted(folder.iterdir())}
+
+
+def _children_of_this_process() -> set[int]:
+    """Process ids whose parent is this process (zombies included)."""
+    kids = set()
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            try:
+                with open(f"/proc/{entry}/stat") as fh:
+                    fields = fh.read().rsplit(")", 1)[1].split()
+            except OSError:
+                continue
+            if int(fields[1]) == os.getpid():
+                kids.add(int(entry))
+    return kids
+
+
+@needs_fork
+def test_forked_pictures_give_the_same_files(tmp_path, monkeypatch):
+    result = run_case(DEMO, samples=300, sobol_base=0)
+    forked = []
+    real_start = parallel.Beside._start
+
+    def start(job):
+        real_start(job)
+        forked.append(job.forked)
+
+    monkeypatch.setattr(parallel.Beside, "_start", start)
+    write_outputs(result, tmp_path / "forked")
+    assert forked == [True]
+    monkeypatch.setattr(parallel, "can_fork", lambda: False)
+    write_outputs(result, tmp_path / "here")
+    assert forked == [True, False]
+    a, b = _files(tmp_path / "forked"), _files(tmp_path / "here")
+    assert set(a) == set(b) and {"lcoe_distribution.png", "tornado.png", "trials.csv"} <= set(a)
+    for name in a:
+        if name != "workbook.xlsx":  # the zip holds the time of writing
+            assert a[name] == b[name], name
+
+
+@needs_fork
+def test_value_comes_from_the_child():
+    with beside(lambda: os.getpid()) as job:
+        assert job.forked
+        assert job.result() != os.getpid()
+
+
+@needs_fork
+@pytest.mark.parametrize("how", ["raises", "dies", "unpicklable"])
+def test_failed_child_means_the_value_is_computed_here(how):
+    parent = os.getpid()
+
+    def compute():
+        if os.getpid() != parent:
+            if how == "raises":
+                raise RuntimeError("in the child only")
+            if how == "dies":
+                os.kill(os.getpid(), signal.SIGKILL)
+            return lambda: None  # cannot be pickled
+        return "computed here"
+
+    with beside(compute) as job:
+        assert job.forked
+        assert job.result() == "computed here"
+    assert not _children_of_this_process()
+
+
+def test_an_error_is_raised_in_the_command_as_without_a_child():
+    def compute():
+        raise ValueError("bad picture")
+
+    with beside(compute) as job, pytest.raises(ValueError, match="bad picture"):
+        job.result()
+
+
+@needs_fork
+def test_leaving_the_block_early_kills_and_reaps_the_child():
+    with pytest.raises(KeyboardInterrupt), beside(lambda: time.sleep(60)) as job:
+        assert job.forked
+        raise KeyboardInterrupt
+    assert not _children_of_this_process()
+
+
+def test_no_fork_while_another_thread_runs():
+    stop = threading.Event()
+    t = threading.Thread(target=stop.wait)
+    t.start()
+    try:
+        with beside(lambda: os.getpid()) as job:
+            assert not job.forked
+            assert job.result() == os.getpid()
+    finally:
+        stop.set()
+        t.join()
