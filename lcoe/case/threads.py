@@ -31,34 +31,34 @@ def one_blas_thread():
     return _CONTROLLER[0].limit(limits=1)
 
 
-def sample_product(a: np.ndarray, b: np.ndarray, samples: str = "rows") -> np.ndarray:
+def sample_product(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """``a @ b`` with each sample's numbers computed the same way whatever the other samples.
 
     An optimised BLAS computes the last few rows (or columns) of a product, the remainder of
     their count over its register block, with other kernels whose rounding differs in the last
-    bit. Padding the samples with zeros to a multiple of :data:`BLAS_BLOCK` puts every sample
-    in a full block, so chunking and workers cannot change a result (``tests/test_factored.py``
-    evaluates samples alone, one at a time and among others, and compares the bits).
+    bit, and a product with a single row with another routine. Padding the rows of ``a`` and
+    the columns of ``b`` with zeros to a multiple of :data:`BLAS_BLOCK` puts every element in
+    a full block, so neither the samples (rows or columns) nor the hours evaluated with them
+    can change a result (``tests/test_factored.py`` evaluates samples alone, one at a time
+    and among others, and compares the bits).
 
     Parameters
     ----------
     a, b : numpy.ndarray
-        2-D operands.
-    samples : {"rows", "columns"}
-        Whether the samples are the rows of ``a`` or the columns of ``b``.
+        2-D operands, (n, k) and (k, m).
 
     Returns
     -------
     numpy.ndarray
-        ``a @ b``.
+        ``a @ b``, (n, m).
     """
-    rows = samples == "rows"
-    n = a.shape[0] if rows else b.shape[1]
-    m = n + (-n) % BLAS_BLOCK
-    if rows:
-        wide = np.zeros((m, a.shape[1]))
+    n, m = a.shape[0], b.shape[1]
+    if n % BLAS_BLOCK:
+        wide = np.zeros((n + (-n) % BLAS_BLOCK, a.shape[1]))
         wide[:n] = a
-        return (wide @ np.ascontiguousarray(b))[:n]
-    wide = np.zeros((b.shape[0], m))  # C order: a transposed operand takes other kernels
-    wide[:, :n] = b
-    return (np.ascontiguousarray(a) @ wide)[:, :n]
+        a = wide
+    if m % BLAS_BLOCK:
+        wide = np.zeros((b.shape[0], m + (-m) % BLAS_BLOCK))  # C order: a transposed
+        wide[:, :m] = b  # operand takes other kernels
+        b = wide
+    return (np.ascontiguousarray(a) @ np.ascontiguousarray(b))[:n, :m]

@@ -133,6 +133,8 @@ class _Group:
         self.k1 = np.concatenate([self.coefficients(every, 1), self.coefficients(self.base, 1)],
                                  axis=1)
         self.k2 = self.coefficients(self.base, 2)
+        self.zc1 = np.stack([ua, ub, ua * tp, ub * tp], axis=1)  # per hour, for z
+        self.zc2 = np.stack([v0, v1, v2], axis=1)
         self.k1t, self.k2t = np.ascontiguousarray(self.k1.T), np.ascontiguousarray(self.k2.T)
         self.n_base = self.count(self.base)
 
@@ -223,36 +225,28 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
     gw = g / (u0 + u1 * wind_values[:, None])  # g w, (n_class, n_t)
     f1, f2 = _features(a, g, gw)
     # samples x segments in C order: a row's sums then run the same way for any n_t
-    s1 = np.ascontiguousarray(sample_product(grp.k1t, f1, "columns").T)
+    s1 = np.ascontiguousarray(sample_product(grp.k1t, f1).T)
     ns = grp.n_seg
     total_q, q1 = s1[:, :ns], s1[:, ns:]
-    q2 = np.ascontiguousarray(sample_product(grp.k2t, f2, "columns").T)
+    q2 = np.ascontiguousarray(sample_product(grp.k2t, f2).T)
     poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * q2) - _C0 * grp.n_base[None, :]
     after = poly
     before = poly.sum(axis=1)
     if h.size:  # hours x samples: z = beta q / 1000, p(z) and the corrections, in place
-        col = {k: getattr(grp, k)[h][:, None] for k in ("ua", "ub", "v0", "v1", "v2", "tp")}
-        gw = gw[grp.wind_class[h]]  # (H, n_t)
-        u = col["ub"] * a
-        u += col["ua"]
-        c = col["tp"] * g
-        c += 1.0
-        u *= c
-        v = col["v2"] * a
-        v += col["v1"]
-        v *= a
-        v += col["v0"]
-        v *= gw
+        # z = beta / 1000 (ua + a ub + g ua T' + a g ub T') + beta / 1000 g w (v0 + a v1 + a^2 v2)
+        b = beta / 1000.0
+        ab = a * b
+        u = sample_product(grp.zc1[h], np.stack([b, ab, g * b, g * ab]))
+        v = sample_product(grp.zc2[h], np.stack([b, ab, a * ab]))
+        v *= gw[grp.wind_class[h]]
         u += v
-        u *= beta / 1000.0
         p = u * -_C2
         p += _C1
         p *= u
         p -= _C0
-        r = np.maximum(p, 0.0, out=c)
+        r = np.maximum(p, 0.0)
         np.minimum(r, ETA_INV_REF, out=r)
-        base = grp.base[h]
-        r[base] -= p[base]
+        np.subtract(r, p, out=r, where=grp.base[h][:, None])  # summed hours: the correction
         np.subtract(p, ETA_INV_REF, out=v)
         np.maximum(v, 0.0, out=v)  # clipped away
         # running sums down the hours (accumulate is sequential by definition; numpy's
