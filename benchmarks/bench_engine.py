@@ -322,6 +322,8 @@ def part_speed(name: str) -> dict:
     """Seconds per trial: engine (and its hourly method), fair loop, naive loop."""
     import numpy as np
 
+    from lcoe.study.design import _BLOCKS
+
     ctx = _context(name)
     n_eng, n_fair, n_naive = (2000, 100, 2) if QUICK else (10_000, 300, 5)
     design = _design(ctx, max(n_eng, n_fair, n_naive), seed=5)
@@ -330,10 +332,28 @@ def part_speed(name: str) -> dict:
         engine_trials(ctx, design, 200, method=m)  # warm-up: plane of array cached
         reps = []
         for _ in range(3):
+            _BLOCKS.clear()  # the design keeps a few blocks of draws: draw them every time
             t0 = time.perf_counter()
             engine_trials(ctx, design, n_eng, method=m)
             reps.append((time.perf_counter() - t0) / n_eng)
         res[m or "engine"] = {"s_per_trial": min(reps), "trials": n_eng}
+    # the same trials in two steps: drawing the inputs, then the model on them (the fair loop
+    # is given its inputs, so "model" is the like-for-like figure)
+    from lcoe.model import evaluate
+
+    draws, model = [], []
+    for _ in range(3):
+        _BLOCKS.clear()
+        t0 = time.perf_counter()
+        inputs = [_trial_inputs(ctx, design, a, min(n_eng, a + 1000))
+                  for a in range(0, n_eng, 1000)]
+        t1 = time.perf_counter()
+        for params, factors in inputs:
+            evaluate(ctx["case"], ctx["site"], params, weather_factors=factors)
+        t2 = time.perf_counter()
+        draws.append((t1 - t0) / n_eng)
+        model.append((t2 - t1) / n_eng)
+    res["engine"].update(draws_s=min(draws), model_s=min(model))
     params, factors = _trial_inputs(ctx, design, 0, n_fair)
     t0 = time.perf_counter()
     light = site_light(ctx["case"], ctx["site"].weather, _trial_params(ctx["case"], params, 0))
@@ -406,6 +426,9 @@ def main() -> None:
     for name in CASES:
         s = _run("speed", name)
         eng = s["engine"]["s_per_trial"]
+        print(f"{name:6s} per trial: engine {1e6 * eng:8.1f} us (drawing the inputs "
+              f"{1e6 * s['engine']['draws_s']:.1f} us, the model on them "
+              f"{1e6 * s['engine']['model_s']:.1f} us: {s['fair']['s_per_trial'] / s['engine']['model_s']:.0f}x the fair loop, which is given its inputs)")
         print(f"{name:6s} per trial: engine {1e6 * eng:8.1f} us | fair loop "
               f"{1e3 * s['fair']['s_per_trial']:7.2f} ms (site part {s['fair']['site_s']:.1f} s"
               f" once) | naive loop {s['naive']['s_per_trial']:6.2f} s")
