@@ -98,7 +98,22 @@ def test_lender_report_has_the_debt_section(tmp_path):
                  "LLCR", "PLCR", "Breach odds over 32 trials", "as a year-1 contract price",
                  "Equity NPV at the discount rate"):
         assert text in page, text
+    # the demo's loan (41.4 M) is below what each constraint allows alone (43.6 M, 44.7 M):
+    # the page says why, with the smallest of those amounts
+    b = result.extras["bankability"].to_summary()
+    alone = min(r["debt"] for r in b["sizing_table"] if r["debt"] is not None)
+    assert b["debt"] < alone - 1e5
+    assert f"smaller than what any one constraint allows alone (at least {alone:,.0f}" in page
     # the tornado ranks the drivers of the minimum DSCR
     sens = result.extras["sensitivity"]
     assert sens.output == "min_dscr" and sens.tornado
     assert all(np.isfinite([t["y_low"], t["y_high"]]).all() for t in sens.tornado)
+
+
+def test_no_sentence_when_one_constraint_sets_the_loan():
+    from lcoe.export.debt_section import _below_each
+
+    table = [{"debt": 100.0}, {"debt": 120.0}]
+    assert _below_each(100.0, table, "USD") == ""  # the tighter constraint alone sets it
+    assert _below_each(90.0, [{"debt": 100.0}, {"debt": None}], "USD") == ""  # one amount only
+    assert "at least 100 USD" in _below_each(90.0, table, "USD")

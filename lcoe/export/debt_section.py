@@ -41,6 +41,19 @@ def _table(head, rows) -> str:
     return "".join(out) + "</table>"
 
 
+def _below_each(debt: float, sizing: list, cur: str) -> str:
+    """Why the loan drawn can be smaller than what each constraint allows on its own."""
+    alone = [r["debt"] for r in sizing if r.get("debt") is not None]
+    if len(alone) < 2 or debt >= min(alone) - 0.5:
+        return ""
+    return (f" It is smaller than what any one constraint allows alone (at least "
+            f"{min(alone):,.0f} {_e(cur)}): the debt service follows the shape of one case's "
+            f"cash flow and is scaled down until every constraint holds in every year of the "
+            f"tenor; the binding constraint stops that scaling in its tightest year, a year "
+            f"where the service shaped on another case leaves it less room than its own shape "
+            f"would.")
+
+
 def debt_section_html(b: dict, currency: str, fan_png: bytes | None = None) -> str:
     """HTML of the debt section.
 
@@ -73,7 +86,8 @@ def debt_section_html(b: dict, currency: str, fan_png: bytes | None = None) -> s
                      + _table(("Constraint", f"Debt [{cur}]", "Gearing [%]", ""), rows)
                      + f"<p>Debt drawn: {b['debt']:,.0f} {_e(cur)} (gearing "
                        f"{100 * b['gearing']:.1f} %), the largest loan that meets every "
-                       f"constraint at once; binding: {_e(b.get('binding_constraint'))}.</p>")
+                       f"constraint at once; binding: {_e(b.get('binding_constraint'))}."
+                       + _below_each(b["debt"], sizing, cur) + "</p>")
     by_year = b.get("by_year") or {}
     if by_year:
         served = [t for t in by_year["year"]
