@@ -61,7 +61,8 @@ def test_trials_csv_is_numeric_with_one_header(tmp_path):
     from lcoe.export.trials_csv import write_trials_csv
 
     names = ("costs.capex_per_kw", "=evil")
-    t = SimpleNamespace(n=3, names=names, X=np.array([[1.0, -2.0], [3.0, 4.0], [5.0, 6.0]]),
+    x = np.array([[1.0, -2.0], [3.0, 4.0], [5.0, 6.0]])
+    t = SimpleNamespace(n=3, names=names, inputs=lambda a, b: x[a:b],
                         outputs={"lcoe_real_per_kwh": np.array([-0.1, 0.2, 0.3])},
                         physics_kwh=np.array([1.0, 2.0, 3.0]))
     result = SimpleNamespace(extras={"uncertainty": SimpleNamespace(trials=t)})

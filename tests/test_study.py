@@ -111,6 +111,9 @@ def _same(a, b):
     assert np.array_equal(a.energy_factors, b.energy_factors)
     for k, v in a.outputs.items():
         assert np.array_equal(v, b.outputs[k]), k
+    for k in ("physics_kwh", "energy_1yr_kwh", "energy_10yr_kwh"):
+        assert np.array_equal(getattr(a, k), getattr(b, k)), k
+    assert a.yearly_cov == b.yearly_cov  # summed from each chunk's pieces, bit for bit
 
 
 def test_single_case_independent_of_chunk_size(serial_demo):

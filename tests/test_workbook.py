@@ -25,6 +25,7 @@ from lcoe.export.workbook.layout import MAX_TRIALS_IN_SHEET, put_text
 from lcoe.export.workbook.study_sheets import write_comparison_workbook
 from lcoe.model import evaluate
 from lcoe.study.run import run_case
+from lcoe.study.single import monte_carlo
 
 openpyxl = pytest.importorskip("openpyxl")
 
@@ -207,13 +208,7 @@ def test_distribution_lists_at_most_the_cap(runs, tmp_path):
     """A run with more trials than the cap lists exactly the cap (trials.csv has them all)."""
     full = runs["full"]
     unc = full.extras["uncertainty"]
-    t = unc.trials
-    n = MAX_TRIALS_IN_SHEET + 1500
-    idx = np.arange(n) % t.n
-    big = dataclasses.replace(t, X=t.X[idx], outputs={k: v[idx] for k, v in t.outputs.items()},
-                              energy_factors=t.energy_factors[idx],
-                              persistent_factor=t.persistent_factor[idx],
-                              physics_kwh=t.physics_kwh[idx])
+    big, _ = monte_carlo(full.case, full.site, unc.spec, MAX_TRIALS_IN_SHEET + 1500, unc.seed)
     extras = dict(full.extras, uncertainty=dataclasses.replace(unc, trials=big))
     path = tmp_path / "big.xlsx"
     write_workbook(dataclasses.replace(full, extras=extras), path)

@@ -1,4 +1,9 @@
-"""``trials.csv``: every Monte Carlo trial, its sampled inputs and its outputs."""
+"""``trials.csv``: every Monte Carlo trial, its sampled inputs and its outputs.
+
+Written in blocks of :data:`ROWS` trials: the study keeps only the trials' outputs and draws
+their inputs again block by block (``Trials.inputs``), so a run of a million trials is written
+without holding its whole table.
+"""
 
 from __future__ import annotations
 
@@ -9,25 +14,34 @@ import numpy as np
 from lcoe.export.cells import write_csv
 from lcoe.study.results import RunResult
 
+#: Trials per block of rows.
+ROWS = 10_000
 
-def trials_table(result: RunResult) -> tuple[list[str], np.ndarray]:
-    """Header and (n, k) values of the trials table."""
+
+def trials_header(result: RunResult) -> list[str]:
+    """Column names of the trials table."""
     t = result.extras["uncertainty"].trials
-    header = ["trial"] + list(t.names)
-    cols = [np.arange(t.n, dtype=float)] + [t.X[:, j] for j in range(t.X.shape[1])]
-    for k, v in t.outputs.items():
-        if v.ndim == 1:
-            header.append(k)
-            cols.append(v)
-    header.append("energy_physics_kwh")
-    cols.append(t.physics_kwh)
-    return header, np.column_stack(cols)
+    return ["trial", *t.names, *(k for k, v in t.outputs.items() if v.ndim == 1),
+            "energy_physics_kwh"]
+
+
+def trials_block(result: RunResult, start: int, stop: int) -> np.ndarray:
+    """(stop - start, k) values of trials [start, stop) of the trials table."""
+    t = result.extras["uncertainty"].trials
+    x = t.inputs(start, stop)
+    cols = [np.arange(start, stop, dtype=float)] + [x[:, j] for j in range(x.shape[1])]
+    cols += [v[start:stop] for v in t.outputs.values() if v.ndim == 1]
+    cols.append(t.physics_kwh[start:stop])
+    return np.column_stack(cols)
 
 
 def write_trials_csv(result: RunResult, path: Path) -> None:
     """Write the trials table as CSV (one row per trial)."""
-    header, values = trials_table(result)
-    fmt = ["%d"] + ["%.10g"] * (values.shape[1] - 1)
+    header = trials_header(result)
+    n = result.extras["uncertainty"].trials.n
+    fmt = ["%d"] + ["%.10g"] * (len(header) - 1)
     write_csv(path, header, [])  # the header's text cells through the one CSV rule
     with open(path, "a", newline="", encoding="utf-8") as fh:
-        np.savetxt(fh, values, delimiter=",", fmt=fmt)  # numbers only
+        for start in range(0, n, ROWS):
+            np.savetxt(fh, trials_block(result, start, min(n, start + ROWS)), delimiter=",",
+                       fmt=fmt)  # numbers only

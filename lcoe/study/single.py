@@ -15,18 +15,21 @@ from the file itself); otherwise it is normal with the case's ``interannual_cov`
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from lcoe.case.errors import ImplausibleResult, InputError
 from lcoe.case.reader import Case
 from lcoe.model import ModelOutput, Site, evaluate
-from lcoe.study.design import build_design
+from lcoe.study.chunked_sums import chunked_std, pairwise_pieces
+from lcoe.study.design import TrialDesign, build_design, chunk_bounds
 from lcoe.study.spec import UncertainSpec
 from lcoe.study.trials import (
     CHUNK_TRIALS,
+    ChunkTask,
     StudyRun,
+    chunk_inputs,
     evaluate_runs,
     failure_error,
     prepared,
@@ -45,60 +48,150 @@ OUTPUTS = {
 #: Outputs that Sobol/tornado may target (scalar, no year-to-year noise in those designs).
 SENSITIVITY_TARGETS = ("lcoe_real_per_kwh", "lcoe_nominal_per_kwh", "npv_costs",
                        "energy_first_year_kwh")
-#: Outputs of a chunk that are kept apart from :attr:`Trials.outputs`.
-_STRUCTURAL = ("X", "physics_kwh", "persistent_factor", "energy_factors", "energy_kwh",
-               "dc_capacity_kw", "cell_area_m2", "land_area_m2")
+#: What a chunk's evaluation gives that a single-case study does not keep: the sampled inputs
+#: and the energy factors are drawn again from the design when read (:meth:`Trials.inputs`).
+_DROPPED = ("X", "persistent_factor", "energy_factors", "energy_kwh", "dc_capacity_kw",
+            "cell_area_m2", "land_area_m2")
+#: Kept per trial beside :attr:`Trials.outputs` (energy for the P-values).
+_ENERGY = ("physics_kwh", "energy_1yr_kwh", "energy_10yr_kwh")
+#: Operating years averaged for the ten-year P-values [years].
+TEN_YEARS = 10
 
 Collector = Callable[[ModelOutput, dict, slice], dict]
 
 
 @dataclass(frozen=True)
 class Trials:
-    """Inputs and outputs of every Monte Carlo trial.
+    """Outputs of every Monte Carlo trial; its inputs drawn again from the design when read.
+
+    Memory: the study keeps per trial only the float64 vectors below (``outputs``: the four
+    :data:`OUTPUTS` and the collectors' outputs; three energies), 8 bytes a trial each; the
+    sampled inputs and the 30 or so yearly energy factors of a trial are not kept. The design
+    gives any trial's inputs again, bit for bit (:meth:`inputs`, chunk by chunk for exports),
+    and the one statistic over every trial-year (the year-to-year spread) is computed exactly
+    in a second pass over the draws (:mod:`lcoe.study.chunked_sums`).
 
     Attributes
     ----------
     names : list of str
-        Sampled input names (columns of ``X``).
-    X : numpy.ndarray
-        (n, d) sampled input values.
+        Sampled input names (columns of :meth:`inputs`).
     outputs : dict of str to numpy.ndarray
         :data:`OUTPUTS` and collector outputs, each (n,) or (n, k).
-    energy_factors : numpy.ndarray
-        (n, N) year-by-year energy multipliers (persistent x year-to-year).
-    persistent_factor : numpy.ndarray
-        (n,) product of the persistent energy components.
     physics_kwh : numpy.ndarray
         (n,) average-year energy from the hourly physics alone [kWh].
+    energy_1yr_kwh : numpy.ndarray
+        (n,) physics x persistent factor x the first operating year's weather factor, no
+        degradation [kWh].
+    energy_10yr_kwh : numpy.ndarray
+        (n,) the same with the mean weather factor of the first ten operating years [kWh].
+    yearly_cov : float
+        Sample standard deviation (ddof 1) of the year-to-year weather factors over all
+        trial-years [-].
     seed : int or None
     method : str
         Sampling method.
+    design : TrialDesign
+        The study's design (trial inputs are drawn from it again).
+    run : StudyRun
+        The run, without collectors.
     """
 
     names: list
-    X: np.ndarray
     outputs: dict
-    energy_factors: np.ndarray
-    persistent_factor: np.ndarray
     physics_kwh: np.ndarray
+    energy_1yr_kwh: np.ndarray
+    energy_10yr_kwh: np.ndarray
+    yearly_cov: float
     seed: int | None
     method: str
+    design: TrialDesign = field(repr=False, compare=False)
+    run: StudyRun = field(repr=False, compare=False)
 
     @property
     def n(self) -> int:
-        return self.X.shape[0]
+        return self.physics_kwh.shape[0]
+
+    def _task(self, start: int, stop: int | None) -> ChunkTask:
+        stop = self.n if stop is None else stop
+        return ChunkTask(design=self.design, member=0, run=self.run, start=start, stop=stop)
+
+    def inputs(self, start: int = 0, stop: int | None = None) -> np.ndarray:
+        """(stop - start, d) sampled inputs of trials [start, stop), drawn again."""
+        return chunk_inputs(self._task(start, stop), None, weather=False)[0]
+
+    @property
+    def X(self) -> np.ndarray:
+        """(n, d) sampled inputs of all trials (held at once: read large runs by
+        :meth:`inputs`)."""
+        return self.inputs()
+
+    def _weather(self) -> tuple[np.ndarray, np.ndarray]:
+        _, _, persist, _, factors = chunk_inputs(self._task(0, None), prepared(self.run.case)[2])
+        return persist, factors
+
+    @property
+    def persistent_factor(self) -> np.ndarray:
+        """(n,) product of the persistent energy components [-], drawn again."""
+        return self._weather()[0]
+
+    @property
+    def energy_factors(self) -> np.ndarray:
+        """(n, N) year-by-year energy multipliers (persistent x year-to-year) [-], drawn again
+        (all trials at once)."""
+        return self._weather()[1]
 
 
 def interannual_cov(trials: Trials) -> float:
     """Year-to-year CoV actually used (sample estimate over all trial-years) [-]."""
-    f = trials.energy_factors / trials.persistent_factor[:, None]
-    return float(f.std(ddof=1)) if f.size > 1 else 0.0
+    return trials.yearly_cov
 
 
 def single_run(case: Case, spec: UncertainSpec, collectors: tuple = ()) -> StudyRun:
     """The one run of a single-case study."""
     return StudyRun(label=case.name, case_label=case.name, site=case.name, case=case,
-                    spec=spec, collectors=tuple(collectors))
+                    spec=spec, collectors=tuple(collectors), finish=keep_per_trial)
+
+
+def _year_to_year(persist: np.ndarray, factors: np.ndarray) -> np.ndarray:
+    """(n, N) year-to-year factors as the statistics read them: energy factors / persistent."""
+    return factors / persist[:, None]
+
+
+def keep_per_trial(res: dict, task: ChunkTask) -> dict:
+    """What a single-case study keeps of a chunk (the run's ``finish``).
+
+    The outputs, the physics energy and the one- and ten-year energies of each trial (own
+    arrays, not views of the chunk's larger ones); the pieces of the sum of the year-to-year
+    factors over the chunk's trial-years (:func:`~lcoe.study.chunked_sums.pairwise_pieces`);
+    nothing else.
+    """
+    persist, factors = res["persistent_factor"], res["energy_factors"]
+    yearly = _year_to_year(persist, factors)
+    base = res["physics_kwh"] * persist
+    life = yearly.shape[1]
+    # a view (the first year's column of the cash flow's energy) would hold its whole array
+    kept = {k: v.copy() if isinstance(v, np.ndarray) and v.base is not None else v
+            for k, v in res.items() if k not in _DROPPED}
+    kept["energy_1yr_kwh"] = base * yearly[:, 0]
+    kept["energy_10yr_kwh"] = base * yearly[:, :min(TEN_YEARS, life)].mean(axis=1)
+    kept["yearly_pieces"] = pairwise_pieces(yearly, task.start * life,
+                                            task.design.samples * life)
+    return kept
+
+
+def _yearly_cov(design: TrialDesign, run: StudyRun, pieces: list, chunk_size: int) -> float:
+    """numpy's ``std(ddof=1)`` of the (n, N) year-to-year factors, drawn again chunk by chunk
+    for the squared deviations (the chunks gave the sum)."""
+    life = int(run.case["case.lifetime_years"])
+    ratios = prepared(run.case)[2]
+
+    def chunks():
+        for a, b in chunk_bounds(design.samples, chunk_size):
+            task = ChunkTask(design=design, member=0, run=run, start=a, stop=b)
+            _, _, persist, _, factors = chunk_inputs(task, ratios)
+            yield a * life, _year_to_year(persist, factors)
+
+    return chunked_std(pieces, chunks(), design.samples * life)
 
 
 def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int | None,
@@ -106,6 +199,9 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
                 progress: Callable[[int, int], None] | None = None, workers: int = 1,
                 scheduler: str | None = None) -> tuple[Trials, list]:
     """Run ``n`` trials of the case with its uncertain inputs.
+
+    Memory does not grow with ``n`` beyond the few vectors of :class:`Trials` (8 bytes per
+    trial each): a chunk's inputs and yearly factors are dropped where it is evaluated.
 
     Parameters
     ----------
@@ -155,11 +251,14 @@ def monte_carlo(case: Case, site: Site, spec: UncertainSpec, n: int, seed: int |
     if err is not None:
         raise err
     out = res.outputs[0]
-    trials = Trials(names=spec.names, X=out["X"],
-                    outputs={k: v for k, v in out.items() if k not in _STRUCTURAL},
-                    energy_factors=out["energy_factors"],
-                    persistent_factor=out["persistent_factor"], physics_kwh=out["physics_kwh"],
-                    seed=seed, method=method)
+    bare = replace(run, collectors=())
+    trials = Trials(names=spec.names,
+                    outputs={k: v for k, v in out.items()
+                             if k not in _ENERGY and k != "yearly_pieces"},
+                    physics_kwh=out["physics_kwh"], energy_1yr_kwh=out["energy_1yr_kwh"],
+                    energy_10yr_kwh=out["energy_10yr_kwh"],
+                    yearly_cov=_yearly_cov(design, bare, out.pop("yearly_pieces"), chunk_size),
+                    seed=seed, method=method, design=design, run=bare)
     _check_finite(trials)
     return trials, [weather_note(case, site, spec), *res.notes]
 
@@ -184,7 +283,8 @@ def _check_finite(trials: Trials) -> None:
         bad = ~np.isfinite(v)
         if bad.any():
             i = int(np.argmax(bad))
-            inputs = ", ".join(f"{n} = {x:g}" for n, x in zip(trials.names, trials.X[i]))
+            inputs = ", ".join(f"{n} = {x:g}" for n, x in zip(trials.names,
+                                                              trials.inputs(i, i + 1)[0]))
             raise InputError(f"trial {i}: {key} is not finite ({v[i]}); inputs: "
                              f"{inputs or 'none'}")
 
@@ -229,11 +329,8 @@ def energy_exceedance(trials: Trials, spec: UncertainSpec) -> EnergyExceedance:
     .. [1] D. Thevenard and S. Pelland, "Estimating the uncertainty in long-term photovoltaic
        yield predictions", Solar Energy 91, 2013.
     """
-    base = trials.physics_kwh * trials.persistent_factor
-    yearly = trials.energy_factors / trials.persistent_factor[:, None]
-    e1 = base * yearly[:, 0]
-    n10 = min(10, yearly.shape[1])
-    e10 = base * yearly[:, :n10].mean(axis=1)
+    e1, e10 = trials.energy_1yr_kwh, trials.energy_10yr_kwh
+    n10 = min(TEN_YEARS, int(trials.run.case["case.lifetime_years"]))
     sampled = {"p50": float(np.quantile(e1, 0.5)), "p90": float(np.quantile(e1, 0.10)),
                "p99": float(np.quantile(e1, 0.01)), "p90_10yr": float(np.quantile(e10, 0.10)),
                "p99_10yr": float(np.quantile(e10, 0.01))}

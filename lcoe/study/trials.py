@@ -78,6 +78,10 @@ class StudyRun:
     collectors : tuple of callables
         ``collector(model_output, params, chunk_slice) -> dict of (n_chunk, ...) arrays``,
         extra per-trial outputs (e.g. the project-finance layer).
+    finish : callable, optional
+        ``finish(outputs, task) -> outputs``: what the run keeps of a chunk, applied where the
+        chunk is evaluated (a study that keeps a few numbers per trial drops the rest there,
+        so its memory does not grow with the trials; see :mod:`lcoe.study.single`).
     """
 
     label: str
@@ -87,6 +91,7 @@ class StudyRun:
     spec: UncertainSpec
     shared: frozenset = frozenset()
     collectors: tuple = field(default=(), compare=False)
+    finish: Callable | None = field(default=None, compare=False)
 
     def member(self) -> Member:
         """The design's view of this run."""
@@ -196,6 +201,43 @@ def prepared(case: Case, fresh: bool = False, weather=None):
     return _CACHE[key]
 
 
+def chunk_inputs(task: ChunkTask, ratios: np.ndarray | None, weather: bool = True):
+    """The sampled inputs of trials [start, stop) of a run, from the study's design.
+
+    Any process draws the same numbers for the same trials (see :mod:`lcoe.study.design`), so
+    inputs that a study does not keep can be drawn again, chunk by chunk, when needed.
+
+    Parameters
+    ----------
+    task : ChunkTask
+    ratios : numpy.ndarray or None
+        The site's multi-year energy ratios (:func:`prepared`), see :func:`yearly_factors`.
+    weather : bool
+        False skips the year-to-year factors (returned as None).
+
+    Returns
+    -------
+    X : numpy.ndarray
+        (n, d) sampled input values, in the order of the run's spec.
+    params : dict of str to numpy.ndarray
+        The case inputs among them, (n,) each.
+    persist : numpy.ndarray
+        (n,) persistent energy factor [-].
+    yearly, factors : numpy.ndarray or None
+        (n, lifetime) year-to-year weather factors and energy factors = persist x yearly [-].
+    """
+    run = task.run
+    n = task.stop - task.start
+    u, z = task.design.member_draws(task.member, task.start, task.stop)
+    X = uniforms_to_values(run.spec.dists, u) if u.shape[1] else np.empty((n, 0))
+    params, persist = split_inputs(run.spec, X)
+    if not weather:
+        return X, params, persist, None, None
+    life = int(run.case["case.lifetime_years"])
+    yearly = yearly_factors(z[:, :life], run.spec.interannual_cov, ratios)
+    return X, params, persist, yearly, persist[:, None] * yearly
+
+
 def trial_text(i: int, text: str, names, x) -> str:
     """``trial i (inputs ...): text``, the sampled inputs cut to a short list."""
     inputs = ", ".join(f"{k} = {v:.4g}" for k, v in zip(names, x))
@@ -226,12 +268,7 @@ def evaluate_chunk(task: ChunkTask) -> dict:
     run = task.run
     site, notes, ratios = prepared(run.case)
     n = task.stop - task.start
-    u, z = task.design.member_draws(task.member, task.start, task.stop)
-    X = uniforms_to_values(run.spec.dists, u) if u.shape[1] else np.empty((n, 0))
-    params, persist = split_inputs(run.spec, X)
-    life = int(run.case["case.lifetime_years"])
-    yearly = yearly_factors(z[:, :life], run.spec.interannual_cov, ratios)
-    factors = persist[:, None] * yearly
+    X, params, persist, yearly, factors = chunk_inputs(task, ratios)
     out = evaluate(run.case, site, params, weather_factors=factors, guard=False)
     bad, text = check_output(run.case["plant.mount"], out)
     if bad.any():  # never dropped: the whole run's count goes into its error
@@ -249,6 +286,8 @@ def evaluate_chunk(task: ChunkTask) -> dict:
     sl = slice(task.start, task.stop)
     for col in run.collectors:
         res.update(col(out, params, sl))
+    if run.finish is not None:
+        res = run.finish(res, task)
     res["notes"] = notes
     return res
 
@@ -328,10 +367,23 @@ def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
             site_notes.setdefault(note, [])
             if run.label not in site_notes[note]:
                 site_notes[note].append(run.label)
-        outputs.append({k: np.concatenate([p[k] for p in parts])
-                        for k in parts[0] if k != "notes"})
+        outputs.append(_assemble(parts))
     return StudyOutput(outputs=outputs, errors=failed, execution=execution, notes=notes,
                        site_notes=site_notes)
+
+
+def _assemble(parts: Sequence[dict]) -> dict:
+    """A run's chunk results in trial order: arrays concatenated, other values listed by chunk.
+
+    Each key's chunk arrays are released as it is joined, so the whole run's arrays are held
+    about once, not twice.
+    """
+    out = {}
+    for k in [k for k in parts[0] if k != "notes"]:
+        values = [p.pop(k) for p in parts]
+        out[k] = np.concatenate(values) if isinstance(values[0], np.ndarray) else values
+        del values
+    return out
 
 
 def implausible_error(parts: Sequence) -> str:
@@ -348,7 +400,7 @@ def implausible_error(parts: Sequence) -> str:
             n_bad, n_checked = n_bad + p["implausible"][0], n_checked + p["implausible"][1]
             first = first or p["implausible"][2]
         else:
-            n_checked += len(p["X"])
+            n_checked += len(next(v for v in p.values() if isinstance(v, np.ndarray)))
     missing = sum(p is None for p in parts)
     also = f" ({missing} chunk{'s' * (missing > 1)} of trials failed otherwise)" if missing else ""
     return (f"{n_bad} of {n_checked} trials fail the plausibility check{also}; the first, "

@@ -90,8 +90,9 @@ def write_distribution_sheet(wb, result: RunResult) -> None:
         [more.get(k, k.replace("_", " ")) for k in extra]
     header(ws, 1, hdr, col=TRIALS_COL)
     first, last = 2, 1 + n_listed
+    listed_x = trials.inputs(0, n_listed)  # drawn again from the study's design
     cols = [np.arange(1, n_listed + 1)] + [trials.outputs[k][:n_listed] for k, _, _ in outs] + \
-        [trials.X[:n_listed, j] for j in range(len(inputs))] + \
+        [listed_x[:, j] for j in range(len(inputs))] + \
         [np.asarray(trials.outputs[k][:n_listed], dtype=float) for k in extra]
     fmts = ["0"] + [f for _, _, f in outs] + ["General"] * (len(inputs) + len(extra))
     # written at save time; a trial without a value (e.g. no unique IRR) is an empty cell
