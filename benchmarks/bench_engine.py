@@ -26,9 +26,10 @@ the engine and is left out of the references.
 Agreement with the engine (relative difference of first-year physics energy and real LCOE on
 the same trials, <= 1e-9) is asserted before any time is reported. Then, in one run:
 engine per trial (demo's uncertain set; lender demo) against the naive and the fair loop, and
-against the engine's direct hourly method when it has one; 1,000,000 trials of the demo
-(target < 60 s, peak memory); 10,000 Monte Carlo trials + Sobol N = 1,024 in a fresh process
-including start-up (target < 5 s). Each part runs in its own process.
+against the engine's direct hourly method when it has one; 100,000 and 1,000,000 trials of
+the demo, each in a fresh process (target < 60 s; peak memory side by side: flat when the
+larger run peaks about where the smaller does); 10,000 Monte Carlo trials + Sobol N = 1,024
+in a fresh process including start-up (target < 5 s). Each part runs in its own process.
 """
 
 from __future__ import annotations
@@ -46,6 +47,8 @@ CASES = {"demo": ROOT / "inputs" / "demo_fixed_tilt.toml",
          "lender": ROOT / "inputs" / "lender_single_axis.toml"}
 TOL = 1e-9
 QUICK = "--quick" in sys.argv
+#: Trials of the two Monte Carlo runs whose peak memory is compared.
+MILLION_SIZES = (10_000, 100_000) if QUICK else (100_000, 1_000_000)
 
 
 def _peak_mb() -> float:
@@ -371,18 +374,29 @@ def part_speed(name: str) -> dict:
     return res
 
 
-def part_million() -> dict:
-    """1,000,000 trials of the demo through the study's Monte Carlo."""
+def part_million(n: str) -> dict:
+    """``n`` trials of the demo through the study's Monte Carlo, in a fresh process.
+
+    Returns the wall time, the peak resident memory before the run (imports, site, a warm-up
+    run of 100 trials) and after it, and a hash of the first trials' LCOE: the design's blocks
+    do not depend on the number of trials, so a smaller run's trials are the first trials of a
+    larger one, and the two runs are compared on the same trials.
+    """
+    import hashlib
+
     from lcoe.study.single import monte_carlo
 
-    n = 100_000 if QUICK else 1_000_000
+    n = int(n)
     ctx = _context("demo")
     monte_carlo(ctx["case"], ctx["site"], ctx["spec"], 100, seed=1)
+    before = _peak_mb()
     t0 = time.perf_counter()
     trials, _ = monte_carlo(ctx["case"], ctx["site"], ctx["spec"], n, seed=2)
     dt = time.perf_counter() - t0
-    return {"trials": n, "seconds": dt, "peak_mb": _peak_mb(),
-            "p50": float(trials.outputs["lcoe_real_per_kwh"].mean())}
+    head = trials.outputs["lcoe_real_per_kwh"][:MILLION_SIZES[0]]
+    return {"trials": n, "seconds": dt, "peak_mb": _peak_mb(), "before_mb": before,
+            "head": hashlib.sha256(head.tobytes()).hexdigest(),
+            "mean": float(trials.outputs["lcoe_real_per_kwh"].mean())}
 
 
 def part_study() -> dict:
@@ -438,9 +452,17 @@ def main() -> None:
             line += (f" | vs its hourly method ({1e6 * s['hourly']['s_per_trial']:.1f} us) "
                      f"{s['hourly']['s_per_trial'] / eng:5.1f}x (target >= 10x)")
         print(line)
-    m = _run("million")
-    print(f"demo   {m['trials']:,} trials: {m['seconds']:.1f} s (target < 60 s), peak "
-          f"{m['peak_mb']:.0f} MB")
+    small, big = (_run("million", str(n)) for n in MILLION_SIZES)
+    if small["head"] != big["head"]:
+        raise SystemExit("the first trials of the two Monte Carlo runs differ")
+    print(f"demo   Monte Carlo, {small['trials']:,} vs {big['trials']:,} trials (each in a fresh "
+          f"process; the first {small['trials']:,} trials identical): "
+          f"{small['seconds']:.1f} vs {big['seconds']:.1f} s (target < 60 s at 1,000,000)")
+    grow, more = big["peak_mb"] - small["peak_mb"], big["trials"] - small["trials"]
+    print(f"demo   peak memory {small['peak_mb']:.0f} vs {big['peak_mb']:.0f} MB (before the run "
+          f"{small['before_mb']:.0f} / {big['before_mb']:.0f} MB): {grow:+.0f} MB for {more:,} "
+          f"more trials = {2 ** 20 * grow / more:.0f} bytes per trial "
+          f"({big['peak_mb'] / small['peak_mb']:.2f}x; flat = 1.00x)")
     st = _run("study")
     print(f"demo   10,000 trials + Sobol N = 1,024 ({st['sobol_runs']} runs, {st['inputs']} "
           f"inputs) from a fresh process: {st['wall_s']:.1f} s wall (target < 5 s), "
