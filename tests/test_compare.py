@@ -76,6 +76,20 @@ def test_own_inputs_are_independent_unless_shared(tmp):
     assert kinds["costs.capex_per_kw [a]"] == kinds["costs.capex_per_kw [b]"] == "run"
 
 
+def test_finance_drawn_apart_gets_a_nudge_to_share_it(tmp):
+    # a discount rate drawn for each case apart adds spread to the ratio that no technology
+    # causes: the notes name it and point to --shared; declared once, the nudge goes
+    a, b = _case(tmp, "a"), _case(tmp, "b")
+    apart = run_comparison([a, b], samples=64, seed=3, sobol_base=0)
+    nudge = [n for n in apart.notes if n.startswith("Finance inputs drawn for each case apart")]
+    assert len(nudge) == 1
+    assert "finance.discount_rate [a]" in nudge[0] and "finance.discount_rate [b]" in nudge[0]
+    assert "--shared" in nudge[0]
+    once = run_comparison([a, b], samples=64, seed=3, sobol_base=0,
+                          shared=_shared("finance.discount_rate"))
+    assert not [n for n in once.notes if n.startswith("Finance inputs drawn")]
+
+
 def test_shared_and_case_specific_columns(tmp):
     # The design: a shared input -> one column; a case's own input -> one column per case,
     # labelled with the case; the site's resource factor is one column for both cases.

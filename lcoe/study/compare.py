@@ -570,6 +570,13 @@ def _design_notes(design: Design) -> list[str]:
     if not study:
         notes.append("No input is declared for the whole comparison (--shared): each case's "
                      "own inputs are drawn independently of the other cases.")
+    finance = [col.dist.name for col in design.columns
+               if col.kind == "run" and col.path.startswith("finance.")]
+    if finance:
+        notes.append("Finance inputs drawn for each case apart: " + ", ".join(finance) +
+                     ". One market moves rates for every case alike; drawn apart they add "
+                     "spread to the ratio that no technology causes, and can top its drivers. "
+                     "Declare them once in a --shared file to draw them for every case.")
     return notes
 
 
