@@ -74,6 +74,32 @@ def test_trials_csv_is_numeric_with_one_header(tmp_path):
     assert "\r" not in path.read_text(encoding="utf-8")
 
 
+def test_trials_csv_numbers_are_written_as_numpy_savetxt_writes_them(tmp_path, monkeypatch):
+    # rows formatted a block at a time: the same text as numpy.savetxt a row at a time, also
+    # across block edges and for values that are not finite
+    import io
+
+    from lcoe.export import trials_csv
+
+    monkeypatch.setattr(trials_csv, "ROWS", 7)
+    rng = np.random.default_rng(3)
+    n = 23
+    X = rng.normal(size=(n, 2)) * 10.0 ** rng.integers(-12, 12, size=(n, 2))
+    X[2, 0], X[9, 1], X[16, 0] = np.nan, np.inf, -np.inf
+    t = SimpleNamespace(n=n, names=("a", "b"), inputs=lambda a, b: X[a:b],
+                        outputs={"y": rng.normal(size=n)},
+                        physics_kwh=rng.uniform(1e6, 1e8, size=n))
+    path = tmp_path / "trials.csv"
+    trials_csv.write_trials_csv(SimpleNamespace(extras={"uncertainty": SimpleNamespace(
+        trials=t)}), path)
+    result = SimpleNamespace(extras={"uncertainty": SimpleNamespace(trials=t)})
+    header = trials_csv.trials_header(result)
+    values = trials_csv.trials_block(result, 0, n)
+    want = io.StringIO()
+    np.savetxt(want, values, delimiter=",", fmt=["%d"] + ["%.10g"] * (values.shape[1] - 1))
+    assert path.read_text(encoding="utf-8") == ",".join(header) + "\n" + want.getvalue()
+
+
 def test_write_csv_round_trips(tmp_path):
     path = tmp_path / "x.csv"
     write_csv(path, ["name", "value"], [["@a", -1.25], ["b,c", 2]])
