@@ -1,34 +1,34 @@
-"""Export against compute, and the end-to-end cost per trial, this tree against an earlier commit.
+"""Export against compute, and the end-to-end cost per trial against the fair loop.
 
 Usage (from the repository root)::
 
-    python benchmarks/bench_export.py [--ref COMMIT] [--repeat 3] [--samples 10000]
-                                      [--trials 0,10000,20000] [--skip-demo] [--skip-inside]
+    python benchmarks/bench_export.py [--repeat 3] [--trials 0,10000,20000] [--ref COMMIT]
+                                      [--samples 10000] [--skip-inside] [--skip-demo]
 
-Parts:
+Parts (the machine is shared: every figure is a median of ``--repeat`` runs, the trial counts
+and trees alternate so that load slows all alike, CPU time is printed beside wall time and the
+load average around each part):
 
-1. **Inside one process, this tree**: the study of ``--samples`` trials of the demo (Sobol off
-   unless ``--sobol N``), then each exporter timed alone (summary.json, workbook, trials.csv,
-   pictures, report): export total against compute.
-2. **Side by side, this tree and ``--ref``** (checked out into a temporary ``git worktree``;
-   every command runs alternately on both trees, so a loaded machine slows both alike; medians
-   of ``--repeat``):
-
-   - ``lcoe run`` of the demo with ``--sobol 0`` at each of ``--trials`` (trials file, workbook
-     and pictures included): wall time of the command line, and the same run split into
-     start-up + imports / compute / export. Per-trial cost of the end-to-end run:
-     ``(T(20,000) - T(0)) / 20,000`` (the issue's measure: it also carries what a run with a
-     study has and a deterministic run has not, e.g. the histogram picture, the tornado and
-     the Distribution sheet) and the marginal ``(T(20,000) - T(10,000)) / 10,000``.
-   - ``lcoe demo`` (its defaults: 2,000 trials, Sobol N = 1,024) split the same way (by the
-     driver on both trees: the earlier commit has no ``python -m lcoe``).
-
-   The split comes from a driver that first imports every module the same run imports
-   (listed by one untimed run of that tree), then times ``run_case`` and ``write_outputs``.
-
-Agreement before any ratio: at each trial count both trees' ``trials.csv`` hold the same
-trials (every column present in both, relative 1e-9) and the summaries' LCOE statistics agree
-(1e-9); this tree's workbook lists exactly the first trials of its ``trials.csv``.
+1. **The fair loop** of ``benchmarks/bench_engine.py`` (imported from there, so the reference
+   is the same model): its agreement with the engine is asserted first (energy and LCOE on the
+   same trials, relative 1e-9), then its time per trial (sun and plane of array once per site;
+   per trial pvlib temperature, DC and inverter over the lit hours and the plain cash flow).
+2. **lcoe run of the demo, end to end** (``python -m lcoe.cli run ... --sobol 0``; trials file,
+   workbook and pictures included) at each of ``--trials``: wall and CPU time of the command
+   (its pictures' child included), and a driver's split of the same run into start-up +
+   imports / compute / export (export/compute at 10,000 trials: target <= 1; the export
+   includes its own imports, matplotlib and openpyxl, as it does in the command). Per-trial cost
+   ``(T(20,000) - T(0)) / 20,000`` against the fair loop's (target: at most 1/10 of it), and
+   the marginal ``(T(20,000) - T(10,000)) / 10,000``. ``--samples 0`` is the command's own
+   deterministic run (no Monte Carlo, no trials file, no study pictures), so T(0) is an honest
+   zero point: everything a study adds, fixed or not, is counted per trial.
+3. With ``--ref COMMIT`` the same runs of that commit (checked out into a temporary ``git
+   worktree``) alternate with this tree's, and both trees' trials are checked to agree
+   (every column of ``trials.csv`` present in both, relative 1e-9; summaries' LCOE statistics
+   1e-9; the workbook lists exactly the first trials of ``trials.csv``).
+4. Unless ``--skip-demo``: ``lcoe demo`` (2,000 trials, Sobol N = 1,024) split the same way.
+5. Unless ``--skip-inside``: inside one process of this tree, the study of ``--samples``
+   trials, then each exporter timed alone and in sequence (no child): where export time goes.
 """
 
 from __future__ import annotations
@@ -37,6 +37,7 @@ import argparse
 import csv
 import json
 import os
+import resource
 import statistics
 import subprocess
 import sys
@@ -46,57 +47,57 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "inputs" / "demo_fixed_tilt.toml"
-#: The commit before the export work (trial list cell by cell, pictures drawn twice).
-BASELINE_REF = "8e27501"
 REL = 1e-9
+#: Trials of the fair loop's timing (two repetitions, the faster counts, as bench_engine).
+FAIR_TRIALS = 300
+
+
+def _cpu_children() -> float:
+    """CPU seconds (user + system) of the waited-for child processes so far."""
+    r = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return r.ru_utime + r.ru_stime
+
+
+def _load() -> str:
+    return f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores"
 
 
 # --------------------------------------------------------------------------------------------
-# part 1: inside one process
+# part 1: the fair loop of bench_engine (same model, agreement asserted)
 # --------------------------------------------------------------------------------------------
-def inside(samples: int, sobol: int, case: str) -> None:
-    from lcoe.export.plots import render_figures
-    from lcoe.export.report import write_report
-    from lcoe.export.summary import summary_json
-    from lcoe.export.trials_csv import write_trials_csv
-    from lcoe.export.workbook.book import write_workbook
-    from lcoe.study.run import run_case
+def part_fair() -> dict:
+    """Agreement of bench_engine's references with the engine, then the fair loop per trial."""
+    sys.path.insert(0, str(ROOT / "benchmarks"))
+    import bench_engine as be
 
-    warm = run_case(case, samples=16, sobol_base=0)  # caches and lazy imports
-    with tempfile.TemporaryDirectory() as tmp:
-        write_workbook(warm, Path(tmp) / "w.xlsx")
-    render_figures(warm)
-    t0 = time.perf_counter()
-    result = run_case(case, samples=samples, sobol_base=sobol)
-    compute = time.perf_counter() - t0
-    print(f"study ({samples:,} trials, Sobol N={sobol}): {compute:6.2f} s")
-    with tempfile.TemporaryDirectory() as tmp:
-        out = Path(tmp)
-        figures = {}
-        steps = (
-            ("summary.json", lambda p: p.write_text(summary_json(result), encoding="utf-8")),
-            ("workbook.xlsx", lambda p: write_workbook(result, p)),
-            ("trials.csv", lambda p: write_trials_csv(result, p)),
-            ("pictures (PNG)", lambda p: figures.update(render_figures(result))),
-            ("report.html", lambda p: write_report(result, p, figures)),
-        )
-        total = 0.0
-        for name, step in steps:
-            path = out / name
-            t = time.perf_counter()
-            step(path)
-            dt = time.perf_counter() - t
-            total += dt
-            size = path.stat().st_size if path.exists() else sum(map(len, figures.values()))
-            print(f"  {name:<16} {dt:6.2f} s  {size / 1e6:7.2f} MB")
-        print(f"  {'export total':<16} {total:6.2f} s  = {total / compute:.2f} x the compute")
+    agree = be.part_agree("demo")  # asserts <= 1e-9 on energy and LCOE before any timing
+    ctx = be._context("demo")
+    design = be._design(ctx, FAIR_TRIALS, seed=5)
+    params, factors = be._trial_inputs(ctx, design, 0, FAIR_TRIALS)
+    light = be.site_light(ctx["case"], ctx["site"].weather,
+                          be._trial_params(ctx["case"], params, 0))
+    wall, cpu = [], []
+    for _ in range(2):
+        t0, c0 = time.perf_counter(), time.process_time()
+        be.fair_trials(ctx, params, factors, FAIR_TRIALS, light)
+        wall.append((time.perf_counter() - t0) / FAIR_TRIALS)
+        cpu.append((time.process_time() - c0) / FAIR_TRIALS)
+    return {"agree": agree["fair"], "s_per_trial": min(wall), "cpu_per_trial": min(cpu)}
+
+
+def _fair() -> dict:
+    out = subprocess.run([sys.executable, __file__, "--part", "fair"], capture_output=True,
+                         text=True, cwd=ROOT, env=_env(ROOT))
+    if out.returncode:
+        raise SystemExit(f"fair loop failed:\n{out.stderr}")
+    return json.loads(out.stdout.strip().splitlines()[-1])
 
 
 # --------------------------------------------------------------------------------------------
-# part 2: side by side
+# parts 2-4: commands in fresh processes
 # --------------------------------------------------------------------------------------------
 DRIVER = r"""
-import importlib, json, sys, time
+import importlib, json, os, sys, time
 t0 = time.perf_counter()
 case, samples, sobol, out, listing = sys.argv[1:6]
 sobol = int(sobol)
@@ -107,17 +108,27 @@ if listing != "-":
         except Exception:
             pass
 t1 = time.perf_counter()
-from lcoe.case.errors import collect_warnings
-from lcoe.study.run import read_case, run_case, write_outputs
+c1 = os.times()
+try:
+    from lcoe.case.errors import collect_warnings
+    from lcoe.export.run_outputs import write_outputs
+    from lcoe.study.run import read_case, run_case
+except ImportError:  # a commit before the package layout by layer
+    from lcoe.errors import collect_warnings
+    from lcoe.runner import read_case, run_case, write_outputs
 with collect_warnings():
     result = run_case(read_case(case), samples=None if samples == "default" else int(samples),
                       sobol_base=sobol)
 t2 = time.perf_counter()
+c2 = os.times()
+if listing == "-":  # what the command has imported when its export starts
+    json.dump([m for m in sys.modules if not m.startswith("__")], sys.stderr)
 write_outputs(result, out, force=True)
 t3 = time.perf_counter()
-if listing == "-":
-    json.dump([m for m in sys.modules if not m.startswith("__")], sys.stderr)
-print(json.dumps({"imports": t1 - t0, "compute": t2 - t1, "export": t3 - t2}))
+c3 = os.times()
+cpu = lambda c: c.user + c.system + c.children_user + c.children_system
+print(json.dumps({"imports": t1 - t0, "compute": t2 - t1, "export": t3 - t2,
+                  "compute cpu": cpu(c2) - cpu(c1), "export cpu": cpu(c3) - cpu(c2)}))
 """
 
 
@@ -125,11 +136,12 @@ def _env(tree: Path) -> dict:
     return {**os.environ, "PYTHONPATH": str(tree)}
 
 
-def _cli(tree: Path, args: list[str], cwd: Path) -> float:
-    t0 = time.perf_counter()
+def _cli(tree: Path, args: list[str], cwd: Path) -> dict:
+    """Wall and CPU time (the command and its children) of one command line."""
+    t0, c0 = time.perf_counter(), _cpu_children()
     subprocess.run([sys.executable, "-m", "lcoe.cli", *args], check=True, env=_env(tree),
                    cwd=cwd, stdout=subprocess.DEVNULL)
-    return time.perf_counter() - t0
+    return {"wall": time.perf_counter() - t0, "cpu": _cpu_children() - c0}
 
 
 def _driver(tree: Path, samples: str, sobol: int, out: Path, listing: str) -> dict:
@@ -145,7 +157,10 @@ def _driver(tree: Path, samples: str, sobol: int, out: Path, listing: str) -> di
 
 
 def _listing(tree: Path, sobol: int, tmp: Path, tag: str) -> str:
-    """Modules a run with a study imports, in import order (one small untimed run)."""
+    """Modules a run with a study has imported when its export starts, in import order (one
+    small untimed run): the driver imports them before its clock for the compute starts, so
+    the export is timed with the imports it does itself (matplotlib, openpyxl), as in the
+    command."""
     split = _driver(tree, "64", sobol, tmp / f"list_{tag}", "-")
     path = tmp / f"modules_{tag}.json"
     path.write_text(split["_stderr"].strip().splitlines()[-1])
@@ -194,93 +209,154 @@ def _median(runs: list[dict], key: str) -> float:
     return statistics.median(r[key] for r in runs)
 
 
-def side_by_side(ref: str, repeat: int, trials: list[int], demo: bool) -> None:
+def commands(ref: str | None, repeat: int, trials: list[int], demo: bool) -> None:
     with tempfile.TemporaryDirectory(prefix="lcoe_bench_export_") as tmpdir:
         tmp = Path(tmpdir)
-        base = tmp / "ref"
-        subprocess.run(["git", "-C", str(ROOT), "worktree", "add", "--detach", str(base), ref],
-                       check=True, capture_output=True)
+        trees = {"this tree": ROOT}
+        if ref:
+            base = tmp / "ref"
+            subprocess.run(["git", "-C", str(ROOT), "worktree", "add", "--detach", str(base),
+                            ref], check=True, capture_output=True)
+            trees = {ref: base, "this tree": ROOT}
         try:
-            trees = {"before": base, "after": ROOT}
-            _run_side_by_side(trees, tmp, repeat, trials, demo, ref)
+            _commands(trees, tmp, repeat, trials, demo)
         finally:
-            subprocess.run(["git", "-C", str(ROOT), "worktree", "remove", "--force",
-                            str(base)], capture_output=True)
+            if ref:
+                subprocess.run(["git", "-C", str(ROOT), "worktree", "remove", "--force",
+                                str(base)], capture_output=True)
 
 
-def _run_side_by_side(trees, tmp, repeat, trials, demo, ref) -> None:
-    print(f"\nside by side: before = {ref}, after = this tree; medians of {repeat} alternating "
-          f"runs; load average at start {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
-    wall = {t: {n: [] for n in trials} for t in trees}
+def _commands(trees, tmp, repeat, trials, demo) -> None:
+    print(f"\nfair loop of bench_engine.py (same model as the engine), {_load()}")
+    fair = _fair()
+    print(f"  agreement with the engine: energy {fair['agree']['energy']:.1e}, LCOE "
+          f"{fair['agree']['lcoe']:.1e} (max relative, limit {REL:g})")
+    print(f"  fair loop per trial: {1e6 * fair['s_per_trial']:.0f} us wall, "
+          f"{1e6 * fair['cpu_per_trial']:.0f} us CPU (faster of 2 x {FAIR_TRIALS} trials)")
+    print(f"\nlcoe run of the demo, --sobol 0, medians of {repeat} alternating runs; {_load()}")
+    cli = {t: {n: [] for n in trials} for t in trees}
     split = {t: {n: [] for n in trials} for t in trees}
-    listings = {t: _listing(tree, 0, tmp, t) for t, tree in trees.items()}
+    listings = {t: _listing(tree, 0, tmp, f"t{i}") for i, (t, tree) in enumerate(trees.items())}
     for _ in range(repeat):
         for n in trials:
-            for t, tree in trees.items():
-                out = tmp / f"cli_{t}_{n}"
-                wall[t][n].append(_cli(tree, ["run", str(DEMO), "--samples", str(n), "--sobol",
-                                              "0", "--out", str(out), "--force", "--quiet"],
-                                       tmp))
-                split[t][n].append(_driver(tree, str(n), 0, tmp / f"drv_{t}_{n}", listings[t]))
-    for n in trials:
-        print(f"  agreement at {n:>6,} trials: "
-              f"{_agree(tmp / f'cli_after_{n}', tmp / f'cli_before_{n}', n)}")
-    print(f"\n  lcoe run demo --sobol 0 [s]   {'before':>8} {'after':>8} {'ratio':>6}   "
-          f"split after: start-up+imports / compute / export (export/compute)")
-    for n in trials:
-        b, a = statistics.median(wall["before"][n]), statistics.median(wall["after"][n])
-        s = split["after"][n]
-        imp, comp, exp = (_median(s, k) for k in ("start-up + imports", "compute", "export"))
-        sb = split["before"][n]
-        print(f"  {n:>7,} trials, wall          {b:8.2f} {a:8.2f} {b / a:6.2f}   "
-              f"{imp:.2f} / {comp:.2f} / {exp:.2f} ({exp / comp:.2f}); before: "
-              f"{_median(sb, 'start-up + imports'):.2f} / {_median(sb, 'compute'):.2f} / "
-              f"{_median(sb, 'export'):.2f} ({_median(sb, 'export') / _median(sb, 'compute'):.2f})")
-    if 0 in trials and len(trials) > 1:
-        top = max(trials)
-        mid = sorted(trials)[-2]
-        for label, lo in (("(T(top) - T(0)) / top", 0), ("(T(top) - T(mid)) / (top - mid)", mid)):
-            if lo == top or (lo == 0 and label.startswith("(T(top) - T(mid))")):
-                continue
-            per = {t: (statistics.median(wall[t][top]) - statistics.median(wall[t][lo])) /
-                   (top - lo) * 1e6 for t in trees}
-            text = label.replace("top", f"{top:,}").replace("mid", f"{mid:,}")
-            print(f"  per trial {text}: before {per['before']:.1f} us, after "
-                  f"{per['after']:.1f} us ({per['before'] / per['after']:.2f}x)")
+            for i, (t, tree) in enumerate(trees.items()):
+                out = tmp / f"cli_{i}_{n}"
+                cli[t][n].append(_cli(tree, ["run", str(DEMO), "--samples", str(n), "--sobol",
+                                             "0", "--out", str(out), "--force", "--quiet"],
+                                      tmp))
+                split[t][n].append(_driver(tree, str(n), 0, tmp / f"drv_{i}_{n}",
+                                           listings[t]))
+    if len(trees) > 1:
+        for n in trials:
+            print(f"  agreement at {n:>6,} trials: "
+                  f"{_agree(tmp / f'cli_1_{n}', tmp / f'cli_0_{n}', n)}")
+    for t in trees:
+        print(f"\n  {t}: trials | command wall / CPU [s] | split start-up+imports / compute / "
+              f"export [s] (export/compute) | CPU compute / export [s]")
+        for n in trials:
+            s = split[t][n]
+            comp, exp = _median(s, "compute"), _median(s, "export")
+            print(f"  {n:>7,} | {_median(cli[t][n], 'wall'):5.2f} / "
+                  f"{_median(cli[t][n], 'cpu'):5.2f} | {_median(s, 'start-up + imports'):.2f}"
+                  f" / {comp:.2f} / {exp:.2f} ({exp / comp:.2f}) | "
+                  f"{_median(s, 'compute cpu'):.2f} / {_median(s, 'export cpu'):.2f}")
+        if 0 in trials and len(trials) > 1:
+            top = max(trials)
+            per = {k: (_median(cli[t][top], k) - _median(cli[t][0], k)) / top for k in
+                   ("wall", "cpu")}
+            goal = fair["s_per_trial"] / 10
+            print(f"  per trial (T({top:,}) - T(0)) / {top:,}: {1e6 * per['wall']:.1f} us wall "
+                  f"({1e6 * per['cpu']:.1f} us CPU) = 1/{fair['s_per_trial'] / per['wall']:.1f}"
+                  f" of the fair loop's {1e6 * fair['s_per_trial']:.0f} us (target 1/10 = "
+                  f"{1e6 * goal:.0f} us: {'met' if per['wall'] <= goal else 'missed'})")
+            mid = sorted(trials)[-2]
+            if mid:
+                marg = (_median(cli[t][top], "wall") - _median(cli[t][mid], "wall")) / (top - mid)
+                print(f"  marginal (T({top:,}) - T({mid:,})) / {top - mid:,}: "
+                      f"{1e6 * marg:.1f} us wall")
     if demo:
         runs = {t: [] for t in trees}
-        listings = {t: _listing(tree, 16, tmp, f"demo_{t}") for t, tree in trees.items()}
+        listings = {t: _listing(tree, 16, tmp, f"demo{i}")
+                    for i, (t, tree) in enumerate(trees.items())}
         for _ in range(repeat):
-            for t, tree in trees.items():
-                runs[t].append(_driver(tree, "default", 1024, tmp / f"demo_{t}", listings[t]))
-        print(f"  agreement of the demo: {_agree(tmp / 'demo_after', tmp / 'demo_before', 2000)}")
-        print(f"\n  lcoe demo (2,000 trials, Sobol N = 1,024) [s]           {'before':>8} "
-              f"{'after':>8} {'ratio':>6}")
-        for key in ("start-up + imports", "compute", "export", "wall"):
-            b, a = _median(runs["before"], key), _median(runs["after"], key)
-            print(f"  {key:<52} {b:8.2f} {a:8.2f} {b / a:6.2f}")
-    print(f"  load average at end {os.getloadavg()[0]:.1f}")
+            for i, (t, tree) in enumerate(trees.items()):
+                runs[t].append(_driver(tree, "default", 1024, tmp / f"demo_{i}", listings[t]))
+        if len(trees) > 1:
+            print(f"\n  agreement of the demo: {_agree(tmp / 'demo_1', tmp / 'demo_0', 2000)}")
+        print(f"\n  lcoe demo (2,000 trials, Sobol N = 1,024) [s]   "
+              + " ".join(f"{t:>10}" for t in trees))
+        for key in ("start-up + imports", "compute", "export", "wall", "export cpu"):
+            print(f"  {key:<44} " + " ".join(f"{_median(runs[t], key):10.2f}" for t in trees))
+    print(f"\n  at end: {_load()}")
+
+
+# --------------------------------------------------------------------------------------------
+# part 5: inside one process
+# --------------------------------------------------------------------------------------------
+def inside(samples: int, sobol: int, case: str) -> None:
+    from lcoe.export.plots import render_figures
+    from lcoe.export.report import write_report
+    from lcoe.export.summary import summary_json
+    from lcoe.export.trials_csv import write_trials_csv
+    from lcoe.export.workbook.book import write_workbook
+    from lcoe.study.run import run_case
+
+    print(f"\ninside one process, each exporter alone (no child), {_load()}")
+    warm = run_case(case, samples=16, sobol_base=0)  # caches and lazy imports
+    with tempfile.TemporaryDirectory() as tmp:
+        write_workbook(warm, Path(tmp) / "w.xlsx")
+    render_figures(warm)
+    t0, c0 = time.perf_counter(), time.process_time()
+    result = run_case(case, samples=samples, sobol_base=sobol)
+    compute, compute_cpu = time.perf_counter() - t0, time.process_time() - c0
+    print(f"  study ({samples:,} trials, Sobol N={sobol}): {compute:6.2f} s "
+          f"({compute_cpu:.2f} s CPU)")
+    with tempfile.TemporaryDirectory() as tmp:
+        out = Path(tmp)
+        figures = {}
+        steps = (
+            ("summary.json", lambda p: p.write_text(summary_json(result), encoding="utf-8")),
+            ("workbook.xlsx", lambda p: write_workbook(result, p)),
+            ("trials.csv", lambda p: write_trials_csv(result, p)),
+            ("pictures (PNG)", lambda p: figures.update(render_figures(result))),
+            ("report.html", lambda p: write_report(result, p, figures)),
+        )
+        total = 0.0
+        for name, step in steps:
+            path = out / name
+            t = time.perf_counter()
+            step(path)
+            dt = time.perf_counter() - t
+            total += dt
+            size = path.stat().st_size if path.exists() else sum(map(len, figures.values()))
+            print(f"  {name:<16} {dt:6.2f} s  {size / 1e6:7.2f} MB")
+        print(f"  {'export in turn':<16} {total:6.2f} s  = {total / compute:.2f} x the compute "
+              f"(matplotlib already imported)")
 
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--samples", type=int, default=10_000, help="trials of part 1")
-    ap.add_argument("--sobol", type=int, default=0, help="Sobol base samples of part 1")
-    ap.add_argument("--case", default=str(DEMO), help="case file of part 1 (default: the demo)")
-    ap.add_argument("--ref", default=BASELINE_REF, help="earlier commit to compare against")
+    ap.add_argument("--samples", type=int, default=10_000, help="trials of part 5")
+    ap.add_argument("--sobol", type=int, default=0, help="Sobol base samples of part 5")
+    ap.add_argument("--case", default=str(DEMO), help="case file of part 5 (default: the demo)")
+    ap.add_argument("--ref", default=None, help="earlier commit to run side by side")
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--trials", default="0,10000,20000",
-                    help="trial counts of the side-by-side runs (comma-separated)")
+                    help="trial counts of the lcoe run commands (comma-separated)")
     ap.add_argument("--skip-demo", action="store_true", help="no `lcoe demo` split")
-    ap.add_argument("--skip-inside", action="store_true", help="no part 1")
-    ap.add_argument("--skip-side", action="store_true", help="no part 2")
+    ap.add_argument("--skip-inside", action="store_true", help="no part 5")
+    ap.add_argument("--skip-commands", action="store_true", help="only part 5")
+    ap.add_argument("--part", help=argparse.SUPPRESS)
     args = ap.parse_args()
-    print(f"load average at start {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
+    if args.part == "fair":
+        print(json.dumps(part_fair()))
+        return
+    print(f"start: {_load()}")
+    if not args.skip_commands:
+        commands(args.ref, args.repeat, [int(n) for n in args.trials.split(",")],
+                 not args.skip_demo)
     if not args.skip_inside:
         inside(args.samples, args.sobol, args.case)
-    if not args.skip_side:
-        side_by_side(args.ref, args.repeat, [int(n) for n in args.trials.split(",")],
-                     not args.skip_demo)
 
 
 if __name__ == "__main__":
