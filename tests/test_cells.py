@@ -89,10 +89,9 @@ def test_trials_csv_numbers_are_written_as_numpy_savetxt_writes_them(tmp_path, m
     t = SimpleNamespace(n=n, names=("a", "b"), inputs=lambda a, b: X[a:b],
                         outputs={"y": rng.normal(size=n)},
                         physics_kwh=rng.uniform(1e6, 1e8, size=n))
-    path = tmp_path / "trials.csv"
-    trials_csv.write_trials_csv(SimpleNamespace(extras={"uncertainty": SimpleNamespace(
-        trials=t)}), path)
     result = SimpleNamespace(extras={"uncertainty": SimpleNamespace(trials=t)})
+    path = tmp_path / "trials.csv"
+    trials_csv.write_trials_csv(result, path)
     header = trials_csv.trials_header(result)
     values = trials_csv.trials_block(result, 0, n)
     want = io.StringIO()
