@@ -197,6 +197,11 @@ def test_claims_are_audited(tmp):
     assert found["claim_lcoe_ratio"]["verdict"] == "doubtful"
     assert r.claims[0].claim_ratio == 0.5  # taken from [claim] without --claim-ratio
     assert "claim_energy_per_kw" not in {f["check"] for f in r.cases[0].audit}
+    # every finding says in words what it checks (the key is for JSON and the Key column)
+    from lcoe.study.audit import CHECK_LABELS
+
+    for f in r.cases[0].audit + r.cases[1].audit:
+        assert f["label"] == CHECK_LABELS[f["check"]]
 
 
 def _cli(*args, cwd=None):

@@ -149,7 +149,9 @@ def test_sheets_names_and_formulas(runs):
     findings = runs["full"].extras.get("audit") or []
     if findings:
         assert "Audit of physical limits" in about
-        assert all(f["check"] in about for f in findings)
+        assert all(f["label"] in about for f in findings)  # in words; the key beside it
+    keys = [c.value for c in wb["About"]["D"]]
+    assert all(f["check"] in keys for f in findings)
     for name in ("capex_per_kw", "discount_rate", "inflation", "dc_capacity_kw",
                  "degradation_per_year", "fixed_om_per_kw_year", "first_year_energy_kwh",
                  "lcoe_real", "lcoe_nominal", "npv_costs", "replacement_2_every_years"):

@@ -281,12 +281,12 @@ def write_comparison_workbook(result: ComparisonResult, path: Path,
     ws.freeze_panes = "C2"
 
     ws = wb.create_sheet("Audit")
-    header(ws, 1, ["Case", "Check", "Verdict", "Message"])
+    header(ws, 1, ["Case", "Check", "Verdict", "Message", "Key"])
     r = 2
     for c in all_cases:
         for f in c["audit"]:
-            for j, k in enumerate(("check", "verdict", "message"), start=2):
-                put_text(ws, r, j, f[k])
+            for j, k in enumerate(("label", "verdict", "message", "check"), start=2):
+                put_text(ws, r, j, f.get(k) or f["check"])
             put_text(ws, r, 1, c["name"])
             r += 1
         put_text(ws, r, 1, c["name"])

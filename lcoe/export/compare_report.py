@@ -115,7 +115,7 @@ def _audit_table(findings: list) -> str:
     if not findings:
         return ""
     return ("<table><tr><th>Audit check</th><th>Verdict</th><th>Finding</th></tr>" + "".join(
-        f"<tr><td>{_e(str(f.get('check', '')).replace('_', ' '))}</td>"
+        f"<tr><td>{_e(f.get('label') or str(f.get('check', '')).replace('_', ' '))}</td>"
         f"<td class=\"verdict-{_e(str(f.get('verdict', '')).lower())}\">"
         f"{_e(f.get('verdict'))}</td><td>{_e(f.get('message'))}</td></tr>"
         for f in findings) + "</table>")

@@ -159,7 +159,7 @@ def _audit_html(findings) -> str:
     rows = []
     for f in findings:
         verdict = str(f.get("verdict", ""))
-        rows.append(f"<tr><td>{_e(f.get('check'))}</td><td class=\"verdict-"
+        rows.append(f"<tr><td>{_e(f.get('label') or f.get('check'))}</td><td class=\"verdict-"
                     f"{_e(verdict.lower())}\">{_e(verdict)}</td><td>{_e(f.get('message'))}"
                     f"</td></tr>")
     return ("<h2>Audit of physical limits</h2><table><tr><th>Check</th><th>Verdict</th>"

@@ -47,8 +47,27 @@ FAIMAN_U1 = 6.84
 VERDICTS = ("ok", "doubtful", "impossible")
 
 
+#: What each check is, in words for pages and sheets (the key stays in JSON).
+CHECK_LABELS = {
+    "rated_efficiency": "Rated module efficiency",
+    "cell_efficiency": "Efficiency on the light the cells receive",
+    "aperture_efficiency": "Efficiency on the light entering the aperture",
+    "land_efficiency": "Efficiency on the light falling on the land",
+    "claim_energy_per_kw": "Claimed energy per kW",
+    "claim_energy_ratio": "Claimed energy gain",
+    "claim_cooling_gain": "Claimed gain from cooler cells",
+    "claim_lcoe_ratio": "Claimed cost per kWh",
+}
+
+
+def check_label(check: str) -> str:
+    """The words for an audit check key (its key with spaces when it has none)."""
+    return CHECK_LABELS.get(check, check.replace("_", " "))
+
+
 def _finding(check: str, verdict: str, message: str) -> dict:
-    return {"check": check, "verdict": verdict, "message": message}
+    return {"check": check, "label": check_label(check), "verdict": verdict,
+            "message": message}
 
 
 def _pct(x: float) -> str:

@@ -191,11 +191,11 @@ def write_about_sheet(ws, wb, result: RunResult) -> None:
         r += 1
         title(ws, r, "Audit of physical limits")
         r += 1
-        header(ws, r, ("Check", "Verdict", "Finding"))
+        header(ws, r, ("Check", "Verdict", "Finding", "Key"))
         for f in findings:
             r += 1
-            for j, key in enumerate(("check", "verdict", "message"), start=1):
-                put_text(ws, r, j, f.get(key, ""))
+            for j, key in enumerate(("label", "verdict", "message", "check"), start=1):
+                put_text(ws, r, j, f.get(key) or f.get("check", ""))
         r += 1
     r += 1
     title(ws, r, "Provenance")
