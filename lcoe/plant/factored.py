@@ -179,7 +179,8 @@ def _features(a, g, gw):
     return f1, f2
 
 
-def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h) -> np.ndarray:
+def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h,
+                keep=None) -> np.ndarray:
     """The hours of ``hrs`` where some of the samples may start late, clip or fall below the
     inverter's start (summed hours), or may deliver at all (unsummed hours).
 
@@ -201,6 +202,9 @@ def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h) -> np.
     gwv = _imul(g_lo, g_hi, *_imul(w_lo, w_hi, v_lo, v_hi))
     z_lo, z_hi = _imul(beta.min(), beta.max(), (uc[0] + gwv[0]) / 1000.0,
                        (uc[1] + gwv[1]) / 1000.0)
+    if keep is not None:  # soiling: each segment's light x the samples' factors of it
+        s_h = grp.seg[hrs]
+        z_lo, z_hi = _imul(keep.min(axis=0)[s_h], keep.max(axis=0)[s_h], z_lo, z_hi)
     z_lo = z_lo - MARGIN * np.abs(z_lo)
     z_hi = z_hi + MARGIN * np.abs(z_hi)
     plain = (z_lo > Z_START) & (z_hi < Z_CLIP)  # certainly between start and clipping
@@ -208,7 +212,8 @@ def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h) -> np.
     return hrs[np.where(grp.base[hrs], ~plain, ~dark)]
 
 
-def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.ndarray):
+def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.ndarray,
+               keep=None):
     """(sum q, sum of output before clipping, after clipping) by segment for the samples of
     one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
 
@@ -221,7 +226,7 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
     difference of the running sums at its ends), so a sample's result does not depend on
     the samples evaluated with it.
     """
-    h = _candidates(grp, hrs, a, g, u0, u1, beta, wind_h)
+    h = _candidates(grp, hrs, a, g, u0, u1, beta, wind_h, keep)
     gw = g / (u0 + u1 * wind_values[:, None])  # g w, (n_class, n_t)
     f1, f2 = _features(a, g, gw)
     # samples x segments in C order: a row's sums then run the same way for any n_t
@@ -229,6 +234,8 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
     ns = grp.n_seg
     total_q, q1 = s1[:, :ns], s1[:, ns:]
     q2 = np.ascontiguousarray(sample_product(grp.k2t, f2).T)
+    if keep is not None:  # q = keep x q of clean modules, keep constant in a segment
+        total_q, q1, q2 = total_q * keep, q1 * keep, q2 * (keep * keep)
     poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * q2) - _C0 * grp.n_base[None, :]
     after = poly
     before = poly.sum(axis=1)
@@ -240,6 +247,8 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
         v = sample_product(grp.zc2[h], np.stack([b, ab, a * ab]))
         v *= gw[grp.wind_class[h]]
         u += v
+        if keep is not None:
+            u *= np.ascontiguousarray(keep.T)[grp.seg[h]]
         p = u * -_C2
         p += _C1
         p *= u
@@ -304,6 +313,9 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     rear_k = col["plant.bifaciality"] * (1.0 - col["plant.rear_loss_fraction"])
     if "rear_n" not in st:
         rear_k = np.zeros(n_s)
+    smp["keep"] = _segment_keep(soil, seg) if not np.any(rear_k) else None
+    if smp["keep"] is not None:  # soiling as a per-sample scale of each segment's light
+        soil = None  # the groups are clean modules
     keys = [rear_k] + ([] if soil is None else [soil[1][:, 0], soil[2][:, 0]])
     uniq, inverse = distinct_rows(np.stack(keys, axis=1))
     wind_values, wind_class = np.unique(wind, return_inverse=True)
@@ -311,7 +323,7 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
             "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}
     out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
            "clipped_kw": np.empty(n_s), "seg_clipped_kw": np.empty((n_s, n_seg)),
-           "soiled_w_m2": None if soil is None else np.empty(n_s)}
+           "soiled_w_m2": None if soil is None and smp["keep"] is None else np.empty(n_s)}
     history = None if soil is None else hash(np.asarray(soil[0]).tobytes())
     with one_blas_thread():  # small products: threads cost more than they give
         for gi in range(uniq.shape[0]):
@@ -323,6 +335,9 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
                              site["wind_values"].size, seg, n_seg)
                 grp.soiled = None if keep is None else (
                     (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
+                # front effective light by segment, for soiling as a scale per segment
+                grp.seg_eff = tuple(np.add.reduceat(share @ st[k], grp.seg_starts)
+                                    for k in ("eff_n", "eff_g"))
                 if groups is not None:
                     if len(groups) > 64:
                         groups.clear()
@@ -334,23 +349,45 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
 
 def _group_sums(out: dict, idx: np.ndarray, grp: _Group, smp: dict, site: dict) -> None:
     """Fill ``out`` at the samples ``idx`` of one group (one soiling level and rear factor)."""
+    keep = smp["keep"]
     if grp.soiled is not None:
         out["soiled_w_m2"][idx] = grp.soiled[0] + smp["a"][idx] * grp.soiled[1]
+    elif keep is not None:
+        light = grp.seg_eff[0][None, :] + smp["a"][idx, None] * grp.seg_eff[1][None, :]
+        out["soiled_w_m2"][idx] = (keep[idx] * light).sum(axis=1)
     order = idx[np.argsort(smp["beta"][idx], kind="stable")]
     # hours that any sample of the group may need one by one: the sub-chunks' bounds look
     # only at these (a superset of each sub-chunk's own hours)
     hrs = _candidates(grp, grp.lit, *(smp[k][idx] for k in ("a", "g", "u0", "u1", "beta")),
-                      site["wind"])
+                      site["wind"], None if keep is None else keep[idx])
     for start in range(0, order.size, SUB_CHUNK):
         sub = order[start:start + SUB_CHUNK]
         q, before, after = _sub_chunk(grp, *(smp[k][sub] for k in ("a", "g", "u0", "u1",
                                                                    "beta")),
-                                      site["wind_values"], site["wind"], hrs)
+                                      site["wind_values"], site["wind"], hrs,
+                                      None if keep is None else keep[sub])
         scale = smp["ac"][sub] / ETA_INV_REF
         out["pdc_kw"][sub] = smp["p_stc"][sub] * q.sum(axis=1)
         out["unclipped_kw"][sub] = scale * before
         out["seg_clipped_kw"][sub] = scale[:, None] * after
         out["clipped_kw"][sub] = out["seg_clipped_kw"][sub].sum(axis=1)
+
+
+def _segment_keep(soil, seg: np.ndarray):
+    """Share of the front light the dirt lets through, per sample and segment (n_s, n_seg),
+    when the soiling history is constant within every segment (the monthly model); else None.
+
+    Then the DC of a sample is that share times the DC of clean modules in every hour of the
+    segment (the cell temperature is driven by the light before the dirt), so soiling scales
+    each segment's sums and the groups' hourly series stay those of clean modules.
+    """
+    if soil is None:
+        return None
+    hist = np.asarray(soil[0], dtype=float)
+    starts = np.concatenate(([0], np.nonzero(np.diff(seg))[0] + 1))
+    if not np.array_equal(hist[starts][seg], hist):
+        return None
+    return 1.0 - np.minimum(soil[1] * hist[starts][None, :], soil[2])
 
 
 def distinct_rows(keys: np.ndarray, any_repeat: bool = False):
