@@ -232,6 +232,32 @@ def test_blocks_do_not_depend_on_the_range_drawn():
     assert spearmanr(whole[:, 0], whole[:, 1])[0] == pytest.approx(0.7, abs=0.05)
 
 
+def test_correlation_kept_by_group_equals_the_whole_matrix():
+    """The design keeps one matrix per correlated group; assembled, it is the matrix built over
+    every column at once, and a run's draws are the columns of the whole draw."""
+    from lcoe.case.errors import InputError
+    from lcoe.uncertainty.sampling import correlation_matrix
+
+    members = [_member(f"r{i}", f"s{i // 2}", ["a", "b", "c", "d", "energy.resource"],
+                       shared=["d"], pairs=[("a", "b", 0.5), ("b", "c", -0.3)])
+               for i in range(6)]
+    d = build_design(members, 40, 3)
+    pairs = [(d.columns[ca], d.columns[cb], r) for m, cols in zip(members, d.member_columns)
+             for ca, cb, r in [(cols[0], cols[1], 0.5), (cols[1], cols[2], -0.3)]]
+    assert np.array_equal(d.corr, correlation_matrix(d.columns, pairs, "t"))
+    assert len(d.groups) == 6 and all(len(g) == 3 for g in d.groups)
+    u, z = d.draws(5, 33)
+    for m, cols in enumerate(d.member_columns):
+        um, zm = d.member_draws(m, 5, 33)
+        assert np.array_equal(um, u[:, list(cols)])
+        assert np.array_equal(zm, z[d.member_sites[m]])
+    # a group whose correlations are not jointly possible is still refused
+    bad = _member("x", "s", ["a", "b", "c"], pairs=[("a", "b", 0.9), ("b", "c", 0.9),
+                                                    ("a", "c", -0.9)])
+    with pytest.raises(InputError, match="not positive definite"):
+        build_design(members + [bad], 40, 3)
+
+
 def _refused(capsys, tmp_path, argv):
     from lcoe.cli import main
 

@@ -122,10 +122,12 @@ class TrialDesign:
         Column labels: the input's path, with ``[site]`` or ``[run]`` when it is not shared.
     kinds : tuple of str
         ``"study"``, ``"site"`` or ``"run"`` per column.
-    corr : numpy.ndarray or None
-        (D, D) target rank correlation.
     groups : tuple of tuple of int
         Connected groups of correlated columns (Iman-Conover is applied per group).
+    group_corr : tuple of numpy.ndarray
+        Target rank correlation of each group, (g, g) in the group's column order; columns
+        outside every group are uncorrelated. :attr:`corr` assembles the (D, D) matrix (a
+        sweep of many sites has tens of thousands of columns, so the design never holds it).
     sites : tuple of str
         Site keys (rows of the weather scores).
     member_columns : tuple of tuple of int
@@ -141,8 +143,8 @@ class TrialDesign:
     method: str
     columns: tuple
     kinds: tuple
-    corr: np.ndarray | None
     groups: tuple
+    group_corr: tuple = field(compare=False)
     sites: tuple
     member_columns: tuple
     member_sites: tuple
@@ -155,8 +157,23 @@ class TrialDesign:
         """(start, stop) of every block of trials."""
         return chunk_bounds(self.samples, self.block_trials)
 
-    def draws(self, start: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
-        """Uniforms (n, D) and weather scores (S, n, L) of trials [start, stop)."""
+    @property
+    def corr(self) -> np.ndarray | None:
+        """(D, D) target rank correlation (None when no columns are correlated)."""
+        if not self.groups:
+            return None
+        out = np.eye(len(self.columns))
+        for group, c in zip(self.groups, self.group_corr):
+            out[np.ix_(group, group)] = c
+        return out
+
+    def draws(self, start: int, stop: int, columns=None,
+              site: int | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Uniforms (n, D) and weather scores (S, n, L) of trials [start, stop).
+
+        ``columns`` (a list of column indices) and ``site`` (a site's row) select before the
+        blocks are joined: uniforms (n, len(columns)) and scores (n, L).
+        """
         if not 0 <= start < stop <= self.samples:
             raise ValueError(f"trials [{start}, {stop}) outside [0, {self.samples})")
         us, zs = [], []
@@ -165,9 +182,9 @@ class TrialDesign:
                 continue
             u, z = self._block(b)
             lo, hi = max(start, a) - a, min(stop, c) - a
-            us.append(u[lo:hi])
-            zs.append(z[:, lo:hi])
-        return np.concatenate(us), np.concatenate(zs, axis=1)
+            us.append(u[lo:hi] if columns is None else u[lo:hi, columns])
+            zs.append(z[:, lo:hi] if site is None else z[site, lo:hi])
+        return np.concatenate(us), np.concatenate(zs, axis=0 if site is not None else 1)
 
     def _block(self, b: int) -> tuple[np.ndarray, np.ndarray]:
         key = (self.fingerprint, b)
@@ -179,8 +196,7 @@ class TrialDesign:
 
     def member_draws(self, m: int, start: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
         """Member m's uniforms (n, d_m) and year-to-year scores (n, its lifetime)."""
-        u, z = self.draws(start, stop)
-        return u[:, list(self.member_columns[m])], z[self.member_sites[m]]
+        return self.draws(start, stop, list(self.member_columns[m]), self.member_sites[m])
 
 
 def block_draws(design: TrialDesign, b: int) -> tuple[np.ndarray, np.ndarray]:
@@ -196,9 +212,9 @@ def block_draws(design: TrialDesign, b: int) -> tuple[np.ndarray, np.ndarray]:
     d = len(design.columns)
     if d:
         u = (latin_hypercube if design.method == "lhs" else random_uniform)(n, d, rng)
-        for group in design.groups:
+        for group, c in zip(design.groups, design.group_corr):
             idx = list(group)
-            u[:, idx] = iman_conover(u[:, idx], design.corr[np.ix_(idx, idx)], rng)
+            u[:, idx] = iman_conover(u[:, idx], c, rng)
     else:
         u = np.empty((n, 0))
     z = rng.standard_normal((len(design.sites), n, design.life_max))
@@ -276,12 +292,11 @@ def build_design(members: Sequence[Member], samples: int, seed: int, method: str
     for ma, na, mb, nb, rank in cross_pairs:
         add(member_columns[ma][members[ma].names.index(na)],
             member_columns[mb][members[mb].names.index(nb)], float(rank), source)
-    corr, groups = None, ()
-    pairs = [(labels[min(k)], labels[max(k)], r) for k, (r, _) in given.items()
-             if len(k) == 2 and r != 0.0]
-    if pairs:
-        corr = correlation_matrix(labels, pairs, source, key="correlation")
-        groups = _groups(corr)
+    links = [(min(k), max(k), r) for k, (r, _) in given.items() if len(k) == 2 and r != 0.0]
+    pairs = [(labels[a], labels[b], r) for a, b, r in links]
+    groups = _groups(len(labels), links)
+    group_corr = tuple(_group_matrix(g, links, labels, source) for g in groups)
+    if groups:
         smallest = min(c - a for a, c in chunk_bounds(samples, block_trials))
         largest = max(len(g) for g in groups)
         if smallest <= largest:
@@ -292,28 +307,40 @@ def build_design(members: Sequence[Member], samples: int, seed: int, method: str
     fp = hashlib.sha256(repr((seed, samples, method, labels, kinds, pairs, sites, life_max,
                               block_trials)).encode()).hexdigest()
     return TrialDesign(seed=int(seed), samples=int(samples), method=method,
-                       columns=tuple(labels), kinds=tuple(kinds), corr=corr,
-                       groups=groups, sites=sites, member_columns=tuple(member_columns),
+                       columns=tuple(labels), kinds=tuple(kinds), groups=groups,
+                       group_corr=group_corr, sites=sites, member_columns=tuple(member_columns),
                        member_sites=tuple(sites.index(m.site) for m in members),
                        life_max=life_max, block_trials=block_trials, fingerprint=fp)
 
 
-def _groups(corr: np.ndarray) -> tuple:
-    """Connected groups (more than one column) of the graph of non-zero correlations."""
-    d = corr.shape[0]
-    seen, out = set(), []
-    for s in range(d):
-        if s in seen:
-            continue
-        stack, comp = [s], []
-        seen.add(s)
-        while stack:
-            j = stack.pop()
-            comp.append(j)
-            for k in np.flatnonzero(corr[j] != 0.0):
-                if int(k) not in seen:
-                    seen.add(int(k))
-                    stack.append(int(k))
-        if len(comp) > 1:
-            out.append(tuple(sorted(comp)))
-    return tuple(out)
+def _groups(d: int, links: Sequence[tuple]) -> tuple:
+    """Connected groups (more than one column, each sorted, ordered by their first column) of
+    the graph of correlated columns ``links`` = (a, b, rank) among ``d`` columns."""
+    parent = list(range(d))
+
+    def root(j: int) -> int:
+        while parent[j] != j:
+            parent[j] = parent[parent[j]]
+            j = parent[j]
+        return j
+
+    for a, b, _ in links:
+        ra, rb = root(a), root(b)
+        if ra != rb:
+            parent[max(ra, rb)] = min(ra, rb)
+    members: dict[int, list] = {}
+    for j in sorted({c for a, b, _ in links for c in (a, b)}):
+        members.setdefault(root(j), []).append(j)
+    return tuple(sorted(tuple(g) for g in members.values()))
+
+
+def _group_matrix(group: tuple, links: Sequence[tuple], labels: Sequence[str],
+                  source: str) -> np.ndarray:
+    """The checked (g, g) target rank correlation of one connected group of columns.
+
+    The design's (D, D) matrix is block diagonal in these groups, so it is positive definite
+    exactly when every group's matrix is (its eigenvalues are those of the groups and ones).
+    """
+    inside = set(group)
+    pairs = [(labels[a], labels[b], r) for a, b, r in links if a in inside]
+    return correlation_matrix([labels[j] for j in group], pairs, source, key="correlation")
