@@ -66,9 +66,13 @@ def test_forked_pictures_give_the_same_files(tmp_path, monkeypatch):
 
 @needs_fork
 def test_value_comes_from_the_child():
+    import gc
+
     with beside(lambda: os.getpid()) as job:
         assert job.forked
+        assert gc.get_freeze_count() > 0  # the collector leaves the shared pages alone
         assert job.result() != os.getpid()
+    assert gc.get_freeze_count() == 0
 
 
 @needs_fork

@@ -19,10 +19,18 @@ Rules that keep the output folder's guarantees (:mod:`lcoe.export.staging`) inta
 - A child is forked only on Linux and only when the process runs no other Python thread
   (a fork copies no thread, and a lock another thread held would stay locked in the child);
   otherwise the value is computed in this process when asked for.
+- Until the child is reaped the command's objects are frozen out of the garbage collector
+  (``gc.freeze``): neither process's collector then touches, and so copies, the memory pages
+  they share after the fork, and the fork costs next to no CPU (measured: 1.12 s of CPU for
+  the export of 20,000 trials with or without the child; 1.23-1.33 s when both collectors ran).
+  On a busy machine the child gains little (Linux shares a session's CPU among its processes,
+  ``sched_autogroup``) but costs nothing either; with a free core the pictures are drawn while
+  the workbook is written.
 """
 
 from __future__ import annotations
 
+import gc
 import os
 import pickle
 import signal
@@ -35,7 +43,7 @@ _PR_SET_PDEATHSIG = 1
 
 
 def can_fork() -> bool:
-    """True when :func:`beside` forks a child here (Linux, no other Python thread)."""
+    """True when a child may be forked here: Linux and no other Python thread."""
     return (sys.platform.startswith("linux") and hasattr(os, "fork")
             and threading.active_count() == 1)
 
@@ -47,6 +55,7 @@ class Beside:
         self._compute = compute
         self._pid: int | None = None
         self._fd: int | None = None
+        self._frozen = False
         self.forked = False
 
     def _start(self) -> None:
@@ -54,9 +63,14 @@ class Beside:
             return
         read, write = os.pipe()
         parent = os.getpid()
+        # the command's objects out of the collector's reach while both processes run: neither
+        # collector touches (and so copies) the memory pages they still share after the fork
+        gc.freeze()
+        self._frozen = True
         try:
             pid = os.fork()
         except OSError:  # no memory or process slot for a child: compute here instead
+            self.close()
             os.close(read)
             os.close(write)
             return
@@ -81,7 +95,11 @@ class Beside:
         return self._compute()
 
     def close(self) -> None:
-        """Kill and reap a child still running; close the pipe."""
+        """Kill and reap a child still running; close the pipe; let the collector see every
+        object again."""
+        if self._frozen:
+            gc.unfreeze()
+            self._frozen = False
         if self._fd is not None:
             os.close(self._fd)
             self._fd = None
