@@ -155,7 +155,7 @@ def test_implausible_error_counts_checked_trials_only():
     # a chunk that failed for another reason is not counted as checked, and is said
     from lcoe.study.trials import implausible_error
 
-    parts = [{"X": np.zeros((10, 1))}, {"implausible": (3, 10, "trial 12 (x = 1): bad")},
+    parts = [{"trials": 10}, {"implausible": (3, 10, "trial 12 (x = 1): bad")},
              None, {"implausible": (2, 5, "trial 31 (x = 2): bad")}]
     assert implausible_error(parts).startswith(
         "5 of 25 trials fail the plausibility check (1 chunk of trials failed otherwise); "

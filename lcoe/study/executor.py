@@ -33,13 +33,17 @@ def _one_line(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {' '.join(str(exc).split())}"
 
 
-def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None):
+def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None,
+               keep: Callable | None = None):
     """Run ``fn(task)`` for every task in this process, each tried up to :data:`ATTEMPTS` times.
+
+    ``keep(position, result)``, when given, receives each result as it is made and returns
+    what is stored in its place (a caller that gathers the results elsewhere keeps little).
 
     Returns
     -------
     results : list
-        ``fn``'s result per task, None where it failed.
+        ``fn``'s result per task (or what ``keep`` made of it), None where it failed.
     errors : dict of int to str
         Task position -> one-line error of the last attempt.
     """
@@ -52,6 +56,8 @@ def run_serial(tasks: Sequence, fn: Callable, progress: Callable | None = None):
                 break
             except Exception as exc:  # reported with its site and technology, not raised
                 errors[i] = _one_line(exc)
+        if keep is not None and results[i] is not None:
+            results[i] = keep(i, results[i])
         if progress:
             progress(i + 1, len(tasks))
     return results, errors
@@ -101,7 +107,7 @@ def affinity_batches(tasks: Sequence, size: int, affinity: Callable | None = Non
 
 
 def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | None = None,
-                  affinity: Callable | None = None):
+                  affinity: Callable | None = None, keep: Callable | None = None):
     """Run ``fn(task)`` for every task on a dask.distributed client, one retry per task.
 
     Parameters
@@ -116,6 +122,8 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
         batch (:func:`affinity_batches`), so that one worker prepares the site (weather, sun,
         rows) once. Tasks are sent in batches of several (about :data:`BATCHES_PER_WORKER` per
         worker); a failing task is retried on its own and reported alone.
+    keep : callable, optional
+        ``keep(position, result)`` as in :func:`run_serial`, called here as results arrive.
 
     Returns
     -------
@@ -143,7 +151,7 @@ def run_on_client(client, tasks: Sequence, fn: Callable, progress: Callable | No
             members = batches[position[fut.key]]
             if fut.status == "finished":
                 for i, (res, err) in zip(members, fut.result()):
-                    results[i] = res
+                    results[i] = res if keep is None or res is None else keep(i, res)
                     if err is not None:
                         errors[i] = err
             else:
@@ -265,7 +273,8 @@ def local_cluster(workers: int):
 
 
 def execute(tasks: Sequence, fn: Callable, workers: int = 1,
-            scheduler: str | None = None, progress: Callable | None = None):
+            scheduler: str | None = None, progress: Callable | None = None,
+            keep: Callable | None = None):
     """Run the tasks the requested way.
 
     Parameters
@@ -279,6 +288,9 @@ def execute(tasks: Sequence, fn: Callable, workers: int = 1,
         Address of an existing scheduler (overrides ``workers``).
     progress : callable, optional
         ``progress(done, total)`` after each task.
+    keep : callable, optional
+        ``keep(position, result) -> stored``, applied to each result in this process as it
+        arrives (see :func:`run_serial`).
 
     Returns
     -------
@@ -294,7 +306,7 @@ def execute(tasks: Sequence, fn: Callable, workers: int = 1,
         client = connect(scheduler)
         try:
             n = len(client.scheduler_info().get("workers", {}))
-            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
+            results, errors = run_on_client(client, tasks, fn, progress, _site_of, keep)
         finally:
             client.close()
         return results, errors, f"dask scheduler {scheduler} ({n} workers)", []
@@ -302,10 +314,10 @@ def execute(tasks: Sequence, fn: Callable, workers: int = 1,
         try:
             from distributed import Client
         except ImportError:
-            results, errors = run_serial(tasks, fn, progress)
+            results, errors = run_serial(tasks, fn, progress, keep)
             return results, errors, "serial (in process)", [DASK_MISSING_NOTE]
         with local_cluster(workers) as cluster, Client(cluster) as client:
-            results, errors = run_on_client(client, tasks, fn, progress, _site_of)
+            results, errors = run_on_client(client, tasks, fn, progress, _site_of, keep)
         return results, errors, f"local dask cluster, {workers} worker processes", []
-    results, errors = run_serial(tasks, fn, progress)
+    results, errors = run_serial(tasks, fn, progress, keep)
     return results, errors, "serial (in process)", []

@@ -188,7 +188,7 @@ def _yearly_cov(design: TrialDesign, run: StudyRun, pieces: list, chunk_size: in
     def chunks():
         for a, b in chunk_bounds(design.samples, chunk_size):
             task = ChunkTask(design=design, member=0, run=run, start=a, stop=b)
-            _, _, persist, _, factors = chunk_inputs(task, ratios)
+            _, _, persist, _, factors = chunk_inputs(task, ratios, inputs=False)
             yield a * life, _year_to_year(persist, factors)
 
     return chunked_std(pieces, chunks(), design.samples * life)

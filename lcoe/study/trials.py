@@ -34,6 +34,8 @@ from lcoe.uncertainty.sampling import uniforms_to_values
 
 #: Default trials per chunk (a task of a worker, and the memory bound of a model call).
 CHUNK_TRIALS = 1000
+#: Sampled names that are persistent energy components, not case inputs.
+ENERGY_PREFIX = "energy."
 #: Prepared sites and year ratios kept per process.
 CACHE_LIMIT = 256
 _CACHE: dict = {}
@@ -134,13 +136,18 @@ class ChunkTask:
 
 def split_inputs(spec: UncertainSpec, X: np.ndarray) -> tuple[dict, np.ndarray]:
     """Case-parameter arrays and the persistent energy factor (n,) from sampled rows X (n, d)."""
-    params, persist = {}, np.ones(X.shape[0])
-    for j, name in enumerate(spec.names):
-        if name.startswith("energy."):
+    params = {name: X[:, j] for j, name in enumerate(spec.names)
+              if not name.startswith(ENERGY_PREFIX)}
+    return params, energy_product(spec.names, X)
+
+
+def energy_product(names, X: np.ndarray) -> np.ndarray:
+    """(n,) product of the columns of X (n, d) whose name is an ``energy.*`` component [-]."""
+    persist = np.ones(X.shape[0])
+    for j, name in enumerate(names):
+        if name.startswith(ENERGY_PREFIX):
             persist = persist * X[:, j]
-        else:
-            params[name] = X[:, j]
-    return params, persist
+    return persist
 
 
 def yearly_factors(z: np.ndarray, interannual_cov: float,
@@ -201,7 +208,8 @@ def prepared(case: Case, fresh: bool = False, weather=None):
     return _CACHE[key]
 
 
-def chunk_inputs(task: ChunkTask, ratios: np.ndarray | None, weather: bool = True):
+def chunk_inputs(task: ChunkTask, ratios: np.ndarray | None, weather: bool = True,
+                 inputs: bool = True):
     """The sampled inputs of trials [start, stop) of a run, from the study's design.
 
     Any process draws the same numbers for the same trials (see :mod:`lcoe.study.design`), so
@@ -214,12 +222,15 @@ def chunk_inputs(task: ChunkTask, ratios: np.ndarray | None, weather: bool = Tru
         The site's multi-year energy ratios (:func:`prepared`), see :func:`yearly_factors`.
     weather : bool
         False skips the year-to-year factors (returned as None).
+    inputs : bool
+        False maps only the energy components' uniforms to values (``X`` and ``params`` are
+        returned as None; the persistent factor is the same).
 
     Returns
     -------
-    X : numpy.ndarray
+    X : numpy.ndarray or None
         (n, d) sampled input values, in the order of the run's spec.
-    params : dict of str to numpy.ndarray
+    params : dict of str to numpy.ndarray or None
         The case inputs among them, (n,) each.
     persist : numpy.ndarray
         (n,) persistent energy factor [-].
@@ -229,8 +240,14 @@ def chunk_inputs(task: ChunkTask, ratios: np.ndarray | None, weather: bool = Tru
     run = task.run
     n = task.stop - task.start
     u, z = task.design.member_draws(task.member, task.start, task.stop)
-    X = uniforms_to_values(run.spec.dists, u) if u.shape[1] else np.empty((n, 0))
-    params, persist = split_inputs(run.spec, X)
+    if inputs:
+        X = uniforms_to_values(run.spec.dists, u) if u.shape[1] else np.empty((n, 0))
+        params, persist = split_inputs(run.spec, X)
+    else:
+        cols = [j for j, name in enumerate(run.spec.names) if name.startswith(ENERGY_PREFIX)]
+        X = params = None
+        persist = energy_product([run.spec.names[j] for j in cols], uniforms_to_values(
+            [run.spec.dists[j] for j in cols], u[:, cols]) if cols else np.empty((n, 0)))
     if not weather:
         return X, params, persist, None, None
     life = int(run.case["case.lifetime_years"])
@@ -350,7 +367,9 @@ def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
     if chunk_trials < 1:
         raise InputError(f"chunk size {chunk_trials}: expected a whole number >= 1")
     tasks = make_tasks(design, runs, chunk_trials)
-    results, errors, execution, notes = execute(tasks, fn, workers, scheduler, progress)
+    joined = _Joined(tasks, len(runs), design.samples)
+    results, errors, execution, notes = execute(tasks, fn, workers, scheduler, progress,
+                                                keep=joined)
     outputs: list = []
     failed: dict[int, tuple] = {}
     site_notes: dict[str, list] = {}
@@ -367,29 +386,51 @@ def evaluate_runs(design: TrialDesign, runs: Sequence[StudyRun],
             site_notes.setdefault(note, [])
             if run.label not in site_notes[note]:
                 site_notes[note].append(run.label)
-        outputs.append(_assemble(parts))
+        outputs.append(joined.outputs[m])
     return StudyOutput(outputs=outputs, errors=failed, execution=execution, notes=notes,
                        site_notes=site_notes)
 
 
-def _assemble(parts: Sequence[dict]) -> dict:
-    """A run's chunk results in trial order: arrays concatenated, other values listed by chunk.
+class _Joined:
+    """Each run's outputs over all its trials, filled chunk by chunk as the results arrive.
 
-    Each key's chunk arrays are released as it is joined, so the whole run's arrays are held
-    about once, not twice.
+    An array output of a chunk is copied into its place in one array per output of the run
+    (made at the first chunk that has it, as long as the run); other values are listed by
+    chunk. The executor then keeps only a small marker per chunk, so the chunks' arrays are
+    released one by one and never held beside the joined ones.
     """
-    out = {}
-    for k in [k for k in parts[0] if k != "notes"]:
-        values = [p.pop(k) for p in parts]
-        out[k] = np.concatenate(values) if isinstance(values[0], np.ndarray) else values
-        del values
-    return out
+
+    def __init__(self, tasks: Sequence[ChunkTask], n_runs: int, samples: int):
+        self.tasks = tasks
+        self.per_run = len(tasks) // max(1, n_runs)
+        self.samples = samples
+        self.outputs: list[dict] = [{} for _ in range(n_runs)]
+
+    def __call__(self, i: int, res: dict) -> dict:
+        if "implausible" in res:
+            return res
+        task = self.tasks[i]
+        m, c = divmod(i, self.per_run)
+        out = self.outputs[m]
+        for k, v in res.items():
+            if k == "notes":
+                continue
+            if isinstance(v, np.ndarray):
+                if k not in out:
+                    out[k] = np.empty((self.samples,) + v.shape[1:], v.dtype)
+                elif out[k].dtype != np.result_type(out[k], v):  # as concatenation would
+                    out[k] = out[k].astype(np.result_type(out[k], v))
+                out[k][task.start:task.stop] = v
+            else:
+                out.setdefault(k, [None] * self.per_run)[c] = v
+        return {"notes": res["notes"], "trials": task.stop - task.start}
 
 
 def implausible_error(parts: Sequence) -> str:
     """The error of a run with trials that fail the plausibility checks, counted over the run.
 
-    ``parts`` are the run's chunk results in order (None for a chunk that failed otherwise).
+    ``parts`` are the run's chunk results in order (None for a chunk that failed otherwise;
+    ``{"trials": n, ...}`` for a chunk whose n trials passed).
     """
     n_bad = n_checked = 0
     first = None
@@ -400,7 +441,7 @@ def implausible_error(parts: Sequence) -> str:
             n_bad, n_checked = n_bad + p["implausible"][0], n_checked + p["implausible"][1]
             first = first or p["implausible"][2]
         else:
-            n_checked += len(next(v for v in p.values() if isinstance(v, np.ndarray)))
+            n_checked += p["trials"]
     missing = sum(p is None for p in parts)
     also = f" ({missing} chunk{'s' * (missing > 1)} of trials failed otherwise)" if missing else ""
     return (f"{n_bad} of {n_checked} trials fail the plausibility check{also}; the first, "
