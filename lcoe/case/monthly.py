@@ -8,6 +8,7 @@ year (:mod:`lcoe.site.synth_weather`).
 from __future__ import annotations
 
 import calendar
+import functools
 
 import numpy as np
 import pandas as pd
@@ -142,7 +143,14 @@ def monthly_extraterrestrial_kwh_m2_day(latitude_deg: float, year: int = 2021) -
     .. [1] Duffie, J.A. and Beckman, W.A., Solar Engineering of Thermal Processes, Wiley,
        section 1.10.
     """
-    return _month_means(daily_extraterrestrial_kwh_m2(latitude_deg, year), year)
+    return np.array(_monthly_h0(float(latitude_deg), int(year)))
+
+
+@functools.lru_cache(maxsize=4096)
+def _monthly_h0(latitude_deg: float, year: int) -> tuple:
+    """The 12 values of :func:`monthly_extraterrestrial_kwh_m2_day`, kept per latitude and year
+    (every case of a sweep's site validates its monthly values against them)."""
+    return tuple(_month_means(daily_extraterrestrial_kwh_m2(latitude_deg, year), year))
 
 
 def monthly_extraterrestrial_normal_kwh_m2_day(latitude_deg: float,

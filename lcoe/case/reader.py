@@ -6,6 +6,7 @@ the value and what is allowed. Unknown keys are errors that suggest the closest 
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import tomllib
 from collections.abc import Mapping
@@ -267,6 +268,15 @@ def read_toml(path: Path, what: str) -> tuple[dict, bytes]:
         raise InputError(f"{src}: not valid TOML: {exc}") from None
 
 
+@functools.cache
+def _allowed_keys() -> dict[str, frozenset]:
+    """Section -> the keys its table may hold (schema keys, extra keys, sub-tables), built once
+    (a sweep validates thousands of cases)."""
+    return {section: frozenset({f.key for f in FIELDS if f.section == section}
+                               | set(EXTRA_KEYS.get(section, ())) | set(child_sections(section)))
+            for section in SECTIONS}
+
+
 def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
                    sha256: str = "") -> Case:
     """Validate a nested mapping (as read from TOML) into a :class:`Case`.
@@ -288,13 +298,12 @@ def case_from_dict(data: Mapping[str, Any], source: str, base_dir: Path,
         if key not in top_allowed:
             raise unknown_key_error(source, key, sorted(top_allowed))
     tables = {section: _section_table(data, section, source) for section in SECTIONS}
+    allowed = _allowed_keys()
     for section, table in tables.items():
-        extra = set(EXTRA_KEYS.get(section, ())) | set(child_sections(section))
-        known = {f.key for f in FIELDS if f.section == section}
         for key in table:
-            if key not in known and key not in extra:
+            if key not in allowed[section]:
                 raise unknown_key_error(source, f"{section}.{key}",
-                                        [f"{section}.{k}" for k in sorted(known | extra)])
+                                        [f"{section}.{k}" for k in sorted(allowed[section])])
     for f in FIELDS:
         table = tables[f.section]
         if f.key in table:

@@ -295,7 +295,12 @@ def build_design(members: Sequence[Member], samples: int, seed: int, method: str
     links = [(min(k), max(k), r) for k, (r, _) in given.items() if len(k) == 2 and r != 0.0]
     pairs = [(labels[a], labels[b], r) for a, b, r in links]
     groups = _groups(len(labels), links)
-    group_corr = tuple(_group_matrix(g, links, labels, source) for g in groups)
+    group_of = {j: k for k, g in enumerate(groups) for j in g}
+    by_group: list[list] = [[] for _ in groups]
+    for link in links:
+        by_group[group_of[link[0]]].append(link)
+    group_corr = tuple(_group_matrix(g, own, labels, source)
+                       for g, own in zip(groups, by_group))
     if groups:
         smallest = min(c - a for a, c in chunk_bounds(samples, block_trials))
         largest = max(len(g) for g in groups)
@@ -336,11 +341,11 @@ def _groups(d: int, links: Sequence[tuple]) -> tuple:
 
 def _group_matrix(group: tuple, links: Sequence[tuple], labels: Sequence[str],
                   source: str) -> np.ndarray:
-    """The checked (g, g) target rank correlation of one connected group of columns.
+    """The checked (g, g) target rank correlation of one connected group of columns, from the
+    group's ``links`` (a, b, rank).
 
     The design's (D, D) matrix is block diagonal in these groups, so it is positive definite
     exactly when every group's matrix is (its eigenvalues are those of the groups and ones).
     """
-    inside = set(group)
-    pairs = [(labels[a], labels[b], r) for a, b, r in links if a in inside]
+    pairs = [(labels[a], labels[b], r) for a, b, r in links]
     return correlation_matrix([labels[j] for j in group], pairs, source, key="correlation")

@@ -239,11 +239,11 @@ def load_plan(path: str | Path) -> SweepPlan:
     runs, study_runs = [], []
     for site in sites:
         for tech in techs:
-            run, spec = _build_run(site, tech, tech_raw[tech.label], plan_unc, plan_energy,
-                                   src, base_dir)
+            run, case, spec = _build_run(site, tech, tech_raw[tech.label], plan_unc,
+                                         plan_energy, src, base_dir)
             runs.append(run)
             study_runs.append(StudyRun(label=f"{site.name} / {tech.label}",
-                                       case_label=tech.label, site=site.name, case=run.case(),
+                                       case_label=tech.label, site=site.name, case=case,
                                        spec=spec, shared=frozenset(run.shared)))
     check_used(plan_unc, [frozenset(r.shared) for r in runs], src,
                [t.path for t in techs])
@@ -364,8 +364,10 @@ def _plan_energy(value: Any, src: str) -> dict:
 
 
 def _build_run(site: SweepSite, tech: Technology, tech_raw: Mapping, plan_unc: Mapping,
-               plan_energy: Mapping, src: str, base_dir: Path) -> tuple[RunDef, UncertainSpec]:
-    """Build and validate the case of one site x technology."""
+               plan_energy: Mapping, src: str, base_dir: Path
+               ) -> tuple[RunDef, Case, UncertainSpec]:
+    """Build and validate the case of one site x technology (the case is
+    :meth:`RunDef.case`)."""
     source = f"{src} (site '{site.name}', technology '{tech.label}')"
     raw = copy.deepcopy(dict(tech_raw))
     raw["site"] = copy.deepcopy(site.table)
@@ -377,9 +379,9 @@ def _build_run(site: SweepSite, tech: Technology, tech_raw: Mapping, plan_unc: M
     if energy:
         merged["energy"] = energy
     raw["uncertain"] = merged
-    case = case_from_dict(raw, source=source, base_dir=base_dir)
+    case = case_from_dict(raw, source=source, base_dir=base_dir, sha256=raw_sha256(raw))
     spec = read_spec(case)
     run = RunDef(site=site.name, technology=tech.label, source=source, base_dir=str(base_dir),
                  raw=raw, lifetime_years=int(case["case.lifetime_years"]),
                  shared=tuple(sorted(used)))
-    return run, spec
+    return run, case, spec
