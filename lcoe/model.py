@@ -113,14 +113,12 @@ class ModelOutput:
 
 
 #: Inputs that the factored sums (:mod:`lcoe.plant.factored`) treat as fixed within a group of
-#: samples (the rear factor and soiling shape the group's hourly series). When one of them is
-#: sampled, ``evaluate`` uses the hourly method: decided from the inputs given, never from
-#: which samples happen to share a chunk, so results do not depend on chunking. Except the
-#: monthly soiling scale of a plant without a rear side: there the dirt scales each month's
-#: light per sample, which the sums take as it is.
-SUMMED_PER_GROUP = frozenset({"plant.bifaciality", "plant.rear_loss_fraction",
-                              "plant.soiling.scale", "plant.soiling.rate_per_day",
-                              "plant.soiling.max_loss"})
+#: samples: Kimber's soiling rate and ceiling shape the group's hourly series (the dirt
+#: changes hour by hour). When one of them is sampled, ``evaluate`` uses the hourly method:
+#: decided from the inputs given, never from which samples happen to share a chunk, so
+#: results do not depend on chunking. (The rear factor and the monthly soiling scale are
+#: per-sample factors of the sums' parts, see :mod:`lcoe.plant.factored`.)
+SUMMED_PER_GROUP = frozenset({"plant.soiling.rate_per_day", "plant.soiling.max_loss"})
 
 
 def load_weather_for(case: Case) -> Weather:
@@ -361,10 +359,7 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     ModelOutput
     """
     params = dict(params or {})
-    per_group = SUMMED_PER_GROUP.intersection(params)
-    if method == "factored" and per_group and not (
-            per_group == {"plant.soiling.scale"} and case["plant.soiling.model"] == "monthly"
-            and float(case["plant.bifaciality"]) == 0.0):
+    if method == "factored" and SUMMED_PER_GROUP.intersection(params):
         method = "hourly"  # sampled: every sample its own group, nothing to share
     sizes = [np.asarray(v).size for v in params.values()]
     if weather_factors is not None:  # trials whose only uncertainty is the energy factors

@@ -73,10 +73,10 @@ def test_fixed_rows_soiling_random_sets(demo, seed):
     _assert_same(case, site, _sample(rng, 300, RANGES))
 
 
-def test_groups_of_rear_factor_and_soiling(demo):
-    # the sums per group (one rear factor and soiling level each): most samples share one,
-    # a few have their own; straight through energy.simulate (evaluate sends sampled rear
-    # and soiling inputs to the hourly method, see the next test)
+def test_rear_factor_and_soiling_scale_per_sample(demo):
+    # the rear factor and the monthly soiling scale are per-sample factors of the sums'
+    # parts: most samples share a value, some have their own; straight through
+    # energy.simulate
     from lcoe.model import _geometry, _soiling, base_params
     from lcoe.plant.energy import ENERGY_PARAMS, simulate
 
@@ -100,13 +100,10 @@ def test_groups_of_rear_factor_and_soiling(demo):
                                atol=RTOL * ref.monthly_kwh.max())
 
 
-def test_sampled_rear_factor_goes_hour_by_hour(demo):
-    case, site = demo
-    params = _sample(np.random.default_rng(12), 30, RANGES)
-    params["plant.bifaciality"] = np.full(30, 0.7)
-    got = evaluate(case, site, params).energy.annual_kwh
-    np.testing.assert_array_equal(got, evaluate(case, site, params,
-                                                method="hourly").energy.annual_kwh)
+def test_sampled_kimber_soiling_goes_hour_by_hour(demo):
+    from lcoe.model import SUMMED_PER_GROUP
+
+    assert SUMMED_PER_GROUP == {"plant.soiling.rate_per_day", "plant.soiling.max_loss"}
 
 
 def test_sampled_monthly_soiling_scale_is_summed(demo):
@@ -118,25 +115,23 @@ def test_sampled_monthly_soiling_scale_is_summed(demo):
     params["plant.soiling.scale"] = rng.uniform(0.0, 3.0, 300)
     params["plant.soiling.scale"][:5] = 60.0
     _assert_same(case, site, params, weather_factors=rng.uniform(0.9, 1.1, (300, 30)))
-    from lcoe.model import SUMMED_PER_GROUP
-
-    assert "plant.soiling.scale" in SUMMED_PER_GROUP
 
 
-def test_sampled_soiling_with_companions_and_a_rear_side(demo):
-    # the soiling scale changes nothing in the companions' bits; on a bifacial plant (rear
-    # light is not soiled) a sampled scale still goes hour by hour
+def test_sampled_rear_side_and_soiling_are_summed(demo):
+    # a bifacial plant (rear light is not soiled) with bifaciality, rear loss and the soiling
+    # scale sampled: the sums against the hourly method, and a sample's bits among others
     case, site = demo
+    case = case.with_values({"plant.bifaciality": 0.7})
     rng = np.random.default_rng(14)
-    ours = _sample(rng, 30, RANGES)
-    ours["plant.soiling.scale"] = rng.uniform(0.5, 2.0, 30)
-    alone = _outputs(evaluate(case, site, ours))
-    more = {k: np.concatenate([v, rng.permutation(v)]) for k, v in ours.items()}
-    mixed = _outputs(evaluate(case, site, more))
+    ours = _sample(rng, 200, RANGES)
+    ours["plant.soiling.scale"] = rng.uniform(0.5, 2.0, 200)
+    ours["plant.bifaciality"] = rng.uniform(0.0, 0.9, 200)
+    ours["plant.rear_loss_fraction"] = rng.uniform(0.0, 0.3, 200)
+    _assert_same(case, site, ours)
+    alone = _outputs(evaluate(case, site, {k: v[:30] for k, v in ours.items()}))
+    mixed = _outputs(evaluate(case, site, ours))
     for k, v in alone.items():
         np.testing.assert_array_equal(mixed[k][:30], v, err_msg=k)
-    bifacial = case.with_values({"plant.bifaciality": 0.7})
-    _assert_same(bifacial, site, ours)
 
 
 def test_single_axis_random_sets(lender):

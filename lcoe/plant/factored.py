@@ -91,68 +91,94 @@ def _quad_bounds(c0, c1, c2, lo: float, hi: float):
     return out_lo, out_hi
 
 
-class _Group:
-    """Hourly series and their products for samples sharing soiling and the rear factor."""
+def _part(share: np.ndarray, A, B, N, G) -> tuple:
+    """Hourly series (xa, xb, x0, x1, x2) of one part of q: ``U = xa + a xb`` and
+    ``V = x0 + a x1 + a^2 x2`` for effective light ``A + a B`` heated by ``N + a G``."""
+    return (share @ A, share @ B, share @ (A * N), share @ (A * G + B * N), share @ (B * G))
 
-    def __init__(self, st: dict, share: np.ndarray, keep, rear_k: float, t_prime, wind_class,
+
+def _moment_rows(x: tuple, y: tuple, tp: np.ndarray) -> tuple:
+    """Hourly rows whose sums, times the features of :func:`_features`, give the sum of
+    ``q_x q_y`` (``x is y``: of ``q_x^2``): global rows (9, n_h) and per-class rows (13, n_h).
+
+    With ``q = U (1 + g T') + g w V``: ``q_x q_y = U_x U_y (1 + g T')^2 + g w (U_x V_y +
+    U_y V_x) (1 + g T') + g^2 w^2 V_x V_y``, each a polynomial in the albedo.
+    """
+    xa, xb, x0, x1, x2 = x
+    ya, yb, y0, y1, y2 = y
+    u2 = (xa * ya, xa * yb + xb * ya, xb * yb)
+    # (U_x V_y + U_y V_x) / 2: the features carry the factor 2
+    uv = tuple(0.5 * (c + d) for c, d in zip(
+        (xa * y0, xa * y1 + xb * y0, xa * y2 + xb * y1, xb * y2),
+        (ya * x0, ya * x1 + yb * x0, ya * x2 + yb * x1, yb * x2)))
+    vv = (x0 * y0, x0 * y1 + x1 * y0, x1 * y1 + x0 * y2 + x2 * y0, x1 * y2 + x2 * y1, x2 * y2)
+    return (np.stack([u * t for u in u2 for t in (1.0, 2.0 * tp, tp * tp)]),
+            np.stack(list(uv) + [c * tp for c in uv] + list(vv)))
+
+
+class _Group:
+    """Hourly series and their products for samples sharing one soiling history.
+
+    q is ``c_F q_F + c_R q_R``: the front part (effective front light, x the group's soiling
+    when it is folded in) and, with a rear side, the rear part; ``c_F`` is 1 or a sample's
+    soiling factor of the segment, ``c_R`` the sample's rear factor (bifaciality x (1 - rear
+    loss)). Both parts are heated by the front light before soiling (``N + a G``).
+    """
+
+    def __init__(self, st: dict, share: np.ndarray, keep, t_prime, wind_class,
                  n_class: int, seg, n_seg: int):
         A = st["eff_n"] if keep is None else st["eff_n"] * keep
         B = st["eff_g"] if keep is None else st["eff_g"] * keep
-        if "rear_n" in st and rear_k != 0.0:
-            A = A + rear_k * st["rear_n"]
-            B = B + rear_k * st["rear_g"]
         N, G = st["shaded_n"], st["shaded_g"]
-        ua, ub = share @ A, share @ B
-        v0, v1, v2 = share @ (A * N), share @ (A * G + B * N), share @ (B * G)
-        self.ua, self.ub, self.v0, self.v1, self.v2 = ua, ub, v0, v1, v2
+        parts = [_part(share, A, B, N, G)]
+        if "rear_n" in st:
+            parts.append(_part(share, st["rear_n"], st["rear_g"], N, G))
+        self.rear = len(parts) == 2
         tp = t_prime
-        # sum q: a^i g^j (i, j in 0..1), and per wind class g w a^i (i in 0..2)
-        # sum q^2: U^2 (1 + g T')^2 -> a^i g^j (i, j in 0..2); 2 g w U V (1 + g T') -> per
-        # class 2 g w a^i and 2 g^2 w a^i (i in 0..3); g^2 w^2 V^2 -> a^i (i in 0..4)
-        u2 = (ua * ua, 2.0 * ua * ub, ub * ub)
-        uv = (ua * v0, ua * v1 + ub * v0, ua * v2 + ub * v1, ub * v2)
-        vv = (v0 * v0, 2.0 * v0 * v1, v1 * v1 + 2.0 * v0 * v2, 2.0 * v1 * v2, v2 * v2)
-        self.glob = (np.stack([ua, ub, ua * tp, ub * tp]),
-                     np.stack([u * t for u in u2 for t in (1.0, 2.0 * tp, tp * tp)]))
-        self.wind_class = wind_class
+        self.ua = parts[0][0]
+        self.tp, self.seg, self.n_class, self.n_seg = tp, seg, n_class, n_seg
+        self.parts, self.wind_class = parts, wind_class
         cell = seg * n_class + wind_class
         self.order = np.argsort(cell, kind="stable")
         cs = cell[self.order]
         self.cell_starts = np.concatenate(([0], np.nonzero(np.diff(cs))[0] + 1))
         self.cells = cs[self.cell_starts]
-        self.cls = (np.stack([v0, v1, v2])[:, self.order],
-                    np.stack(list(uv) + [x * tp for x in uv] + list(vv))[:, self.order])
         self.seg_starts = np.concatenate(([0], np.nonzero(np.diff(seg))[0] + 1))
-        self.tp, self.seg, self.n_class, self.n_seg = tp, seg, n_class, n_seg
         # Fixed sets of the group (never depend on which samples are evaluated together):
-        # the summed hours, and the hours without any light (nothing for any sample).
-        self.base = ua >= BASE_LIGHT_W_M2
-        self.unlit = (ua == 0) & (ub == 0) & (v0 == 0) & (v1 == 0) & (v2 == 0)
+        # the summed hours (front light), and the hours without any light.
+        self.base = self.ua >= BASE_LIGHT_W_M2
+        self.unlit = np.all([x == 0 for part in parts for x in part], axis=0)
         self.lit = np.nonzero(~self.unlit)[0]
-        every = np.ones(ua.size, dtype=bool)
-        self.k1 = np.concatenate([self.coefficients(every, 1), self.coefficients(self.base, 1)],
-                                 axis=1)
-        self.k2 = self.coefficients(self.base, 2)
-        self.zc1 = np.stack([ua, ub, ua * tp, ub * tp], axis=1)  # per hour, for z
-        self.zc2 = np.stack([v0, v1, v2], axis=1)
-        self.k1t, self.k2t = np.ascontiguousarray(self.k1.T), np.ascontiguousarray(self.k2.T)
-        self.n_base = self.count(self.base)
+        every = np.ones(self.ua.size, dtype=bool)
+        # sum q: a^i g^j (i, j in 0..1), and per wind class g w a^i (i in 0..2), per part;
+        # sum q^2: per pair of parts (FF, FR, RR), the rows of _moment_rows
+        k1, k2 = [], []
+        for x in parts:
+            rows = (np.stack([x[0], x[1], x[0] * tp, x[1] * tp]), np.stack(x[2:]))
+            k1 += [self._sums(rows, every), self._sums(rows, self.base)]
+        pairs = [(0, 0), (0, 1), (1, 1)] if self.rear else [(0, 0)]
+        for i, j in pairs:
+            k2.append(self._sums(_moment_rows(parts[i], parts[j], tp), self.base))
+        self.k1t = np.ascontiguousarray(np.concatenate(k1, axis=1).T)
+        self.k2t = np.ascontiguousarray(np.concatenate(k2, axis=1).T)
+        # per hour, for z: [xa, xb, xa T', xb T'] and [x0, x1, x2] of each part
+        self.zc = [(np.stack([x[0], x[1], x[0] * tp, x[1] * tp], axis=1),
+                    np.stack(x[2:], axis=1)) for x in parts]
+        self.n_base = np.add.reduceat(self.base.astype(float), self.seg_starts)
 
-    def coefficients(self, mask: np.ndarray, moment: int) -> np.ndarray:
-        """Sums over the hours of ``mask`` matching the features of :func:`_features`:
-        ``(n_features, n_seg)`` for the first (1) or second (2) moment of q."""
+    def _sums(self, rows: tuple, mask: np.ndarray) -> np.ndarray:
+        """Sums over the hours of ``mask`` of global rows (k_g, n_h) and per-class rows
+        (k_c, n_h): ``(k_g + k_c n_class, n_seg)``, matching :func:`_features`."""
+        glob, per_class = rows
         ns, nc = self.n_seg, self.n_class
         m = mask.astype(float)
-        glob = np.add.reduceat(self.glob[moment - 1] * m, self.seg_starts, axis=1)
-        rows = self.cls[moment - 1]
-        by_cell = np.zeros((rows.shape[0], ns * nc))
-        by_cell[:, self.cells] = np.add.reduceat(rows * m[self.order], self.cell_starts, axis=1)
+        g_sums = np.add.reduceat(glob * m, self.seg_starts, axis=1)
+        by_cell = np.zeros((per_class.shape[0], ns * nc))
+        by_cell[:, self.cells] = np.add.reduceat(per_class[:, self.order] * m[self.order],
+                                                 self.cell_starts, axis=1)
         # (k, seg, class) -> rows k x class, columns seg
         by_cell = by_cell.reshape(-1, ns, nc).transpose(0, 2, 1).reshape(-1, ns)
-        return np.concatenate([glob, by_cell])
-
-    def count(self, mask: np.ndarray) -> np.ndarray:
-        return np.add.reduceat(mask.astype(float), self.seg_starts)
+        return np.concatenate([g_sums, by_cell])
 
 
 def _features(a, g, gw):
@@ -179,32 +205,41 @@ def _features(a, g, gw):
     return f1, f2
 
 
-def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h,
-                keep=None) -> np.ndarray:
-    """The hours of ``hrs`` where some of the samples may start late, clip or fall below the
-    inverter's start (summed hours), or may deliver at all (unsummed hours).
-
-    Interval bounds of ``z = beta q`` over the samples' ranges of albedo, temperature
-    coefficient, thermal coefficients and ``beta``; every other hour of ``hrs`` is certainly
-    between start and clipping (summed) or certainly dark for every sample.
-    """
-    tp = grp.tp[hrs]
-    a_lo, a_hi = a.min(), a.max()
-    g_lo, g_hi = g.min(), g.max()
-    wind = wind_h[hrs]
-    w_lo = 1.0 / (u0.max() + u1.max() * wind)
-    w_hi = 1.0 / (u0.min() + u1.min() * wind)
-    ua, ub = grp.ua[hrs], grp.ub[hrs]
-    u_lo, u_hi = _imul(1.0, 1.0, ua + a_lo * ub, ua + a_hi * ub)
-    v_lo, v_hi = _quad_bounds(grp.v0[hrs], grp.v1[hrs], grp.v2[hrs], a_lo, a_hi)
+def _q_bounds(part: tuple, hrs: np.ndarray, tp, a_lo, a_hi, g_lo, g_hi, w_lo, w_hi):
+    """Bounds of one part of q (W/m2 / 1000) over the hours ``hrs`` and the samples' ranges."""
+    xa, xb = part[0][hrs], part[1][hrs]
+    u_lo, u_hi = _imul(1.0, 1.0, xa + a_lo * xb, xa + a_hi * xb)
+    v_lo, v_hi = _quad_bounds(part[2][hrs], part[3][hrs], part[4][hrs], a_lo, a_hi)
     c_lo, c_hi = _imul(1.0, 1.0, 1.0 + g_lo * tp, 1.0 + g_hi * tp)
     uc = _imul(u_lo, u_hi, c_lo, c_hi)
     gwv = _imul(g_lo, g_hi, *_imul(w_lo, w_hi, v_lo, v_hi))
-    z_lo, z_hi = _imul(beta.min(), beta.max(), (uc[0] + gwv[0]) / 1000.0,
-                       (uc[1] + gwv[1]) / 1000.0)
+    return (uc[0] + gwv[0]) / 1000.0, (uc[1] + gwv[1]) / 1000.0
+
+
+def _candidates(grp: _Group, hrs: np.ndarray, smp: dict, wind_h) -> np.ndarray:
+    """The hours of ``hrs`` where some of the samples ``smp`` may start late, clip or fall
+    below the inverter's start (summed hours), or may deliver at all (unsummed hours).
+
+    Interval bounds of ``z = beta (c_F q_F + c_R q_R)`` over the samples' ranges of albedo,
+    temperature coefficient, thermal coefficients, ``beta`` and the parts' factors; every
+    other hour of ``hrs`` is certainly between start and clipping (summed) or certainly dark
+    for every sample.
+    """
+    a, g, u0, u1 = smp["a"], smp["g"], smp["u0"], smp["u1"]
+    wind = wind_h[hrs]
+    rng = (grp.tp[hrs], a.min(), a.max(), g.min(), g.max(),
+           1.0 / (u0.max() + u1.max() * wind), 1.0 / (u0.min() + u1.min() * wind))
+    z_lo, z_hi = _q_bounds(grp.parts[0], hrs, *rng)
+    keep = smp["keep"]
     if keep is not None:  # soiling: each segment's light x the samples' factors of it
         s_h = grp.seg[hrs]
         z_lo, z_hi = _imul(keep.min(axis=0)[s_h], keep.max(axis=0)[s_h], z_lo, z_hi)
+    if grp.rear:
+        r_lo, r_hi = _imul(smp["rear"].min(), smp["rear"].max(),
+                           *_q_bounds(grp.parts[1], hrs, *rng))
+        z_lo, z_hi = z_lo + r_lo, z_hi + r_hi
+    beta = smp["beta"]
+    z_lo, z_hi = _imul(beta.min(), beta.max(), z_lo, z_hi)
     z_lo = z_lo - MARGIN * np.abs(z_lo)
     z_hi = z_hi + MARGIN * np.abs(z_hi)
     plain = (z_lo > Z_START) & (z_hi < Z_CLIP)  # certainly between start and clipping
@@ -212,10 +247,9 @@ def _candidates(grp: _Group, hrs: np.ndarray, a, g, u0, u1, beta, wind_h,
     return hrs[np.where(grp.base[hrs], ~plain, ~dark)]
 
 
-def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.ndarray,
-               keep=None):
-    """(sum q, sum of output before clipping, after clipping) by segment for the samples of
-    one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
+def _sub_chunk(grp: _Group, smp: dict, wind_values, wind_h, hrs: np.ndarray):
+    """(sum q, sum of output before clipping, after clipping) by segment for the samples
+    ``smp`` of one sub-chunk, the last two in units of AC rating / 0.9637, each (n_t, n_seg).
 
     The summed hours contribute ``p(z)`` through the factored sums; the hours of ``hrs``
     where some sample of the sub-chunk may start late, clip or fall below the start are
@@ -226,29 +260,44 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
     difference of the running sums at its ends), so a sample's result does not depend on
     the samples evaluated with it.
     """
-    h = _candidates(grp, hrs, a, g, u0, u1, beta, wind_h, keep)
+    a, g, u0, u1, beta = (smp[k] for k in ("a", "g", "u0", "u1", "beta"))
+    keep, rear = smp["keep"], smp["rear"] if grp.rear else None
+    h = _candidates(grp, hrs, smp, wind_h)
     gw = g / (u0 + u1 * wind_values[:, None])  # g w, (n_class, n_t)
     f1, f2 = _features(a, g, gw)
     # samples x segments in C order: a row's sums then run the same way for any n_t
     s1 = np.ascontiguousarray(sample_product(grp.k1t, f1).T)
+    s2 = np.ascontiguousarray(sample_product(grp.k2t, f2).T)
     ns = grp.n_seg
-    total_q, q1 = s1[:, :ns], s1[:, ns:]
-    q2 = np.ascontiguousarray(sample_product(grp.k2t, f2).T)
-    if keep is not None:  # q = keep x q of clean modules, keep constant in a segment
+    total_q, q1, q2 = s1[:, :ns], s1[:, ns:2 * ns], s2[:, :ns]
+    if keep is not None:  # the front part x the segment's soiling factor
         total_q, q1, q2 = total_q * keep, q1 * keep, q2 * (keep * keep)
+    if rear is not None:  # + c_R q_R: sum q gains c_R q_R, sum q^2 2 c_F c_R q_F q_R + c_R^2 q_R^2
+        c = rear[:, None]
+        cross = s2[:, ns:2 * ns] if keep is None else s2[:, ns:2 * ns] * keep
+        total_q = total_q + c * s1[:, 2 * ns:3 * ns]
+        q1 = q1 + c * s1[:, 3 * ns:]
+        q2 = q2 + c * (2.0 * cross + c * s2[:, 2 * ns:])
     poly = beta[:, None] * (_C1 * q1 - _C2 * beta[:, None] * q2) - _C0 * grp.n_base[None, :]
     after = poly
     before = poly.sum(axis=1)
     if h.size:  # hours x samples: z = beta q / 1000, p(z) and the corrections, in place
-        # z = beta / 1000 (ua + a ub + g ua T' + a g ub T') + beta / 1000 g w (v0 + a v1 + a^2 v2)
+        # z of a part: beta / 1000 (xa + a xb + g xa T' + a g xb T') + beta / 1000 g w (x0 +
+        # a x1 + a^2 x2), as two small products (per-hour coefficients x per-sample monomials)
         b = beta / 1000.0
         ab = a * b
-        u = sample_product(grp.zc1[h], np.stack([b, ab, g * b, g * ab]))
-        v = sample_product(grp.zc2[h], np.stack([b, ab, a * ab]))
-        v *= gw[grp.wind_class[h]]
-        u += v
-        if keep is not None:
-            u *= np.ascontiguousarray(keep.T)[grp.seg[h]]
+        m1, m2 = np.stack([b, ab, g * b, g * ab]), np.stack([b, ab, a * ab])
+        gw_h = gw[grp.wind_class[h]]
+        u = None
+        for i, (c1, c2) in enumerate(grp.zc):
+            scale = rear if i == 1 else None
+            zp = sample_product(c1[h], m1 if scale is None else m1 * scale)
+            v = sample_product(c2[h], m2 if scale is None else m2 * scale)
+            v *= gw_h
+            zp += v
+            if i == 0 and keep is not None:
+                zp *= np.ascontiguousarray(keep.T)[grp.seg[h]]
+            u = zp if u is None else u + zp
         p = u * -_C2
         p += _C1
         p *= u
@@ -256,17 +305,17 @@ def _sub_chunk(grp: _Group, a, g, u0, u1, beta, wind_values, wind_h, hrs: np.nda
         r = np.maximum(p, 0.0)
         np.minimum(r, ETA_INV_REF, out=r)
         np.subtract(r, p, out=r, where=grp.base[h][:, None])  # summed hours: the correction
-        np.subtract(p, ETA_INV_REF, out=v)
-        np.maximum(v, 0.0, out=v)  # clipped away
+        np.subtract(p, ETA_INV_REF, out=u)
+        np.maximum(u, 0.0, out=u)  # clipped away
         # running sums down the hours (accumulate is sequential by definition; numpy's
         # reductions may sum pairwise, whose grouping depends on how many hours there are)
         np.cumsum(r, axis=0, out=r)
-        np.cumsum(v, axis=0, out=v)
+        np.cumsum(u, axis=0, out=u)
         ends = np.append(np.searchsorted(h, grp.seg_starts), h.size)  # (n_seg + 1,)
         edges = np.zeros((ends.size, a.size))
         edges[ends > 0] = r[ends[ends > 0] - 1]
         after = poly + np.ascontiguousarray((edges[1:] - edges[:-1]).T)
-        before = after.sum(axis=1) + v[-1]
+        before = after.sum(axis=1) + u[-1]
     return total_q, before, after
 
 
@@ -309,33 +358,34 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
            "p_stc": col["plant.dc_capacity_kw"],
            "ac": col["plant.dc_capacity_kw"] / col["plant.dc_ac_ratio"],
            "beta": (1.0 - col["plant.dc_loss_fraction"]) * col["plant.inverter_efficiency"] *
-           col["plant.dc_ac_ratio"]}
-    rear_k = col["plant.bifaciality"] * (1.0 - col["plant.rear_loss_fraction"])
-    if "rear_n" not in st:
-        rear_k = np.zeros(n_s)
-    smp["keep"] = _segment_keep(soil, seg) if not np.any(rear_k) else None
-    if smp["keep"] is not None:  # soiling as a per-sample scale of each segment's light
-        soil = None  # the groups are clean modules
-    keys = [rear_k] + ([] if soil is None else [soil[1][:, 0], soil[2][:, 0]])
-    uniq, inverse = distinct_rows(np.stack(keys, axis=1))
+           col["plant.dc_ac_ratio"],
+           "rear": col["plant.bifaciality"] * (1.0 - col["plant.rear_loss_fraction"]),
+           "keep": _segment_keep(soil, seg)}
+    if smp["keep"] is not None:  # soiling as a per-sample factor of each segment's light
+        soiled, soil = True, None  # the groups are clean modules
+    else:
+        soiled = soil is not None
+    # groups: one per soiling level when the dirt changes hour by hour (Kimber)
+    keys = np.zeros((n_s, 1)) if soil is None else np.stack([soil[1][:, 0], soil[2][:, 0]], 1)
+    uniq, inverse = distinct_rows(keys)
     wind_values, wind_class = np.unique(wind, return_inverse=True)
     site = {"wind": wind, "wind_values": wind_values, "wind_class": wind_class.reshape(-1),
             "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}
     out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
            "clipped_kw": np.empty(n_s), "seg_clipped_kw": np.empty((n_s, n_seg)),
-           "soiled_w_m2": None if soil is None and smp["keep"] is None else np.empty(n_s)}
+           "soiled_w_m2": np.empty(n_s) if soiled else None}
     history = None if soil is None else hash(np.asarray(soil[0]).tobytes())
     with one_blas_thread():  # small products: threads cost more than they give
         for gi in range(uniq.shape[0]):
             key = tuple(float(x) for x in uniq[gi]) + (history,)
             if groups is None or key not in groups:
-                keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 1] * soil[0],
-                                                                  uniq[gi, 2])
-                grp = _Group(st, share, keep, key[0], site["t_prime"], site["wind_class"],
+                keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 0] * soil[0],
+                                                                  uniq[gi, 1])
+                grp = _Group(st, share, keep, site["t_prime"], site["wind_class"],
                              site["wind_values"].size, seg, n_seg)
                 grp.soiled = None if keep is None else (
                     (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
-                # front effective light by segment, for soiling as a scale per segment
+                # front effective light by segment, for soiling as a factor per segment
                 grp.seg_eff = tuple(np.add.reduceat(share @ st[k], grp.seg_starts)
                                     for k in ("eff_n", "eff_g"))
                 if groups is not None:
@@ -348,24 +398,25 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
 
 
 def _group_sums(out: dict, idx: np.ndarray, grp: _Group, smp: dict, site: dict) -> None:
-    """Fill ``out`` at the samples ``idx`` of one group (one soiling level and rear factor)."""
+    """Fill ``out`` at the samples ``idx`` of one group (one soiling history)."""
     keep = smp["keep"]
     if grp.soiled is not None:
         out["soiled_w_m2"][idx] = grp.soiled[0] + smp["a"][idx] * grp.soiled[1]
     elif keep is not None:
         light = grp.seg_eff[0][None, :] + smp["a"][idx, None] * grp.seg_eff[1][None, :]
         out["soiled_w_m2"][idx] = (keep[idx] * light).sum(axis=1)
+    names = ("a", "g", "u0", "u1", "beta", "rear", "keep")
+
+    def pick(rows):
+        return {k: None if smp[k] is None else smp[k][rows] for k in names}
+
     order = idx[np.argsort(smp["beta"][idx], kind="stable")]
     # hours that any sample of the group may need one by one: the sub-chunks' bounds look
     # only at these (a superset of each sub-chunk's own hours)
-    hrs = _candidates(grp, grp.lit, *(smp[k][idx] for k in ("a", "g", "u0", "u1", "beta")),
-                      site["wind"], None if keep is None else keep[idx])
+    hrs = _candidates(grp, grp.lit, pick(idx), site["wind"])
     for start in range(0, order.size, SUB_CHUNK):
         sub = order[start:start + SUB_CHUNK]
-        q, before, after = _sub_chunk(grp, *(smp[k][sub] for k in ("a", "g", "u0", "u1",
-                                                                   "beta")),
-                                      site["wind_values"], site["wind"], hrs,
-                                      None if keep is None else keep[sub])
+        q, before, after = _sub_chunk(grp, pick(sub), site["wind_values"], site["wind"], hrs)
         scale = smp["ac"][sub] / ETA_INV_REF
         out["pdc_kw"][sub] = smp["p_stc"][sub] * q.sum(axis=1)
         out["unclipped_kw"][sub] = scale * before
