@@ -424,6 +424,21 @@ def _run(*args) -> dict:
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
+def report_million() -> None:
+    """Print the Monte Carlo at :data:`MILLION_SIZES` trials side by side (time, peak memory)."""
+    small, big = (_run("million", str(n)) for n in MILLION_SIZES)
+    if small["head"] != big["head"]:
+        raise SystemExit("the first trials of the two Monte Carlo runs differ")
+    print(f"demo   Monte Carlo, {small['trials']:,} vs {big['trials']:,} trials (each in a fresh "
+          f"process; the first {small['trials']:,} trials identical): "
+          f"{small['seconds']:.1f} vs {big['seconds']:.1f} s (target < 60 s at 1,000,000)")
+    grow, more = big["peak_mb"] - small["peak_mb"], big["trials"] - small["trials"]
+    print(f"demo   peak memory {small['peak_mb']:.0f} vs {big['peak_mb']:.0f} MB (before the run "
+          f"{small['before_mb']:.0f} / {big['before_mb']:.0f} MB): {grow:+.0f} MB for {more:,} "
+          f"more trials = {2 ** 20 * grow / more:.0f} bytes per trial "
+          f"({big['peak_mb'] / small['peak_mb']:.2f}x; flat = 1.00x)")
+
+
 def main() -> None:
     args = [a for a in sys.argv[1:] if a != "--quick"]
     if args:
@@ -452,17 +467,7 @@ def main() -> None:
             line += (f" | vs its hourly method ({1e6 * s['hourly']['s_per_trial']:.1f} us) "
                      f"{s['hourly']['s_per_trial'] / eng:5.1f}x (target >= 10x)")
         print(line)
-    small, big = (_run("million", str(n)) for n in MILLION_SIZES)
-    if small["head"] != big["head"]:
-        raise SystemExit("the first trials of the two Monte Carlo runs differ")
-    print(f"demo   Monte Carlo, {small['trials']:,} vs {big['trials']:,} trials (each in a fresh "
-          f"process; the first {small['trials']:,} trials identical): "
-          f"{small['seconds']:.1f} vs {big['seconds']:.1f} s (target < 60 s at 1,000,000)")
-    grow, more = big["peak_mb"] - small["peak_mb"], big["trials"] - small["trials"]
-    print(f"demo   peak memory {small['peak_mb']:.0f} vs {big['peak_mb']:.0f} MB (before the run "
-          f"{small['before_mb']:.0f} / {big['before_mb']:.0f} MB): {grow:+.0f} MB for {more:,} "
-          f"more trials = {2 ** 20 * grow / more:.0f} bytes per trial "
-          f"({big['peak_mb'] / small['peak_mb']:.2f}x; flat = 1.00x)")
+    report_million()
     st = _run("study")
     print(f"demo   10,000 trials + Sobol N = 1,024 ({st['sobol_runs']} runs, {st['inputs']} "
           f"inputs) from a fresh process: {st['wall_s']:.1f} s wall (target < 5 s), "
