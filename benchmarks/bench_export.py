@@ -19,7 +19,9 @@ load average around each part):
    imports / compute / export (export/compute at 10,000 trials: target <= 1; the export
    includes its own imports, matplotlib and openpyxl, as it does in the command). Per-trial cost
    ``(T(20,000) - T(0)) / 20,000`` against the fair loop's (target: at most 1/10 of it), and
-   the marginal ``(T(20,000) - T(10,000)) / 10,000``. ``--samples 0`` is the command's own
+   the marginal ``(T(20,000) - T(10,000)) / 10,000``; and where it goes: the imports only a
+   run with a study does (timed apart in a fresh process), the compute and the export of the
+   split. ``--samples 0`` is the command's own
    deterministic run (no Monte Carlo, no trials file, no study pictures), so T(0) is an honest
    zero point: everything a study adds, fixed or not, is counted per trial.
 3. With ``--ref COMMIT`` the same runs of that commit (checked out into a temporary ``git
@@ -167,6 +169,41 @@ def _listing(tree: Path, sobol: int, tmp: Path, tag: str) -> str:
     return str(path)
 
 
+IMPORTS = r"""
+import importlib, json, sys, time
+before, after = (json.load(open(p)) for p in sys.argv[1:3])
+for name in before:
+    try:
+        importlib.import_module(name)
+    except Exception:
+        pass
+extra = [m for m in after if m not in sys.modules]
+t0, c0 = time.perf_counter(), time.process_time()
+for name in extra:
+    try:
+        importlib.import_module(name)
+    except Exception:
+        pass
+print(json.dumps({"wall": time.perf_counter() - t0, "cpu": time.process_time() - c0,
+                  "top": sorted({m.split(".")[0] + ("." + m.split(".")[1] if m.count(".") else "")
+                                 for m in extra if not m.startswith("lcoe")})[:6]}))
+"""
+
+
+def _study_imports(tree: Path, tmp: Path, study_listing: str, repeat: int) -> dict:
+    """Time of the imports a run with a study does and a deterministic run does not (the
+    modules imported by the start of the export, in a fresh process; median of ``repeat``)."""
+    split = _driver(tree, "0", 0, tmp / "list_det", "-")
+    det = tmp / "modules_det.json"
+    det.write_text(split["_stderr"].strip().splitlines()[-1])
+    runs = []
+    for _ in range(repeat):
+        r = subprocess.run([sys.executable, "-c", IMPORTS, str(det), study_listing],
+                           check=True, env=_env(tree), capture_output=True, text=True)
+        runs.append(json.loads(r.stdout.strip().splitlines()[-1]))
+    return {"wall": _median(runs, "wall"), "cpu": _median(runs, "cpu"), "top": runs[0]["top"]}
+
+
 def _read_trials(path: Path) -> dict:
     import numpy as np
 
@@ -269,6 +306,14 @@ def _commands(trees, tmp, repeat, trials, demo) -> None:
                   f"({1e6 * per['cpu']:.1f} us CPU) = 1/{fair['s_per_trial'] / per['wall']:.1f}"
                   f" of the fair loop's {1e6 * fair['s_per_trial']:.0f} us (target 1/10 = "
                   f"{1e6 * goal:.0f} us: {'met' if per['wall'] <= goal else 'missed'})")
+            imp = _study_imports(trees[t], tmp, listings[t], repeat)
+            parts = {k: (_median(split[t][top], k) - _median(split[t][0], k)) / top
+                     for k in ("compute", "export", "compute cpu", "export cpu")}
+            print(f"  of which: imports only a study needs {1e6 * imp['wall'] / top:.1f} us "
+                  f"({imp['wall']:.2f} s, {imp['cpu']:.2f} s CPU; {', '.join(imp['top'])}), "
+                  f"compute {1e6 * parts['compute']:.1f} us ({1e6 * parts['compute cpu']:.1f} "
+                  f"CPU), export {1e6 * parts['export']:.1f} us ({1e6 * parts['export cpu']:.1f}"
+                  f" CPU, its child's included)")
             mid = sorted(trials)[-2]
             if mid:
                 marg = (_median(cli[t][top], "wall") - _median(cli[t][mid], "wall")) / (top - mid)
