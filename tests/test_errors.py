@@ -82,12 +82,12 @@ def test_read_only_parent_folder_for_real(tmp_path, capsys):
 def test_plotting_library_failure_is_one_line_nothing_written(tmp_path, capsys, monkeypatch):
     import lcoe.export.plots as plots
 
-    def broken(result):
+    def broken(inputs):
         import matplotlib.pyplot as plt
 
         plt.figure(figsize=(-1.0, 2.0))  # matplotlib refuses: a real exception from inside it
 
-    monkeypatch.setattr(plots, "render_figures", broken)
+    monkeypatch.setattr(plots, "render_inputs", broken)
     out = tmp_path / "res"
     assert main(RUN + ["--out", str(out)]) == 2
     err = _one_line(capsys.readouterr().err)

@@ -16,7 +16,7 @@ from conftest import DEMO
 
 from lcoe.export import parallel
 from lcoe.export.parallel import beside, can_fork
-from lcoe.export.run_outputs import write_outputs
+from lcoe.export.run_outputs import picture_maker, write_outputs
 from lcoe.study.run import run_case
 
 needs_fork = pytest.mark.skipif(not can_fork(), reason="forks only on Linux without threads")
@@ -62,6 +62,57 @@ def test_forked_pictures_give_the_same_files(tmp_path, monkeypatch):
     for name in a:
         if name != "workbook.xlsx":  # the zip holds the time of writing
             assert a[name] == b[name], name
+
+
+@needs_fork
+def test_child_forked_before_the_computation_gives_the_same_files(tmp_path, monkeypatch):
+    # as lcoe run does: the child imports matplotlib while the case is computed, then draws
+    with picture_maker() as pictures:
+        assert pictures.forked
+        result = run_case(DEMO, samples=200, sobol_base=0)
+        write_outputs(result, tmp_path / "early", pictures=pictures)
+    monkeypatch.setattr(parallel, "can_fork", lambda: False)
+    write_outputs(result, tmp_path / "here")
+    a, b = _files(tmp_path / "early"), _files(tmp_path / "here")
+    assert set(a) == set(b)
+    for name in a:
+        if name != "workbook.xlsx":
+            assert a[name] == b[name], name
+    assert not _children_of_this_process()
+
+
+@needs_fork
+def test_arguments_reach_the_child_after_its_preload():
+    parent = os.getpid()
+    big = bytes(range(256)) * 4096  # 1 MB: more than a pipe holds
+    loaded = []
+    with beside(lambda data, k: (os.getpid(), len(data) * k, loaded),
+                preload=lambda: loaded.append(os.getpid())) as job:
+        job.submit(big, 3)
+        pid, size, seen = job.result()
+    assert pid != parent and size == 3 * len(big) and seen == [pid] and loaded == []
+
+
+@needs_fork
+@pytest.mark.parametrize("how", ["preload dies", "arguments cannot travel"])
+def test_child_lost_before_the_arguments_means_computed_here(how):
+    parent = os.getpid()
+
+    def preload():
+        if how == "preload dies":
+            os.kill(os.getpid(), signal.SIGKILL)
+
+    def compute(x):
+        return os.getpid(), x if isinstance(x, str) else x()
+
+    with beside(compute, preload=preload) as job:
+        assert job.forked
+        time.sleep(0.2)
+        # a broken pipe to a dead child, or a lambda (which cannot be pickled)
+        job.submit("here" * 100_000 if how == "preload dies" else lambda: "here")
+        pid, value = job.result()
+        assert pid == parent and value.startswith("here")
+    assert not _children_of_this_process()
 
 
 @needs_fork

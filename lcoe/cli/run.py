@@ -71,13 +71,15 @@ def format_table(result) -> str:
 def _cmd_run(args) -> int:
     progress = Progress(not args.quiet)
     phase(progress, "reading case")
-    from lcoe.export.run_outputs import write_outputs
+    from lcoe.export.run_outputs import picture_maker, write_outputs
     from lcoe.export.staging import publish
     from lcoe.study.run import read_case, run_case
 
     case = read_case(args.case)  # bad input is refused before the output folder is touched
     out = Path(args.out) if args.out else Path("outputs") / Path(args.case).stem
-    with publish(out, force=args.force, replace_own=args.replace_own) as stage:
+    # the pictures' child imports matplotlib while the case is computed (on a spare core)
+    with publish(out, force=args.force, replace_own=args.replace_own) as stage, \
+            picture_maker() as pictures:
         with collect_warnings() as caught:
             result = run_case(case, samples=args.samples, seed=args.seed,
                               sobol_base=args.sobol, sobol_output=args.sobol_output,
@@ -85,7 +87,8 @@ def _cmd_run(args) -> int:
                               workers=getattr(args, "workers", 1),
                               scheduler=getattr(args, "scheduler", None))
         result.notes.extend(caught)  # library warnings go into the run's notes, not the terminal
-        write_outputs(result, stage, progress=progress, hourly=args.hourly)
+        write_outputs(result, stage, progress=progress, hourly=args.hourly,
+                      pictures=pictures)
     progress.close()
     if not args.quiet:
         print(format_table(result))

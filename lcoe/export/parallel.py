@@ -51,17 +51,20 @@ def can_fork() -> bool:
 class Beside:
     """A value being computed beside this process (see :func:`beside`)."""
 
-    def __init__(self, compute: Callable[[], object]):
-        self._compute = compute
+    def __init__(self, compute: Callable[..., object], preload: Callable[[], None] | None = None):
+        self._compute, self._preload = compute, preload
+        self._args: tuple | None = None
         self._pid: int | None = None
-        self._fd: int | None = None
+        self._to_child: int | None = None
+        self._from_child: int | None = None
         self._frozen = False
         self.forked = False
 
     def _start(self) -> None:
         if not can_fork():
             return
-        read, write = os.pipe()
+        to_read, to_write = os.pipe()
+        from_read, from_write = os.pipe()
         parent = os.getpid()
         # the command's objects out of the collector's reach while both processes run: neither
         # collector touches (and so copies) the memory pages they still share after the fork
@@ -71,20 +74,39 @@ class Beside:
             pid = os.fork()
         except OSError:  # no memory or process slot for a child: compute here instead
             self.close()
-            os.close(read)
-            os.close(write)
+            for fd in (to_read, to_write, from_read, from_write):
+                os.close(fd)
             return
         if pid == 0:  # pragma: no cover - runs in the child (reported through the pipe)
-            _child(self._compute, read, write, parent)
-        os.close(write)
-        self._pid, self._fd, self.forked = pid, read, True
+            os.close(to_write)
+            os.close(from_read)
+            _child(self._compute, self._preload, to_read, from_write, parent)
+        os.close(to_read)
+        os.close(from_write)
+        self._pid, self._to_child, self._from_child = pid, to_write, from_read
+        self.forked = True
+
+    def submit(self, *args) -> None:
+        """Hand the arguments of ``compute`` to the child (pickled; kept for a fallback here)."""
+        self._args = args
+        if self._to_child is None:
+            return
+        fd, self._to_child = self._to_child, None
+        try:
+            data = pickle.dumps(args, protocol=pickle.HIGHEST_PROTOCOL)
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(data)
+        except (OSError, pickle.PicklingError, TypeError, AttributeError):
+            self.close()  # the child died or the arguments cannot travel: compute here
 
     def result(self):
-        """The value: the child's when it delivered one, else computed here and now."""
+        """``compute(*args)``: the child's value when it delivered one, else computed here."""
+        if self._args is None:
+            self.submit()
         if self._pid is not None:
             try:
-                with os.fdopen(self._fd, "rb") as fh:
-                    self._fd = None
+                with os.fdopen(self._from_child, "rb") as fh:
+                    self._from_child = None
                     data = fh.read()
                 _, status = os.waitpid(self._pid, 0)
                 self._pid = None
@@ -92,17 +114,19 @@ class Beside:
                 self.close()
             if status == 0 and data:
                 return pickle.loads(data)
-        return self._compute()
+        return self._compute(*self._args)
 
     def close(self) -> None:
-        """Kill and reap a child still running; close the pipe; let the collector see every
+        """Kill and reap a child still running; close the pipes; let the collector see every
         object again."""
         if self._frozen:
             gc.unfreeze()
             self._frozen = False
-        if self._fd is not None:
-            os.close(self._fd)
-            self._fd = None
+        for name in ("_to_child", "_from_child"):
+            fd = getattr(self, name)
+            if fd is not None:
+                setattr(self, name, None)
+                os.close(fd)
         if self._pid is not None:
             pid, self._pid = self._pid, None
             try:
@@ -112,19 +136,25 @@ class Beside:
             os.waitpid(pid, 0)
 
 
-def _child(compute, read: int, write: int, parent: int) -> None:  # pragma: no cover
-    """Body of the forked child: compute, send the pickled value, ``os._exit``."""
+def _child(compute, preload, read: int, write: int, parent: int) -> None:  # pragma: no cover
+    """Body of the forked child: preload, wait for the arguments, compute, send the pickled
+    value, ``os._exit``."""
     code = 1
     try:
-        os.close(read)
         for name in ("SIGINT", "SIGTERM"):
             signal.signal(getattr(signal, name), signal.SIG_DFL)
         _die_with(parent)
-        data = pickle.dumps(compute(), protocol=pickle.HIGHEST_PROTOCOL)
-        view = memoryview(data)
-        while view:
-            view = view[os.write(write, view):]
-        code = 0
+        if preload is not None:
+            preload()
+        with os.fdopen(read, "rb") as fh:
+            data = fh.read()
+        args = pickle.loads(data) if data else None
+        if args is not None:
+            data = pickle.dumps(compute(*args), protocol=pickle.HIGHEST_PROTOCOL)
+            view = memoryview(data)
+            while view:
+                view = view[os.write(write, view):]
+            code = 0
     except BaseException:  # noqa: BLE001 - the caller computes the value itself
         pass
     finally:
@@ -144,22 +174,28 @@ def _die_with(parent: int) -> None:  # pragma: no cover - runs in the child
 
 
 @contextmanager
-def beside(compute: Callable[[], object]) -> Iterator[Beside]:
-    """Start ``compute()`` in a forked child; ``.result()`` inside the block returns its value.
+def beside(compute: Callable[..., object],
+           preload: Callable[[], None] | None = None) -> Iterator[Beside]:
+    """Fork a child that will compute ``compute(*args)``; hand it ``args`` with ``.submit`` and
+    take the value with ``.result()`` inside the block.
 
     Parameters
     ----------
     compute : callable
-        Takes no argument and returns a picklable value; must not write files or change state
-        the caller relies on (it may run in a child process or, as a fallback, here).
+        Returns a picklable value from picklable arguments; must not write files or change
+        state the caller relies on (it runs in the child or, as a fallback, here).
+    preload : callable, optional
+        Run by the child at once, before the arguments come (e.g. imports): a child forked
+        early does it while the command computes.
 
     Yields
     ------
     Beside
+        ``.submit(*args)`` sends the arguments (``.result()`` without it calls ``compute()``);
         ``.result()`` waits for the child (or computes the value here when no child could run
         or the child failed). Leaving the block kills a child not waited for.
     """
-    job = Beside(compute)
+    job = Beside(compute, preload)
     job._start()
     try:
         yield job

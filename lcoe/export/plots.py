@@ -456,35 +456,73 @@ def render_figures(result) -> dict[str, bytes]:
     -------
     dict of str to bytes
     """
-    figs = build_figures(result)
+    return render_inputs(figure_inputs(result))
+
+
+def render_inputs(inputs: Mapping) -> dict[str, bytes]:
+    """PNG bytes by file name of the pictures described by :func:`figure_inputs`."""
+    figs = draw_figures(inputs)
     return {name: figure_png(figs[name]) for name in PICTURES if name in figs}
 
 
 def build_figures(result) -> dict:
     """Every picture the run supports, as matplotlib Figures by file name."""
+    return draw_figures(figure_inputs(result))
+
+
+def figure_inputs(result) -> dict:
+    """What the pictures of a run show, as plain data (numbers, strings, arrays, dicts).
+
+    Picklable and small next to the run (the LCOE of each trial is the largest part), so the
+    pictures can be drawn in another process (:mod:`lcoe.export.parallel`). Labels of inputs
+    are looked up here, once per shown row.
+    """
     cur = result.case["case.currency"]
     e = result.base.energy
-    figs = {}
+    out = {"currency": cur, "monthly_kwh": np.asarray(e.monthly_kwh[0], dtype=float),
+           "loss_chain_kwh": {k: float(v[0]) for k, v in e.loss_chain_kwh.items()}}
     unc = result.extras.get("uncertainty")
     if unc is not None:
-        figs["lcoe_distribution.png"] = fig_lcoe_distribution(
-            unc.trials.outputs["lcoe_real_per_kwh"], unc.stats["lcoe_real_per_kwh"], cur)
+        out["lcoe"] = (np.asarray(unc.trials.outputs["lcoe_real_per_kwh"], dtype=float),
+                       dict(unc.stats["lcoe_real_per_kwh"]))
     sens = result.extras.get("sensitivity")
     if sens is not None:
         unit = {"min_dscr": "-", "equity_irr": "1/year",
                 "breakeven_tariff_per_kwh": f"{cur}/kWh"}.get(sens.output) or (
             f"{cur}/kWh" if "lcoe" in sens.output else (cur if "npv" in sens.output
                                                          else "kWh"))
-        if sens.sobol is not None and sens.sobol.rows:
-            figs["sobol_indices.png"] = fig_sobol(sens.ranked(), sens.output,
-                                                  label=sens.label)
-        if sens.tornado:
-            figs["tornado.png"] = fig_tornado(sens.tornado, sens.output, unit,
-                                              label=sens.label)
-    figs["monthly_energy.png"] = fig_monthly_energy(e.monthly_kwh[0])
-    figs["loss_chain.png"] = fig_loss_chain({k: v[0] for k, v in e.loss_chain_kwh.items()})
-    fan = dscr_bands(result)
-    if fan is not None:
-        years, bands, lockup, det = fan
+        sobol = sens.ranked() if sens.sobol is not None and sens.sobol.rows else []
+        tornado = list(sens.tornado or [])
+        labels = {r["input"]: sens.label(r["input"]) for r in sobol + tornado}
+        out["sensitivity"] = {"output": sens.output, "unit": unit, "sobol": sobol,
+                              "tornado": tornado, "labels": labels}
+    out["dscr_fan"] = dscr_bands(result)
+    return out
+
+
+def draw_figures(inputs: Mapping) -> dict:
+    """The pictures described by :func:`figure_inputs`, as matplotlib Figures by file name."""
+    figs = {}
+    if "lcoe" in inputs:
+        values, stats = inputs["lcoe"]
+        figs["lcoe_distribution.png"] = fig_lcoe_distribution(values, stats, inputs["currency"])
+    sens = inputs.get("sensitivity")
+    if sens is not None:
+        label = sens["labels"].__getitem__
+        if sens["sobol"]:
+            figs["sobol_indices.png"] = fig_sobol(sens["sobol"], sens["output"], label=label)
+        if sens["tornado"]:
+            figs["tornado.png"] = fig_tornado(sens["tornado"], sens["output"], sens["unit"],
+                                              label=label)
+    figs["monthly_energy.png"] = fig_monthly_energy(inputs["monthly_kwh"])
+    figs["loss_chain.png"] = fig_loss_chain(inputs["loss_chain_kwh"])
+    if inputs.get("dscr_fan") is not None:
+        years, bands, lockup, det = inputs["dscr_fan"]
         figs["dscr_fan.png"] = fig_dscr_fan(years, bands, lockup=lockup, deterministic=det)
     return figs
+
+
+def preload() -> None:
+    """Import what drawing a picture needs (matplotlib's figure, Agg canvas, fonts)."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.figure  # noqa: F401
