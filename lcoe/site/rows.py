@@ -18,6 +18,11 @@ front irradiance equals ``pvlib.bifacial.infinite_sheds.get_irradiance_poa`` (ch
 tests); with Perez the circumsolar part of the sky is seen through the row's sky view instead
 of being shaded like the beam (a small approximation, noted in README).
 
+The infinite-sheds steps are :func:`sheds_side`: pvlib's own functions in pvlib's order, with
+the view-factor integrals (a function of the tilt alone) evaluated once per distinct tilt, not
+hour by hour; the numbers are pvlib's bit for bit (checked in the tests), about 8x faster for
+a fixed mount.
+
 Diffuse incidence-angle loss (Marion 2017, ``pvlib.iam.marion_diffuse``) is a factor per
 surface tilt for the sky and for the ground; it lives here too because it applies to both the
 front and the rear of a row.
@@ -115,7 +120,7 @@ def row_irradiance(surface_tilt_deg, surface_azimuth_deg, solar_zenith_deg, sola
        Performance Modeling in Large Arrays", 2019 IEEE 46th PVSC, pp. 1282-1287,
        doi:10.1109/PVSC40753.2019.8980572.
     """
-    from pvlib.bifacial import infinite_sheds, utils
+    from pvlib.bifacial import utils
     from pvlib.irradiance import aoi
 
     tilt = np.asarray(surface_tilt_deg, dtype=float)
@@ -128,14 +133,16 @@ def row_irradiance(surface_tilt_deg, surface_azimuth_deg, solar_zenith_deg, sola
     # (the same numbers bit for bit: checked in the tests); their shaded fraction is taken as
     # 0, as it multiplies no light.
     lit = np.flatnonzero((ghi > 0) | (dhi > 0) | (dni > 0))
-    out = infinite_sheds.get_irradiance(
-        tilt[lit], az[lit], zenith[lit], sun_az[lit], gcr, height_m, pitch_m, ghi[lit],
-        dhi[lit], dni[lit], albedo=1.0, model="isotropic", iam_front=1.0, iam_back=1.0,
-        bifaciality=1.0, shade_factor=0.0, transmission_factor=0.0)
-    keys = ("shaded_fraction_front", "poa_front_ground_diffuse", "poa_back_direct",
-            "poa_back_sky_diffuse", "poa_back_ground_diffuse")
-    clean = {k: np.zeros(tilt.shape) for k in keys}
-    for k in keys:
+    sun = (zenith[lit], sun_az[lit], ghi[lit], dhi[lit], dni[lit])
+    front = sheds_side(tilt[lit], az[lit], *sun, gcr, height_m, pitch_m)
+    back = sheds_side(180.0 - tilt[lit], (180.0 + az[lit]) % 360.0, *sun, gcr, height_m,
+                      pitch_m)  # the rear side, turned over as infinite sheds does
+    out = {"shaded_fraction_front": front["shaded_fraction"],
+           "poa_front_ground_diffuse": front["poa_ground_diffuse"],
+           "poa_back_direct": back["poa_direct"], "poa_back_sky_diffuse": back["poa_sky_diffuse"],
+           "poa_back_ground_diffuse": back["poa_ground_diffuse"]}
+    clean = {k: np.zeros(tilt.shape) for k in out}
+    for k in out:
         clean[k][lit] = np.nan_to_num(np.asarray(out[k], dtype=float), nan=0.0)
     open_sky = 0.5 * (1.0 + np.cos(np.radians(tilt)))
     vf_sky = np.asarray(utils.vf_row_sky_2d_integ(tilt, gcr, 0.0, 1.0), dtype=float)
@@ -151,6 +158,61 @@ def row_irradiance(surface_tilt_deg, surface_azimuth_deg, solar_zenith_deg, sola
         rear_direct_w_m2=clean["poa_back_direct"], rear_sky_w_m2=clean["poa_back_sky_diffuse"],
         rear_ground_per_albedo_w_m2=clean["poa_back_ground_diffuse"],
         rear_aoi_deg=np.minimum(rear_aoi, 90.0), rear_tilt_deg=rear_tilt)
+
+
+def sheds_side(tilt_deg, azimuth_deg, solar_zenith_deg, solar_azimuth_deg, ghi_w_m2, dhi_w_m2,
+               dni_w_m2, gcr: float, height_m: float, pitch_m: float) -> dict:
+    """One side of a row by infinite sheds at albedo 1, isotropic sky, no angle loss: the
+    numbers of ``pvlib.bifacial.infinite_sheds.get_irradiance_poa`` bit for bit.
+
+    Its steps in its order, with one change: the view-factor integrals, which depend on the
+    surface tilt alone, are evaluated once per distinct tilt (a fixed mount has one; pvlib
+    evaluates them hour by hour, about 80 % of its time) and spread over the hours. Equality
+    with pvlib is checked in the tests.
+
+    Parameters
+    ----------
+    tilt_deg, azimuth_deg : numpy.ndarray
+        Orientation of the side each hour [deg], (n_h,).
+    solar_zenith_deg, solar_azimuth_deg : numpy.ndarray
+        Apparent sun position [deg], (n_h,).
+    ghi_w_m2, dhi_w_m2, dni_w_m2 : numpy.ndarray
+        [W/m2], (n_h,).
+    gcr : float
+    height_m, pitch_m : float
+        [m].
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        ``shaded_fraction`` [-], ``poa_direct``, ``poa_sky_diffuse``, ``poa_ground_diffuse``
+        [W/m2], (n_h,).
+    """
+    from pvlib.bifacial import infinite_sheds, utils
+    from pvlib.irradiance import beam_component
+    from pvlib.tools import atand, tand
+
+    tilt = np.asarray(tilt_deg, dtype=float)
+    # Per distinct tilt; at least two values, so that numpy sums the rows of each integral in
+    # the same order as over the hours (one value alone would be summed pairwise).
+    distinct, at = np.unique(tilt, return_inverse=True)
+    table = np.concatenate((distinct, distinct[-1:])) if distinct.size == 1 else distinct
+    max_rows = np.ceil(height_m / (pitch_m * tand(5)))
+    vf_gnd_sky = utils.vf_ground_sky_2d_integ(table, gcr, height_m, pitch_m, g0=0, g1=1,
+                                              max_rows=max_rows)[at]
+    vf_row_sky = utils.vf_row_sky_2d_integ(table, gcr, x0=0.0, x1=1.0)[at]
+    vf_row_ground = utils.vf_row_ground_2d_integ(table, gcr, x0=0.0, x1=1.0, g0=0.0,
+                                                 g1=1.0)[at]
+    phi = atand(utils._solar_projection_tangent(solar_zenith_deg, solar_azimuth_deg,
+                                                azimuth_deg))
+    f_gnd_beam = utils._unshaded_ground_fraction(tilt, phi, gcr)
+    f_x = infinite_sheds._shaded_fraction(solar_zenith_deg, solar_azimuth_deg, tilt,
+                                          azimuth_deg, gcr)
+    ground = 1.0 * (f_gnd_beam * (ghi_w_m2 - dhi_w_m2) + vf_gnd_sky * dhi_w_m2)  # albedo 1
+    beam = np.atleast_1d(beam_component(tilt, azimuth_deg, solar_zenith_deg,
+                                        solar_azimuth_deg, dni_w_m2))
+    return {"shaded_fraction": f_x, "poa_direct": beam * (1 - f_x) * 1.0,
+            "poa_sky_diffuse": dhi_w_m2 * vf_row_sky, "poa_ground_diffuse": ground * vf_row_ground}
 
 
 def diffuse_iam(surface_tilt_deg, aoi_model: str = "physical") -> tuple[np.ndarray, np.ndarray]:
