@@ -241,3 +241,34 @@ def test_a_samples_result_does_not_depend_on_its_companions(fixture, request):
         np.testing.assert_array_equal(backwards[k][::-1], v, err_msg=k)
         for j, i in enumerate((0, 17, 39)):
             np.testing.assert_array_equal(single[j][k][0], v[i], err_msg=k)
+
+
+THERMAL = ("plant.thermal_u0", "plant.thermal_u1")
+
+
+@pytest.mark.parametrize("fixture", ["demo", "lender"])
+def test_fixed_thermal_coefficients_fold_w_into_the_series(fixture, request, monkeypatch):
+    # thermal coefficients not sampled: w = 1 / (U0 + U1 v) is one hourly series folded into
+    # the sums, so any number of distinct wind speeds stays summed; against the hourly method
+    # with a rear side and the soiling scale sampled too, and bit-identical among companions
+    import lcoe.plant.energy
+    import lcoe.plant.factored
+
+    case, site = request.getfixturevalue(fixture)
+    case = case.with_values({"plant.bifaciality": 0.65, "plant.thermal_u1": 4.5})
+    rng = np.random.default_rng(15)
+    params = _sample(rng, 300, [k for k in RANGES if k not in THERMAL])
+    params["plant.soiling.scale"] = rng.uniform(0.5, 2.0, 300)
+    params["plant.rear_loss_fraction"] = rng.uniform(0.0, 0.3, 300)
+    monkeypatch.setattr(lcoe.plant.energy, "MAX_WIND_SPEEDS", 3)  # more speeds than that
+    calls = []
+    real = lcoe.plant.factored.factored_sums
+    monkeypatch.setattr(lcoe.plant.factored, "factored_sums",
+                        lambda *a, **k: calls.append(k.get("thermal_fixed", a[-1])) or
+                        real(*a, **k))
+    _assert_same(case, site, params)
+    assert calls and all(c is True for c in calls)
+    alone = _outputs(evaluate(case, site, {k: v[:20] for k, v in params.items()}))
+    mixed = _outputs(evaluate(case, site, params))
+    for k, v in alone.items():
+        np.testing.assert_array_equal(mixed[k][:20], v, err_msg=k)

@@ -126,10 +126,12 @@ class _Group:
     """
 
     def __init__(self, st: dict, share: np.ndarray, keep, t_prime, wind_class,
-                 n_class: int, seg, n_seg: int):
+                 n_class: int, seg, n_seg: int, w_hour=None):
         A = st["eff_n"] if keep is None else st["eff_n"] * keep
         B = st["eff_g"] if keep is None else st["eff_g"] * keep
         N, G = st["shaded_n"], st["shaded_g"]
+        if w_hour is not None:  # thermal coefficients fixed: w folded into the heating light
+            N, G = N * w_hour, G * w_hour
         parts = [_part(share, A, B, N, G)]
         if "rear_n" in st:
             parts.append(_part(share, st["rear_n"], st["rear_g"], N, G))
@@ -320,7 +322,8 @@ def _sub_chunk(grp: _Group, smp: dict, wind_values, wind_h, hrs: np.ndarray):
 
 
 def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarray, cols: dict,
-                  soil, seg: np.ndarray, n_seg: int, groups: dict | None = None) -> dict:
+                  soil, seg: np.ndarray, n_seg: int, groups: dict | None = None,
+                  thermal_fixed: bool = False) -> dict:
     """Totals of the hourly chain for every sample, without an hourly array per sample.
 
     Parameters
@@ -341,6 +344,12 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     groups : dict, optional
         Cache of the groups' hourly series for these hours (kept by the caller per plane of
         array and weather).
+    thermal_fixed : bool
+        The caller's promise that ``plant.thermal_u0`` and ``plant.thermal_u1`` are the same
+        for every sample (they are not sampled): ``w`` is then one hourly series folded into
+        the groups' series, and the number of distinct wind speeds no longer matters. Decided
+        from the inputs, never from the samples of a chunk, so results do not depend on
+        chunking.
 
     Returns
     -------
@@ -368,21 +377,33 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     # groups: one per soiling level when the dirt changes hour by hour (Kimber)
     keys = np.zeros((n_s, 1)) if soil is None else np.stack([soil[1][:, 0], soil[2][:, 0]], 1)
     uniq, inverse = distinct_rows(keys)
-    wind_values, wind_class = np.unique(wind, return_inverse=True)
+    w_hour = None
+    if thermal_fixed:
+        u0, u1 = float(smp["u0"][0]), float(smp["u1"][0])
+        if np.any(smp["u0"] != u0) or np.any(smp["u1"] != u1):
+            raise ValueError("factored_sums: thermal_fixed, but the thermal coefficients vary")
+        w_hour = 1.0 / (u0 + u1 * wind)
+        # one wind class with w = 1 / (1 + 0 x 0): g w is g, the series carry w
+        smp["u0"], smp["u1"] = np.ones(n_s), np.zeros(n_s)
+        wind_values, wind_class = np.zeros(1), np.zeros(wind.size, dtype=np.intp)
+        history = ("w", u0, u1)
+    else:
+        wind_values, wind_class = np.unique(wind, return_inverse=True)
+        history = ()
     site = {"wind": wind, "wind_values": wind_values, "wind_class": wind_class.reshape(-1),
             "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}
     out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
            "clipped_kw": np.empty(n_s), "seg_clipped_kw": np.empty((n_s, n_seg)),
            "soiled_w_m2": np.empty(n_s) if soiled else None}
-    history = None if soil is None else hash(np.asarray(soil[0]).tobytes())
+    history += (None if soil is None else hash(np.asarray(soil[0]).tobytes()),)
     with one_blas_thread():  # small products: threads cost more than they give
         for gi in range(uniq.shape[0]):
-            key = tuple(float(x) for x in uniq[gi]) + (history,)
+            key = tuple(float(x) for x in uniq[gi]) + history
             if groups is None or key not in groups:
                 keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 0] * soil[0],
                                                                   uniq[gi, 1])
                 grp = _Group(st, share, keep, site["t_prime"], site["wind_class"],
-                             site["wind_values"].size, seg, n_seg)
+                             site["wind_values"].size, seg, n_seg, w_hour)
                 grp.soiled = None if keep is None else (
                     (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
                 # front effective light by segment, for soiling as a factor per segment
