@@ -354,18 +354,23 @@ class ComparisonProbes:
                 "lcoe_slope_per_capex": slope, "energy_scale_a": a, "energy_scale_b": b}
 
 
-def case_trials(out: dict) -> CaseTrials:
-    """A case's per-trial results from the study's outputs."""
-    long_term = out["physics_kwh"] * out["persistent_factor"]
-    return CaseTrials(lcoe_real=out["lcoe_real_per_kwh"],
-                      lcoe_nominal=out["lcoe_nominal_per_kwh"],
-                      energy_per_kw_kwh=long_term / out["dc_capacity_kw"],
-                      energy_per_cell_m2_kwh=long_term / out["cell_area_m2"],
-                      energy_per_land_m2_kwh=long_term / out["land_area_m2"],
-                      capex_per_kw=out["capex_per_kw"],
-                      lcoe_slope_per_capex=out["lcoe_slope_per_capex"],
-                      energy_scale_a=out["energy_scale_a"], energy_scale_b=out["energy_scale_b"],
-                      equity_npv=out.get("equity_npv_at_target"))
+def keep_case_trials(res: dict, task) -> dict:
+    """What a comparison keeps of a chunk (its runs' ``finish``): the fields of
+    :class:`CaseTrials`, computed where the chunk is evaluated; the sampled inputs and the
+    yearly energy factors are not kept (the value of information reads the design's uniforms).
+    """
+    long_term = res["physics_kwh"] * res["persistent_factor"]
+    kept = {"lcoe_real": res["lcoe_real_per_kwh"], "lcoe_nominal": res["lcoe_nominal_per_kwh"],
+            "energy_per_kw_kwh": long_term / res["dc_capacity_kw"],
+            "energy_per_cell_m2_kwh": long_term / res["cell_area_m2"],
+            "energy_per_land_m2_kwh": long_term / res["land_area_m2"],
+            "capex_per_kw": res["capex_per_kw"],
+            "lcoe_slope_per_capex": res["lcoe_slope_per_capex"],
+            "energy_scale_a": res["energy_scale_a"], "energy_scale_b": res["energy_scale_b"]}
+    if "equity_npv_at_target" in res:
+        kept["equity_npv"] = res["equity_npv_at_target"]
+    # a view would hold the whole array it was cut from
+    return {k: v.copy() if v.base is not None else v for k, v in kept.items()}
 
 
 def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: int = 1,
@@ -422,7 +427,8 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
         raise InputError(f"case.name = {dup!r} is used by two compared cases: expected distinct "
                          f"names (they label every output)")
     with_equity = bool(voi_bootstrap) and all("revenue" in c.sections for c in cases)
-    runs = study_runs(cases, shared, ComparisonProbes, equity=with_equity)
+    runs = [replace(r, finish=keep_case_trials)
+            for r in study_runs(cases, shared, ComparisonProbes, equity=with_equity)]
     design = build_design(runs, samples, seed, method, shared)
     _, sobol_seq = np.random.SeedSequence(seed).spawn(2)
     tick = (lambda d, t: progress("trials", d, t)) if progress else None
@@ -433,7 +439,7 @@ def run_comparison(cases: Sequence[Case], samples: int = DEFAULT_SAMPLES, seed: 
     outcomes = []
     for run, out in zip(runs, res.outputs):
         site = prepared(run.case)[0]
-        outcomes.append((run.case, site, evaluate(run.case, site), case_trials(out)))
+        outcomes.append((run.case, site, evaluate(run.case, site), CaseTrials(**out)))
     cases = [r.case for r in runs]
     sites = [o[1] for o in outcomes]
 
