@@ -195,9 +195,9 @@ for name in extra:
     except Exception:
         pass
 print(json.dumps({"wall": time.perf_counter() - t0, "cpu": time.process_time() - c0,
-                  "top": sorted({".".join(m.split(".")[:2]) for m in extra
-                                 if m.split(".")[0] in ("scipy", "SALib")
-                                 and not m.split(".")[-1].startswith("_")})[:6]}))
+                  "top": sorted({m if m.startswith("scipy.") else m.split(".")[0]
+                                 for m in extra if m.count(".") <= 1 and "._" not in m
+                                 and not m.startswith(("lcoe", "_"))})[:6]}))
 """
 
 
