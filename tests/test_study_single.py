@@ -72,6 +72,34 @@ def test_normal_method_matches_scipy_and_samples(tmp_path):
     assert ex.sampled["p90_10yr"] > ex.sampled["p90"]
 
 
+def test_inputs_drawn_again_are_those_the_trials_ran(unc_case):
+    # The study keeps no inputs: Trials.inputs draws them again from the design. Evaluating the
+    # model on them (with the energy factors drawn again) gives the kept outputs bit for bit.
+    from lcoe.model import evaluate
+    from lcoe.study.trials import split_inputs
+
+    case, site, spec = unc_case
+    t, _ = monte_carlo(case, site, spec, 300, seed=13, chunk_size=70)
+    a, b = 130, 190  # across a chunk's edge
+    params, persist = split_inputs(spec, t.inputs(a, b))
+    out = evaluate(case, site, params, weather_factors=t.energy_factors[a:b], guard=False)
+    np.testing.assert_array_equal(out.cashflow.lcoe_real, t.outputs["lcoe_real_per_kwh"][a:b])
+    np.testing.assert_array_equal(out.energy.annual_kwh, t.physics_kwh[a:b])
+    np.testing.assert_array_equal(persist, t.persistent_factor[a:b])
+    np.testing.assert_array_equal(t.inputs(a, b), t.X[a:b])
+
+
+def test_kept_energies_and_year_to_year_spread_equal_the_whole_arrays(unc_case):
+    # What the chunks keep equals numpy on the whole (n, N) arrays the study no longer holds.
+    case, site, spec = unc_case
+    t, _ = monte_carlo(case, site, spec, 257, seed=4, chunk_size=31)
+    yearly = t.energy_factors / t.persistent_factor[:, None]
+    base = t.physics_kwh * t.persistent_factor
+    np.testing.assert_array_equal(t.energy_1yr_kwh, base * yearly[:, 0])
+    np.testing.assert_array_equal(t.energy_10yr_kwh, base * yearly[:, :10].mean(axis=1))
+    assert t.yearly_cov == float(yearly.std(ddof=1))
+
+
 @pytest.mark.parametrize("entry,match", [
     ('"costs.capex_per_kw" = { dist = "gamma", k = 2 }', "dist"),
     ('"costs.capex_per_kw" = { dist = "uniform", low = 5, high = 1 }', "low"),
