@@ -225,7 +225,7 @@ def _geometry(case: Case, params: Mapping, i: int) -> Geometry:
 
 def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chunk_size: int,
                     keep_hourly: bool, method: str = "factored",
-                    thermal_fixed: bool = False) -> EnergyResult:
+                    varied: frozenset | None = None) -> EnergyResult:
     """Energy of the samples ``idx`` that share one geometry, with areas and body count."""
     geometry = _geometry(case, full, int(idx[0]))
     if geometry.rows:  # a sampled row height or width must still clear the ground
@@ -278,7 +278,7 @@ def _simulate_group(case: Case, site: Site, full: Mapping, idx: np.ndarray, chun
     energy = simulate(poa, site.weather, sub, case["plant.aoi_model"], chunk_size=chunk_size,
                       keep_hourly=keep_hourly, parasitic_kw=parasitic_kw,
                       parasitic_hours=site.sun.apparent_zenith_deg < 90.0, soiling=soiling,
-                      method=method, thermal_fixed=thermal_fixed)
+                      method=method, varied=varied)
     if rows is not None:
         energy = _take(energy, rows)
     return replace(energy, cell_area_m2=cell_area, land_area_m2=land, n_bodies=n_bodies)
@@ -362,8 +362,9 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     params = dict(params or {})
     if method == "factored" and SUMMED_PER_GROUP.intersection(params):
         method = "hourly"  # sampled: every sample its own group, nothing to share
-    # not sampled: one w per hour, folded into the sums (decided from the inputs given)
-    thermal_fixed = not {"plant.thermal_u0", "plant.thermal_u1"}.intersection(params)
+    # inputs not given are the same for every sample: the sums fold them in (decided from
+    # the inputs given, never from a chunk's values)
+    varied = frozenset(params)
     sizes = [np.asarray(v).size for v in params.values()]
     if weather_factors is not None:  # trials whose only uncertainty is the energy factors
         sizes.append(np.shape(weather_factors)[0])
@@ -382,7 +383,7 @@ def evaluate(case: Case, site: Site, params: Mapping | None = None,
     for g in range(uniq.shape[0]):
         idx = np.nonzero(inverse == g)[0]
         parts.append((idx, _simulate_group(case, site, full, idx, chunk_size, keep_hourly,
-                                           method, thermal_fixed)))
+                                           method, varied)))
     energy = parts[0][1] if len(parts) == 1 else _merge(parts, n_s)
     with np.errstate(all="ignore"):  # nonsense results are caught by the guards below
         cash = cash_flow(case, full, energy, weather_factors)

@@ -264,11 +264,24 @@ def test_fixed_thermal_coefficients_fold_w_into_the_series(fixture, request, mon
     calls = []
     real = lcoe.plant.factored.factored_sums
     monkeypatch.setattr(lcoe.plant.factored, "factored_sums",
-                        lambda *a, **k: calls.append(k.get("thermal_fixed", a[-1])) or
-                        real(*a, **k))
+                        lambda *a, **k: calls.append(a[-1]) or real(*a, **k))
     _assert_same(case, site, params)
-    assert calls and all(c is True for c in calls)
+    fixed = lcoe.plant.factored.is_fixed
+    assert calls and all(fixed(c, lcoe.plant.factored.THERMAL_PARAMS) for c in calls)
     alone = _outputs(evaluate(case, site, {k: v[:20] for k, v in params.items()}))
     mixed = _outputs(evaluate(case, site, params))
     for k, v in alone.items():
         np.testing.assert_array_equal(mixed[k][:20], v, err_msg=k)
+
+
+@pytest.mark.parametrize("bifaciality", [0.0, 0.7])
+def test_fixed_rear_factor_is_folded_in(demo, bifaciality):
+    # a rear factor that is not sampled is light of the front part (none at 0); with the
+    # monthly soiling scale sampled (dirt on the front only) it stays a part of its own
+    case, site = demo
+    case = case.with_values({"plant.bifaciality": bifaciality})
+    rng = np.random.default_rng(16)
+    params = _sample(rng, 200, RANGES)
+    _assert_same(case, site, params)
+    params["plant.soiling.scale"] = rng.uniform(0.5, 2.0, 200)
+    _assert_same(case, site, params)

@@ -371,7 +371,7 @@ def _hours(facets: FacetIrradiance | None, weather: Weather, run_hours, poa_hold
 def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict,
              aoi_model: str = "physical", chunk_size: int = 16, keep_hourly: bool = False,
              parasitic_kw=None, parasitic_hours=None, soiling=None,
-             method: str = "factored", thermal_fixed: bool = False) -> EnergyResult:
+             method: str = "factored", varied: frozenset | None = None) -> EnergyResult:
     """Hourly energy for every sample, reduced to totals.
 
     Parameters
@@ -413,10 +413,11 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
         adds the hourly arrays, the totals stay factored). ``"hourly"``: every sample and
         daylight hour evaluated directly, in chunks of ``chunk_size`` samples: the reference
         implementation the factored sums are tested against.
-    thermal_fixed : bool
-        The thermal coefficients are not sampled (same for every sample): the factored sums
-        then fold ``1 / (U0 + U1 v)`` into their hourly series, whatever the number of
-        distinct wind speeds (see :func:`lcoe.plant.factored.factored_sums`).
+    varied : frozenset of str, optional
+        Names of the inputs of ``params`` that may differ between samples (None: any). The
+        factored sums fold the others in (e.g. ``1 / (U0 + U1 v)`` into their hourly series
+        when the thermal coefficients are fixed, whatever the number of distinct wind
+        speeds; see :func:`lcoe.plant.factored.factored_sums`).
 
     Returns
     -------
@@ -468,15 +469,16 @@ def simulate(poa: PlaneOfArray | FacetIrradiance, weather: Weather, params: dict
     extra = {k: np.zeros((n_s, weather.n_hours)) for k in HOURLY_FIELDS} if keep_hourly else None
     # The factored sums keep one set of terms per distinct wind speed: a file with wind
     # speeds of many digits (measured, not a typical year) is summed hour by hour instead.
+    from lcoe.plant.factored import THERMAL_PARAMS, factored_sums, is_fixed
+
     factored = method == "factored" and not own_dc and (
-        thermal_fixed or prep["n_wind"] <= MAX_WIND_SPEEDS)
+        is_fixed(varied, THERMAL_PARAMS) or prep["n_wind"] <= MAX_WIND_SPEEDS)
     if factored:
-        from lcoe.plant.factored import factored_sums
 
         seg_of_hour = np.repeat(np.arange(n_seg), np.diff(np.append(starts, day.size)))
         raw.update(factored_sums(st, share, t_air, ws, cols, None if soil_hist is None else
                                  (soil_hist, soil_coef, soil_cap), seg_of_hour, n_seg,
-                                 prep["groups"], thermal_fixed))
+                                 prep["groups"], varied))
         raw["poa_w_m2"] = tot["shaded_n"] + cols["site.albedo"][:, 0] * tot["shaded_g"]
     # The hourly method; with keep_hourly also for the hourly arrays (totals stay factored).
     for start in range(0, 0 if factored and not keep_hourly else n_s, chunk_size):

@@ -52,6 +52,16 @@ PARAMS = frozenset({
     "plant.inverter_efficiency", "plant.ac_loss_fraction", "plant.availability",
     "plant.bifaciality", "plant.rear_loss_fraction"})
 
+#: Inputs that, when not sampled, :func:`factored_sums` folds into the hourly series.
+THERMAL_PARAMS = frozenset({"plant.thermal_u0", "plant.thermal_u1"})
+REAR_PARAMS = frozenset({"plant.bifaciality", "plant.rear_loss_fraction"})
+
+
+def is_fixed(varied: frozenset | None, names: frozenset) -> bool:
+    """True when none of ``names`` may differ between samples (``varied`` None: any may)."""
+    return varied is not None and not varied & names
+
+
 #: Part-load polynomial of the inverter (Dobos 2014) in z = P_dc / P_dc0, and its reference.
 _C1, _C2, _C0 = 0.9858, 0.0162, 0.0059
 ETA_INV_REF = 0.9637
@@ -126,14 +136,16 @@ class _Group:
     """
 
     def __init__(self, st: dict, share: np.ndarray, keep, t_prime, wind_class,
-                 n_class: int, seg, n_seg: int, w_hour=None):
+                 n_class: int, seg, n_seg: int, w_hour=None, rear_k: float | None = None):
         A = st["eff_n"] if keep is None else st["eff_n"] * keep
         B = st["eff_g"] if keep is None else st["eff_g"] * keep
         N, G = st["shaded_n"], st["shaded_g"]
         if w_hour is not None:  # thermal coefficients fixed: w folded into the heating light
             N, G = N * w_hour, G * w_hour
+        if "rear_n" in st and rear_k:  # a fixed rear factor: light of the front part
+            A, B = A + rear_k * st["rear_n"], B + rear_k * st["rear_g"]
         parts = [_part(share, A, B, N, G)]
-        if "rear_n" in st:
+        if "rear_n" in st and rear_k is None:  # sampled: a part of its own
             parts.append(_part(share, st["rear_n"], st["rear_g"], N, G))
         self.rear = len(parts) == 2
         tp = t_prime
@@ -323,7 +335,7 @@ def _sub_chunk(grp: _Group, smp: dict, wind_values, wind_h, hrs: np.ndarray):
 
 def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarray, cols: dict,
                   soil, seg: np.ndarray, n_seg: int, groups: dict | None = None,
-                  thermal_fixed: bool = False) -> dict:
+                  varied: frozenset | None = None) -> dict:
     """Totals of the hourly chain for every sample, without an hourly array per sample.
 
     Parameters
@@ -344,12 +356,12 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     groups : dict, optional
         Cache of the groups' hourly series for these hours (kept by the caller per plane of
         array and weather).
-    thermal_fixed : bool
-        The caller's promise that ``plant.thermal_u0`` and ``plant.thermal_u1`` are the same
-        for every sample (they are not sampled): ``w`` is then one hourly series folded into
-        the groups' series, and the number of distinct wind speeds no longer matters. Decided
+    varied : frozenset of str, optional
+        The caller's word on which inputs may differ between samples (None: any), decided
         from the inputs, never from the samples of a chunk, so results do not depend on
-        chunking.
+        chunking. Fixed thermal coefficients put ``w`` as one hourly series into the groups'
+        series (the number of distinct wind speeds no longer matters); a fixed rear factor
+        is folded into the front part (none when it is 0).
 
     Returns
     -------
@@ -377,11 +389,16 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     # groups: one per soiling level when the dirt changes hour by hour (Kimber)
     keys = np.zeros((n_s, 1)) if soil is None else np.stack([soil[1][:, 0], soil[2][:, 0]], 1)
     uniq, inverse = distinct_rows(keys)
-    w_hour = None
-    if thermal_fixed:
+    w_hour, rear_k = None, None
+    for names, keys in ((THERMAL_PARAMS, ("u0", "u1")), (REAR_PARAMS, ("rear",))):
+        if is_fixed(varied, names) and any(np.any(smp[k] != smp[k][0]) for k in keys):
+            raise ValueError(f"factored_sums: {sorted(names)} given as fixed, but they vary")
+    if is_fixed(varied, REAR_PARAMS):
+        rear_k = float(smp["rear"][0])
+        if rear_k and smp["keep"] is not None:  # the dirt scales the front part only
+            rear_k = None
+    if is_fixed(varied, THERMAL_PARAMS):
         u0, u1 = float(smp["u0"][0]), float(smp["u1"][0])
-        if np.any(smp["u0"] != u0) or np.any(smp["u1"] != u1):
-            raise ValueError("factored_sums: thermal_fixed, but the thermal coefficients vary")
         w_hour = 1.0 / (u0 + u1 * wind)
         # one wind class with w = 1 / (1 + 0 x 0): g w is g, the series carry w
         smp["u0"], smp["u1"] = np.ones(n_s), np.zeros(n_s)
@@ -390,6 +407,7 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
     else:
         wind_values, wind_class = np.unique(wind, return_inverse=True)
         history = ()
+    history += (rear_k,)
     site = {"wind": wind, "wind_values": wind_values, "wind_class": wind_class.reshape(-1),
             "t_prime": t_air - 25.0, "seg": seg, "n_seg": n_seg}
     out = {"pdc_kw": np.empty(n_s), "unclipped_kw": np.empty(n_s),
@@ -403,7 +421,7 @@ def factored_sums(st: dict, share: np.ndarray, t_air: np.ndarray, wind: np.ndarr
                 keep = None if soil is None else 1.0 - np.minimum(uniq[gi, 0] * soil[0],
                                                                   uniq[gi, 1])
                 grp = _Group(st, share, keep, site["t_prime"], site["wind_class"],
-                             site["wind_values"].size, seg, n_seg, w_hour)
+                             site["wind_values"].size, seg, n_seg, w_hour, rear_k)
                 grp.soiled = None if keep is None else (
                     (share @ (st["eff_n"] * keep)).sum(), (share @ (st["eff_g"] * keep)).sum())
                 # front effective light by segment, for soiling as a factor per segment
