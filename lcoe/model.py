@@ -301,8 +301,11 @@ def _soiling(case: Case, site: Site, full: Mapping, idx: np.ndarray):
     if model == "monthly":
         from lcoe.plant.soiling import monthly_history
 
-        hist = monthly_history(case.soiling_monthly, site.weather.data.index.month)
-        return hist, full["plant.soiling.scale"][idx], np.ones(idx.size)
+        key = ("monthly soiling",) + tuple(float(x) for x in case.soiling_monthly)
+        if key not in site._poa_cache:  # per site and profile (pandas' month index: ~1 ms)
+            site._poa_cache[key] = monthly_history(case.soiling_monthly,
+                                                   site.weather.data.index.month)
+        return site._poa_cache[key], full["plant.soiling.scale"][idx], np.ones(idx.size)
     i = int(idx[0])  # the samples of a group share the dirt history (grouped like geometry)
     key = ("kimber",) + tuple(float(full[p][i]) for p in KIMBER_HISTORY_PATHS)
     if key not in site._poa_cache:
