@@ -116,6 +116,42 @@ def test_child_lost_before_the_arguments_means_computed_here(how):
 
 
 @needs_fork
+def test_a_process_forked_meanwhile_does_not_hold_the_child_up():
+    # it inherits the pipes' ends; the messages carry their length, so neither side waits for
+    # every copy of an end to close
+    with beside(lambda x: (os.getpid(), x)) as job:
+        other = os.fork()
+        if other == 0:  # pragma: no cover - a process that lives on
+            time.sleep(5)
+            os._exit(0)
+        try:
+            t0 = time.perf_counter()
+            job.submit("x")
+            pid, x = job.result()
+            assert pid not in (os.getpid(), other) and x == "x"
+            assert time.perf_counter() - t0 < 4
+        finally:
+            os.kill(other, signal.SIGKILL)
+            os.waitpid(other, 0)
+
+
+@needs_fork
+def test_a_silent_child_is_killed_and_the_value_computed_here(monkeypatch):
+    monkeypatch.setattr(parallel, "WAIT_S", 0.5)
+    parent = os.getpid()
+
+    def compute():
+        if os.getpid() != parent:
+            time.sleep(60)
+        return "here"
+
+    with beside(compute) as job:
+        assert job.forked
+        assert job.result() == "here"
+    assert not _children_of_this_process()
+
+
+@needs_fork
 def test_value_comes_from_the_child():
     import gc
 

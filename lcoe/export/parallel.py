@@ -34,12 +34,18 @@ import gc
 import os
 import pickle
 import signal
+import struct
 import sys
 import threading
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 
 _PR_SET_PDEATHSIG = 1
+#: Length header of a message through a pipe.
+_HEAD = struct.Struct("<Q")
+#: Longest wait [s] for the child's value once it is asked for (its pictures take about 1 s):
+#: a child silent for longer is killed and the value is computed in the command.
+WAIT_S = 120.0
 
 
 def can_fork() -> bool:
@@ -93,11 +99,11 @@ class Beside:
             return
         fd, self._to_child = self._to_child, None
         try:
-            data = pickle.dumps(args, protocol=pickle.HIGHEST_PROTOCOL)
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(data)
+            _send(fd, pickle.dumps(args, protocol=pickle.HIGHEST_PROTOCOL))
         except (OSError, pickle.PicklingError, TypeError, AttributeError):
             self.close()  # the child died or the arguments cannot travel: compute here
+        finally:
+            os.close(fd)
 
     def result(self):
         """``compute(*args)``: the child's value when it delivered one, else computed here."""
@@ -105,14 +111,13 @@ class Beside:
             self.submit()
         if self._pid is not None:
             try:
-                with os.fdopen(self._from_child, "rb") as fh:
-                    self._from_child = None
-                    data = fh.read()
-                _, status = os.waitpid(self._pid, 0)
-                self._pid = None
+                data = _receive(self._from_child, WAIT_S)
+                if data is not None:
+                    _, status = os.waitpid(self._pid, 0)
+                    self._pid = None
             finally:
-                self.close()
-            if status == 0 and data:
+                self.close()  # a child that sent nothing in time is killed here
+            if data is not None and status == 0:
                 return pickle.loads(data)
         return self._compute(*self._args)
 
@@ -146,19 +151,46 @@ def _child(compute, preload, read: int, write: int, parent: int) -> None:  # pra
         _die_with(parent)
         if preload is not None:
             preload()
-        with os.fdopen(read, "rb") as fh:
-            data = fh.read()
-        args = pickle.loads(data) if data else None
-        if args is not None:
-            data = pickle.dumps(compute(*args), protocol=pickle.HIGHEST_PROTOCOL)
-            view = memoryview(data)
-            while view:
-                view = view[os.write(write, view):]
+        data = _receive(read)
+        if data is not None:
+            _send(write, pickle.dumps(compute(*pickle.loads(data)),
+                                      protocol=pickle.HIGHEST_PROTOCOL))
             code = 0
     except BaseException:  # noqa: BLE001 - the caller computes the value itself
         pass
     finally:
         os._exit(code)
+
+
+def _send(fd: int, data: bytes) -> None:
+    """Write one message: its length (8 bytes), then the bytes."""
+    view = memoryview(_HEAD.pack(len(data)) + data)
+    while view:
+        view = view[os.write(fd, view):]
+
+
+def _receive(fd: int, timeout: float | None = None) -> bytes | None:
+    """Read one message of :func:`_send`; None when the pipe ends first or nothing arrives for
+    ``timeout`` seconds.
+
+    The length comes first, so the end of the message does not depend on every copy of the
+    pipe's other end being closed (a process forked meanwhile may hold one).
+    """
+    import select
+
+    chunks, want, size = [], _HEAD.size, None
+    while want:
+        if timeout is not None and not select.select([fd], [], [], timeout)[0]:
+            return None
+        chunk = os.read(fd, min(want, 1 << 20))
+        if not chunk:
+            return None
+        chunks.append(chunk)
+        want -= len(chunk)
+        if not want and size is None:
+            size = _HEAD.unpack(b"".join(chunks))[0]
+            chunks, want = [], size
+    return b"".join(chunks)
 
 
 def _die_with(parent: int) -> None:  # pragma: no cover - runs in the child
