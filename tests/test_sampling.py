@@ -44,6 +44,21 @@ def dists():
     return [parse_distribution(n, s, SOURCE) for n, s in zip(NAMES, SPECS)]
 
 
+@pytest.mark.parametrize("n, d, seed", [(1, 1, 1), (7, 3, 2), (1000, 13, 3), (2048, 2, 4)])
+def test_latin_hypercube_is_scipys(n, d, seed):
+    # cross-implementation: scipy.stats.qmc.LatinHypercube (scrambled), seeded as ours is
+    import inspect
+
+    from scipy.stats import qmc
+
+    from lcoe.uncertainty.sampling import U_MAX, U_MIN, seed_from
+
+    key = "rng" if "rng" in inspect.signature(qmc.LatinHypercube).parameters else "seed"
+    ref = qmc.LatinHypercube(d=d, **{key: np.random.default_rng(seed_from(make_rng(seed)))})
+    np.testing.assert_array_equal(latin_hypercube(n, d, make_rng(seed)),
+                                  np.clip(ref.random(n), U_MIN, U_MAX))
+
+
 def test_latin_hypercube_one_point_per_stratum():
     # analytic property of LHS (McKay et al. 1979): each column hits each of n strata once
     n, d = 500, 4

@@ -23,10 +23,6 @@ from dataclasses import dataclass, field
 from importlib.metadata import version
 
 import numpy as np
-from SALib.analyze import morris as morris_analyze
-from SALib.analyze import sobol as sobol_analyze_salib
-from SALib.sample import morris as morris_sample
-from SALib.sample import sobol as sobol_sample_salib
 
 from lcoe.uncertainty.distributions import Distribution
 from lcoe.uncertainty.sampling import (
@@ -175,6 +171,8 @@ def sobol_sample(
             "Rank correlations are not applied in the Sobol design: Sobol indices assume "
             "independent inputs; group correlated inputs to read their joint effect."
         )
+    from SALib.sample import sobol as sobol_sample_salib  # SALib imports scipy.stats: ~0.3 s
+
     u = sobol_sample_salib.sample(
         problem, n, calc_second_order=False, scramble=True, seed=seed_from(rng)
     )
@@ -191,6 +189,8 @@ NOISE_FLOOR = 1e-9
 def _sobol_rows(problem, y, n, num_resamples, conf_level, seed) -> list[dict]:
     """Run SALib's estimator on the first ``n`` base blocks of ``y`` and build rows."""
     factors = _factors(problem)
+    from SALib.analyze import sobol as sobol_analyze_salib
+
     si = sobol_analyze_salib.analyze(
         problem,
         y[: n * (len(factors) + 2)],
@@ -463,6 +463,9 @@ def morris_screen(
     if check_count("num_levels", num_levels, 2) % 2:
         raise ValueError(f"num_levels = {num_levels!r}: expected an even integer >= 2")
     problem = sobol_problem(dists)
+    from SALib.analyze import morris as morris_analyze
+    from SALib.sample import morris as morris_sample
+
     grid = morris_sample.sample(
         problem, int(n_trajectories), num_levels=int(num_levels), seed=seed_from(rng)
     )
