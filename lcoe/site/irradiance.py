@@ -243,6 +243,100 @@ def as_facets(poa: PlaneOfArray, aoi_model: str = "physical", rows=None,
         area_fraction=np.ones(1), **extra)
 
 
+#: The air-independent solar-position terms of the last times and place (one entry): the
+#: synthesis of a year from monthly values and the site's solar position then share them.
+_SPA_LAST: dict = {}
+
+
+def spa_sun(times: pd.DatetimeIndex, latitude_deg: float, longitude_deg: float,
+            altitude_m: float, temperature_c) -> dict:
+    """Solar position by SPA: ``pvlib.solarposition.get_solarposition`` (its ``nrel_numpy``
+    method, pressure from the altitude) bit for bit, in pvlib's steps.
+
+    Only the refraction depends on the air temperature; the other terms (nutation, the sun's
+    coordinates, parallax: nearly all of the time) are kept for the last ``times`` and place,
+    so the two evaluations of a site from monthly values (the synthesis at the standard 12 C,
+    the site at its hourly temperature) compute them once.
+
+    Parameters
+    ----------
+    times : pandas.DatetimeIndex
+        Instants (time-zone aware), (n,).
+    latitude_deg, longitude_deg : float
+        [deg].
+    altitude_m : float
+        [m]; sets the standard pressure.
+    temperature_c : float or numpy.ndarray
+        Air temperature for refraction [C], scalar or (n,).
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        ``apparent_zenith``, ``zenith``, ``azimuth`` [deg], (n,).
+
+    References
+    ----------
+    .. [1] I. Reda and A. Andreas, "Solar position algorithm for solar radiation applications",
+       NREL/TP-560-34302, 2004.
+    """
+    import pvlib
+    from pvlib import spa
+    from pvlib.solarposition import _datetime_to_unixtime
+
+    unixtime = np.asarray(_datetime_to_unixtime(times))
+    key = (unixtime.tobytes(), float(latitude_deg), float(longitude_deg), float(altitude_m))
+    if _SPA_LAST.get("key") != key:
+        _SPA_LAST.clear()
+        _SPA_LAST.update(key=key, terms=_spa_air_free(unixtime, latitude_deg, longitude_deg,
+                                                      altitude_m))
+    e0, phi = _SPA_LAST["terms"]
+    pressure_mbar = pvlib.atmosphere.alt2pres(altitude_m) / 100  # as spa_python converts it
+    delta_e = spa.atmospheric_refraction_correction(pressure_mbar, temperature_c, e0, 0.5667)
+    e = spa.topocentric_elevation_angle(e0, delta_e)
+    return {"apparent_zenith": spa.topocentric_zenith_angle(e),
+            "zenith": spa.topocentric_zenith_angle(e0), "azimuth": phi}
+
+
+def _spa_air_free(unixtime, lat, lon, elev, delta_t: float = 67.0):
+    """Topocentric elevation without refraction and azimuth [deg]: the steps of
+    ``pvlib.spa.solar_position_numpy`` before the refraction (its default delta_t)."""
+    from pvlib import spa
+
+    jd = spa.julian_day(unixtime)
+    jde = spa.julian_ephemeris_day(jd, delta_t)
+    jc = spa.julian_century(jd)
+    jce = spa.julian_ephemeris_century(jde)
+    jme = spa.julian_ephemeris_millennium(jce)
+    R = spa.heliocentric_radius_vector(jme)
+    Theta = spa.geocentric_longitude(spa.heliocentric_longitude(jme))
+    beta = spa.geocentric_latitude(spa.heliocentric_latitude(jme))
+    # the five fundamental arguments of the nutation (Reda & Andreas 2004, section 3.4)
+    xs = [f(jce) for f in (spa.mean_elongation, spa.mean_anomaly_sun, spa.mean_anomaly_moon,
+                           spa.moon_argument_latitude, spa.moon_ascending_longitude)]
+    l_o_nutation = np.empty((2, len(xs[0])))
+    spa.longitude_obliquity_nutation(jce, *xs, l_o_nutation)
+    delta_psi, delta_epsilon = l_o_nutation[0], l_o_nutation[1]
+    epsilon0 = spa.mean_ecliptic_obliquity(jme)
+    epsilon = spa.true_ecliptic_obliquity(epsilon0, delta_epsilon)
+    delta_tau = spa.aberration_correction(R)
+    lamd = spa.apparent_sun_longitude(Theta, delta_psi, delta_tau)
+    v0 = spa.mean_sidereal_time(jd, jc)
+    v = spa.apparent_sidereal_time(v0, delta_psi, epsilon)
+    alpha = spa.geocentric_sun_right_ascension(lamd, epsilon, beta)
+    delta = spa.geocentric_sun_declination(lamd, epsilon, beta)
+    H = spa.local_hour_angle(v, lon, alpha)
+    xi = spa.equatorial_horizontal_parallax(R)
+    u = spa.uterm(lat)
+    x = spa.xterm(u, lat, elev)
+    y = spa.yterm(u, lat, elev)
+    delta_alpha = spa.parallax_sun_right_ascension(x, xi, H, delta)
+    delta_prime = spa.topocentric_sun_declination(delta, x, y, xi, delta_alpha, H)
+    H_prime = spa.topocentric_local_hour_angle(H, delta_alpha)
+    e0 = spa.topocentric_elevation_angle_without_atmosphere(lat, delta_prime, H_prime)
+    gamma = spa.topocentric_astronomers_azimuth(H_prime, delta_prime, lat)
+    return e0, spa.topocentric_azimuth_angle(gamma)
+
+
 def solar_position(weather: Weather, latitude_deg: float, longitude_deg: float,
                    altitude_m: float) -> SolarPosition:
     """Solar position by SPA (Reda & Andreas 2004) at the centre of each hour.
@@ -269,7 +363,8 @@ def solar_position(weather: Weather, latitude_deg: float, longitude_deg: float,
 
     loc = pvlib.location.Location(latitude_deg, longitude_deg, altitude=altitude_m)
     times = weather.mid_times
-    sp = loc.get_solarposition(times, temperature=weather.data["temp_air"].to_numpy())
+    sp = pd.DataFrame(spa_sun(times, latitude_deg, longitude_deg, altitude_m,
+                              weather.data["temp_air"].to_numpy()), index=times)
     am = loc.get_airmass(solar_position=sp)
     dni_extra = pvlib.irradiance.get_extra_radiation(times)
     return SolarPosition(

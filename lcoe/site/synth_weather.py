@@ -49,6 +49,7 @@ from lcoe.case.monthly import (
     validate_monthly,
 )
 from lcoe.case.rng import make_rng
+from lcoe.site.irradiance import spa_sun
 from lcoe.site.synth_clearness import (
     ar1_uniforms,
     match_month,
@@ -422,9 +423,9 @@ def synthesize_year(
 
     # --- solar geometry and clear sky at mid-interval
     pressure = pvlib.atmosphere.alt2pres(alt)
-    sp = pvlib.solarposition.get_solarposition(mid, lat, lon, altitude=alt, pressure=pressure)
-    zenith = sp["zenith"].to_numpy()
-    app_zenith = sp["apparent_zenith"].to_numpy()
+    sp = spa_sun(mid, lat, lon, alt, 12.0)  # pvlib's standard air; the site's sun shares it
+    zenith = sp["zenith"]
+    app_zenith = sp["apparent_zenith"]
     doy_utc = mid.tz_convert("UTC").day_of_year.to_numpy()
     dni_extra = np.asarray(pvlib.irradiance.get_extra_radiation(doy_utc), dtype=float)
     cos_z = np.cos(np.radians(zenith))
