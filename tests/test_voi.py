@@ -38,6 +38,20 @@ def test_spline_basis_matches_scipy():
     np.testing.assert_allclose(mine, ref, atol=1e-12)
 
 
+def test_rank_transform_is_scipys_average_ranks():
+    # cross-implementation: scipy.stats.rankdata(method="average"), with many ties
+    from scipy.stats import rankdata
+
+    from lcoe.uncertainty.voi import rank_transform
+
+    rng = np.random.default_rng(3)
+    x = np.column_stack([rng.integers(0, 7, 500), rng.normal(size=500),
+                         np.repeat([2.0, 1.0], 250)])
+    ref = (rankdata(x, axis=0, method="average") - 0.5) / 500
+    np.testing.assert_array_equal(rank_transform(x), ref)
+    np.testing.assert_array_equal(rank_transform(x[:, 1]), ref[:, 1:2])
+
+
 @pytest.mark.parametrize("m, s", [(0.0, 1.0), (0.7, 2.0), (-3.0, 1.5), (5.0, 0.5)])
 def test_normal_evpi_is_the_unit_normal_loss(m, s):
     # Analytic: for INB ~ N(m, s), EVPI = E[max(0, INB)] - max(0, m) (Raiffa & Schlaifer

@@ -48,7 +48,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import norm, rankdata
+from scipy.special import ndtr
 
 from lcoe.case.rng import make_rng
 from lcoe.case.threads import one_blas_thread as _one_blas_thread
@@ -198,7 +198,9 @@ def normal_evpi(mean, sd):
     """
     m, s = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
-        out = np.where(s > 0, s * norm.pdf(m / s) - np.abs(m) * norm.cdf(-np.abs(m) / s), 0.0)
+        z = m / s  # normal density and cdf as scipy.stats.norm writes them
+        out = np.where(s > 0, s * (np.exp(-z ** 2 / 2.0) / np.sqrt(2.0 * np.pi)) -
+                       np.abs(m) * ndtr(-np.abs(m) / s), 0.0)
     return out[()] if out.ndim == 0 else out
 
 
@@ -218,7 +220,16 @@ def rank_transform(x) -> np.ndarray:
     """
     x = np.asarray(x, dtype=float)
     x = x[:, None] if x.ndim == 1 else x
-    return (rankdata(x, axis=0, method="average") - 0.5) / x.shape[0]
+    n = x.shape[0]
+    ranks = np.empty(x.shape)
+    for j in range(x.shape[1]):  # average ranks, as scipy.stats.rankdata(method="average")
+        order = np.argsort(x[:, j], kind="mergesort")
+        v = x[order, j]
+        first = np.concatenate(([True], v[1:] != v[:-1]))
+        dense = np.cumsum(first)
+        bounds = np.concatenate((np.nonzero(first)[0], [n]))
+        ranks[order, j] = 0.5 * (bounds[dense] + bounds[dense - 1] + 1)
+    return (ranks - 0.5) / n
 
 
 def spline_basis(u: np.ndarray, n_segments: int = N_SEGMENTS
