@@ -245,9 +245,10 @@ class Distribution:
         -------
         numpy.ndarray
             Values [unit of the input], same shape as ``u``. Truncated distributions map ``u``
-            into [F(low), F(high)] of the untruncated one (done exactly by
-            ``scipy.stats.truncnorm``, in log space for lognormal). Discrete: the smallest value
-            whose cumulative weight reaches ``u``, so the mapping is monotone.
+            into [F(low), F(high)] of the untruncated one (normal laws by ``ndtri`` from the
+            nearer end, in log space for lognormal; scipy's truncnorm only for a window holding
+            under 1e-3 of the mass). Discrete: the smallest value whose cumulative weight
+            reaches ``u``, so the mapping is monotone.
         """
         u = np.asarray(u, dtype=float)
         if np.any(~((u >= 0.0) & (u <= 1.0))):
