@@ -125,16 +125,17 @@ def format_comparison(result) -> str:
 
     cur = result.currency
     labels = input_labels(result)
+    wide = max([34] + [len(o.name) + 1 for o in result.cases])  # whole names, never cut
     lines = [f"  Comparison: {result.samples:,} trials ({result.method}, seed {result.seed}), "
              f"common random numbers; baseline {result.baseline.name}",
-             f"  {'case':<34}{'LCOE real ' + cur + '/kWh (P10 / P50 / P90)':>38}"
+             f"  {'case':<{wide}}{'LCOE real ' + cur + '/kWh (P10 / P50 / P90)':>38}"
              f"{'kWh/kW':>9}{'kWh/m2 cells':>14}{'kWh/m2 land':>13}"]
     import numpy as np
 
     for o in result.cases:
         t = o.trials
         q = np.quantile(t.lcoe_real, (0.1, 0.5, 0.9))
-        lines.append(f"  {o.name[:33]:<34}{q[0]:>16.4f} /{q[1]:>8.4f} /{q[2]:>8.4f}"
+        lines.append(f"  {o.name:<{wide}}{q[0]:>16.4f} /{q[1]:>8.4f} /{q[2]:>8.4f}"
                      f"{np.median(t.energy_per_kw_kwh):>11,.0f}"
                      f"{np.median(t.energy_per_cell_m2_kwh):>14,.1f}"
                      f"{np.median(t.energy_per_land_m2_kwh):>13,.1f}")
