@@ -271,3 +271,27 @@ def test_demo_compare_runs(tmp):
     verdicts = {f["check"]: f["verdict"] for f in vendor["audit"]}
     assert verdicts["claim_energy_ratio"] == "impossible"
     assert len(data["pairs"]) == 1  # the columns against the single-axis plant as well
+
+
+def test_bifacial_rear_light_counts_in_the_audit_bounds():
+    # the audit bounds a claimed energy ratio by the ratio of light on the cells; a bifacial
+    # plant's cells also get bifaciality x rear irradiation, so the model's own energy ratio
+    # against the same plant monofacial, stated as a claim, is within the bound ("ok")
+    from lcoe.case.reader import load_case
+    from lcoe.study.audit import audit_case, case_facts
+
+    root = __import__("pathlib").Path(__file__).resolve().parent.parent
+    mono = load_case(root / "inputs" / "lender_single_axis.toml")
+    bif = mono.with_values({"plant.bifaciality": 0.8, "plant.rear_loss_fraction": 0.1})
+    site = prepare(mono)
+    facts = [case_facts(c, site, evaluate(c, site, {})) for c in (mono, bif)]
+    per_m2 = [f["energy_kwh"] / f["cell_area_m2"] for f in facts]
+    model_ratio = per_m2[1] / per_m2[0]
+    assert model_ratio > 1.04  # a real rear gain
+    assert facts[1]["poa_kwh_m2"] > facts[0]["poa_kwh_m2"]
+    found = {f["check"]: f for f in audit_case(facts[1], {"energy_ratio": model_ratio,
+                                                          "energy_per_kw_kwh": None,
+                                                          "energy_per_m2_kwh": None,
+                                                          "lcoe_ratio": None},
+                                               baseline=facts[0])}
+    assert found["claim_energy_ratio"]["verdict"] == "ok", found["claim_energy_ratio"]

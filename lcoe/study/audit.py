@@ -499,13 +499,16 @@ def case_facts(case, site, base) -> dict:
     dict
         See :func:`audit_case`. For a concentrator the "cells" are its aperture (rated at
         optical x cell efficiency on direct normal light), as :func:`lcoe.study.audit.audit`
-        expects.
+        expects. Bifacial cells also get bifaciality x rear light (before the rear loss).
     """
     e = base.energy
     w = site.weather
     concentrating = case["plant.mount"] == "concentrator"
+    chain = e.loss_chain_kwh  # its rear step: kW x bifaciality x (1 - rear loss) x rear light
+    rear_kwh_m2 = float((chain["after_bifacial_kwh"][0] - chain["after_soiling_kwh"][0]) /
+                        e.dc_capacity_kw[0] / (1.0 - float(case["plant.rear_loss_fraction"])))
     facts = {"energy_kwh": float(e.annual_kwh[0]), "cell_area_m2": float(e.cell_area_m2[0]),
-             "poa_kwh_m2": float(e.poa_kwh_m2[0]),
+             "poa_kwh_m2": float(e.poa_kwh_m2[0]) + rear_kwh_m2,
              "module_efficiency": rated_efficiency(case) if concentrating else
              float(case["plant.module_efficiency"]),
              "land_area_m2": float(e.land_area_m2[0]),
